@@ -1,1 +1,50 @@
-export async function main(argv: string[]): Promise<number> { console.log('hi', argv); return 0; }
+import { countCommand, countUsage } from './commands/count.ts';
+import { demoCommand, demoUsage } from './commands/demo.ts';
+import { learnCommand, learnUsage } from './commands/learn.ts';
+import { UsageError } from './commands/args.ts';
+
+const commands: Record<string, { run: (argv: string[]) => Promise<number>; usage: string; summary: string }> = {
+  learn: { run: learnCommand, usage: learnUsage, summary: 'learn the empty scene from frames with nobody in them' },
+  count: { run: countCommand, usage: countUsage, summary: 'count people and shelf fill per zone in each frame' },
+  demo: { run: demoCommand, usage: demoUsage, summary: 'count the built-in synthetic reading room live' },
+};
+
+const overview = `Residuum counts people per zone of a room, and fill per shelf section, from an ordinary camera,
+without storing any image of people.
+
+Usage: residuum <command> [options]        residuum <command> --help
+
+Commands:
+${Object.entries(commands).map(([name, c]) => `  ${name.padEnd(8)} ${c.summary}`).join('\n')}
+`;
+
+/** Runs one command line; returns the process exit code (0 ok, 1 failed, 2 wrong usage). */
+export async function main(argv: string[]): Promise<number> {
+  const [name, ...rest] = argv;
+  if (name === undefined || name === 'help' || name === '--help' || name === '-h') {
+    process.stdout.write(overview);
+    return name === undefined ? 2 : 0;
+  }
+  const command = commands[name];
+  if (!command) {
+    process.stderr.write(`residuum: no command "${name}"\n\n${overview}`);
+    return 2;
+  }
+  if (rest.includes('--help') || rest.includes('-h')) {
+    process.stdout.write(`${command.usage}\n`);
+    return 0;
+  }
+  try {
+    return await command.run(rest);
+  } catch (error) {
+    if (error instanceof UsageError) {
+      process.stderr.write(`residuum ${name}: ${error.message}\n\n${command.usage}\n`);
+      return 2;
+    }
+    const e = error as Error;
+    // Known errors carry a message that names the file or field; anything else gets its stack.
+    const known = ['FrameError', 'ModelFileError', 'ZoneError', 'RangeError'].includes(e.name);
+    process.stderr.write(`residuum ${name}: ${known ? e.message : (e.stack ?? String(e))}\n`);
+    return 1;
+  }
+}

@@ -1,0 +1,185 @@
+import { parse as parseYaml } from 'yaml';
+import { AnchorPoint, ZoneKind, type NormalisedPoint, type Zone } from './zone.ts';
+
+/** A zones file or configuration section that does not validate; the message names the field. */
+export class ZoneError extends Error {
+  override name = 'ZoneError';
+}
+
+const idPattern = /^[A-Za-z0-9][A-Za-z0-9_-]{0,63}$/;
+
+/**
+ * Reads and validates the `zones` list of a zones file (YAML or JSON; JSON is valid YAML):
+ *
+ * ```yaml
+ * zones:
+ *   - id: tables            # letters, digits, - and _
+ *     name: Reading tables  # optional
+ *     kind: room            # room | shelf
+ *     polygon: [[0.05, 0.45], [0.60, 0.45], [0.60, 0.98], [0.05, 0.98]]
+ *     personArea: 0.009     # optional, fraction of the frame area
+ *     minBlobArea: 0.002    # optional, fraction of the frame area
+ *     threshold: 3          # optional, noise units
+ *     anchor: foot          # optional: foot | centroid
+ *     capacity: 24          # optional, people
+ * ```
+ *
+ * A bare list (without the `zones:` key) is accepted too. Errors name the source and the field,
+ * e.g. `zones.yaml: zones[1].polygon[2][0] must be a number in 0..1, got NaN`.
+ */
+export function parseZones(text: string, source = 'zones'): Zone[] {
+  let doc: unknown;
+  try {
+    doc = parseYaml(text);
+  } catch (error) {
+    throw new ZoneError(`${source}: not valid YAML or JSON (${(error as Error).message.split('\n')[0]})`);
+  }
+  return validateZones(doc, source);
+}
+
+/** Validates an already parsed zones value: a list, or an object with a `zones` list. */
+export function validateZones(doc: unknown, source = 'zones', path = 'zones'): Zone[] {
+  const list = Array.isArray(doc) ? doc : isRecord(doc) ? doc.zones : undefined;
+  if (!Array.isArray(list)) throw new ZoneError(`${source}: ${path} must be a list of zones`);
+  if (list.length === 0) throw new ZoneError(`${source}: ${path} is empty; give at least one zone`);
+  const seen = new Set<string>();
+  return list.map((raw, index) => {
+    const zone = validateZone(raw, source, `${path}[${index}]`);
+    if (seen.has(zone.id)) throw new ZoneError(`${source}: ${path}[${index}].id "${zone.id}" is used twice`);
+    seen.add(zone.id);
+    return zone;
+  });
+}
+
+const knownFields = new Set(['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'anchor', 'capacity']);
+
+function validateZone(raw: unknown, source: string, at: string): Zone {
+  const fail = (field: string, message: string): never => {
+    throw new ZoneError(`${source}: ${at}${field ? '.' + field : ''}${message.startsWith('[') ? '' : ' '}${message}`);
+  };
+  if (!isRecord(raw)) fail('', 'must be an object with id, kind and polygon');
+  const z = raw as Record<string, unknown>;
+  for (const key of Object.keys(z)) if (!knownFields.has(key)) fail(key, `is not a zone field (known: ${[...knownFields].join(', ')})`);
+
+  if (typeof z.id !== 'string' || !idPattern.test(z.id)) {
+    fail('id', `must be 1–64 letters, digits, "-" or "_", starting with a letter or digit, got ${show(z.id)}`);
+  }
+  if (z.name !== undefined && (typeof z.name !== 'string' || z.name.length > 200)) fail('name', 'must be text of at most 200 characters');
+  const kinds = Object.values(ZoneKind) as string[];
+  if (typeof z.kind !== 'string' || !kinds.includes(z.kind)) fail('kind', `must be one of ${kinds.join(', ')}, got ${show(z.kind)}`);
+  const polygon = validatePolygon(z.polygon, (message) => fail('polygon', message));
+
+  const fraction = (key: string) => {
+    const v = z[key];
+    if (v === undefined) return undefined;
+    if (typeof v !== 'number' || !(v > 0 && v <= 1)) fail(key, `must be a fraction of the frame area in (0, 1], got ${show(v)}`);
+    return v as number;
+  };
+  const threshold = z.threshold;
+  if (threshold !== undefined && (typeof threshold !== 'number' || !(threshold > 0 && threshold <= 100))) {
+    fail('threshold', `must be a number of noise units in (0, 100], got ${show(threshold)}`);
+  }
+  const anchors = Object.values(AnchorPoint) as string[];
+  if (z.anchor !== undefined && (typeof z.anchor !== 'string' || !anchors.includes(z.anchor))) {
+    fail('anchor', `must be one of ${anchors.join(', ')}, got ${show(z.anchor)}`);
+  }
+  const capacity = z.capacity;
+  if (capacity !== undefined && (typeof capacity !== 'number' || !Number.isInteger(capacity) || capacity < 0)) {
+    fail('capacity', `must be a whole number ≥ 0, got ${show(capacity)}`);
+  }
+  const zone: Zone = {
+    id: z.id as string,
+    kind: z.kind as ZoneKind,
+    polygon,
+    ...(z.name !== undefined && { name: z.name as string }),
+    ...(threshold !== undefined && { threshold: threshold as number }),
+    ...(z.minBlobArea !== undefined && { minBlobArea: fraction('minBlobArea') }),
+    ...(z.personArea !== undefined && { personArea: fraction('personArea') }),
+    ...(z.anchor !== undefined && { anchor: z.anchor as AnchorPoint }),
+    ...(capacity !== undefined && { capacity: capacity as number }),
+  };
+  return zone;
+}
+
+/** Checks a polygon: ≥ 3 vertices, each [x, y] with finite numbers in 0..1, simple, non-zero area. */
+export function validatePolygon(raw: unknown, fail: (message: string) => never): NormalisedPoint[] {
+  if (!Array.isArray(raw)) return fail(`must be a list of [x, y] points, got ${show(raw)}`);
+  if (raw.length < 3) return fail(`needs at least 3 points, got ${raw.length}`);
+  if (raw.length > 1000) return fail(`has ${raw.length} points; at most 1000`);
+  const points = raw.map((p, i): NormalisedPoint => {
+    if (!Array.isArray(p) || p.length !== 2) return fail(`[${i}] must be a pair [x, y], got ${show(p)}`);
+    p.forEach((v, axis) => {
+      if (typeof v !== 'number' || !Number.isFinite(v) || v < 0 || v > 1) {
+        fail(`[${i}][${axis}] must be a number in 0..1 (${axis === 0 ? 'x, from the left' : 'y, from the top'}), got ${show(v)}`);
+      }
+    });
+    return [p[0] as number, p[1] as number];
+  });
+  const crossing = firstSelfIntersection(points);
+  if (crossing) return fail(`is self-intersecting: edge ${crossing[0]} crosses edge ${crossing[1]}`);
+  if (Math.abs(signedArea(points)) < 1e-9) return fail('has zero area');
+  return points;
+}
+
+/** Shoelace formula. */
+function signedArea(p: readonly NormalisedPoint[]): number {
+  let s = 0;
+  for (let i = 0, j = p.length - 1; i < p.length; j = i++) s += p[j][0] * p[i][1] - p[i][0] * p[j][1];
+  return s / 2;
+}
+
+/** The first pair of edges (by index; edge i runs from point i to point i+1) that touch or cross. */
+function firstSelfIntersection(p: readonly NormalisedPoint[]): [number, number] | undefined {
+  const n = p.length;
+  for (let i = 0; i < n; i++) {
+    for (let j = i + 1; j < n; j++) {
+      const adjacent = j === i + 1 || (i === 0 && j === n - 1);
+      const a = p[i], b = p[(i + 1) % n], c = p[j], d = p[(j + 1) % n];
+      if (adjacent) {
+        // Adjacent edges share one vertex; they only conflict when they fold back over each other.
+        const shared = j === i + 1 ? b : a;
+        const other1 = j === i + 1 ? a : b;
+        const other2 = j === i + 1 ? d : c;
+        if (cross(shared, other1, other2) === 0 && dot(shared, other1, other2) > 0) return [i, j];
+        continue;
+      }
+      if (segmentsTouch(a, b, c, d)) return [i, j];
+    }
+  }
+  return undefined;
+}
+
+function cross(o: NormalisedPoint, a: NormalisedPoint, b: NormalisedPoint): number {
+  return (a[0] - o[0]) * (b[1] - o[1]) - (a[1] - o[1]) * (b[0] - o[0]);
+}
+
+function dot(o: NormalisedPoint, a: NormalisedPoint, b: NormalisedPoint): number {
+  return (a[0] - o[0]) * (b[0] - o[0]) + (a[1] - o[1]) * (b[1] - o[1]);
+}
+
+function onSegment(a: NormalisedPoint, b: NormalisedPoint, p: NormalisedPoint): boolean {
+  return Math.min(a[0], b[0]) <= p[0] && p[0] <= Math.max(a[0], b[0]) && Math.min(a[1], b[1]) <= p[1] && p[1] <= Math.max(a[1], b[1]);
+}
+
+/** Segment intersection by orientation tests (Cormen et al., Introduction to Algorithms, §33.1). */
+function segmentsTouch(a: NormalisedPoint, b: NormalisedPoint, c: NormalisedPoint, d: NormalisedPoint): boolean {
+  const d1 = cross(c, d, a), d2 = cross(c, d, b), d3 = cross(a, b, c), d4 = cross(a, b, d);
+  if (((d1 > 0 && d2 < 0) || (d1 < 0 && d2 > 0)) && ((d3 > 0 && d4 < 0) || (d3 < 0 && d4 > 0))) return true;
+  return (
+    (d1 === 0 && onSegment(c, d, a)) ||
+    (d2 === 0 && onSegment(c, d, b)) ||
+    (d3 === 0 && onSegment(a, b, c)) ||
+    (d4 === 0 && onSegment(a, b, d))
+  );
+}
+
+function isRecord(v: unknown): v is Record<string, unknown> {
+  return typeof v === 'object' && v !== null && !Array.isArray(v);
+}
+
+function show(v: unknown): string {
+  if (typeof v === 'number') return String(v);
+  if (v === undefined) return 'nothing';
+  const s = JSON.stringify(v);
+  return s === undefined ? String(v) : s.length > 60 ? s.slice(0, 57) + '...' : s;
+}

@@ -1,0 +1,68 @@
+import type { Mask } from '../frames/frame.ts';
+import type { Blob } from './labelComponents.ts';
+import { pointInPolygon } from './pointInPolygon.ts';
+import type { PreparedZone } from './prepareZones.ts';
+
+/** What one zone holds in one frame. */
+export interface ZoneTally {
+  /** People (rooms) or items (shelves) in the zone. */
+  readonly count: number;
+  /** Share of the zone's pixels that are foreground, 0..1. */
+  readonly fill: number;
+  /** Blobs anchored in the zone and large enough to count. */
+  readonly blobs: number;
+}
+
+export interface FrameTally {
+  /** People or items over all zones, each blob counted once (by the first zone that claims it). */
+  readonly total: number;
+  readonly zones: Record<string, ZoneTally>;
+}
+
+/**
+ * How many people one blob stands for: max(1, round(area / personArea)), rounding halves up.
+ * A blob of 1.4 person areas is one person, of 1.5 is two; any kept blob is at least one.
+ */
+export function peopleInBlob(area: number, personPixels: number): number {
+  if (!(personPixels > 0)) return 1;
+  return Math.max(1, Math.floor(area / personPixels + 0.5));
+}
+
+/**
+ * Tallies blobs and foreground per zone.
+ *
+ * A blob belongs to every zone whose polygon contains its anchor point (the foot point, bottom
+ * centre of the bounding box, for rooms; the centroid for shelves), taken at pixel centres in
+ * normalised coordinates; zones drop blobs smaller than their minimum. A room counts people by
+ * {@link peopleInBlob}; a shelf counts item blobs the same way (one each when it has no item area)
+ * and reports its fill, the foreground share of its pixels.
+ */
+export function tallyZones(
+  blobs: readonly Blob[],
+  mask: Mask,
+  zones: readonly PreparedZone[],
+): FrameTally {
+  const { width, height, data } = mask;
+  const result: Record<string, ZoneTally> = {};
+  const claimed = new Map<number, number>();
+  for (const zone of zones) {
+    let foreground = 0;
+    const pixels = zone.pixels;
+    for (let p = 0; p < pixels.length; p++) foreground += data[pixels[p]];
+    let count = 0;
+    let kept = 0;
+    for (const blob of blobs) {
+      if (blob.area < zone.minBlobPixels) continue;
+      const [ax, ay] = zone.anchor === 'foot' ? [blob.footX, blob.footY] : [blob.cx, blob.cy];
+      if (!pointInPolygon((ax + 0.5) / width, (ay + 0.5) / height, zone.polygon)) continue;
+      const people = peopleInBlob(blob.area, zone.personPixels);
+      count += people;
+      kept++;
+      if (!claimed.has(blob.label)) claimed.set(blob.label, people);
+    }
+    result[zone.id] = { count, fill: pixels.length > 0 ? foreground / pixels.length : 0, blobs: kept };
+  }
+  let total = 0;
+  for (const people of claimed.values()) total += people;
+  return { total, zones: result };
+}

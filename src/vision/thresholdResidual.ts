@@ -1,0 +1,82 @@
+import { outputMask, type Mask } from '../frames/frame.ts';
+
+export interface ThresholdResidualOptions {
+  /**
+   * Foreground threshold in noise units: a pixel is foreground when the local mean of (r / σ)²
+   * is greater than threshold² (strictly). A number for the whole frame, or one per pixel.
+   * Default 3.
+   */
+  threshold?: number | Float32Array;
+  /** Radius of the square smoothing window in pixels (0 = no smoothing); default 1, i.e. 3×3. */
+  radius?: number;
+  /** Mask to write into instead of allocating. */
+  out?: Mask;
+  /** Scratch buffer of width × height floats for the smoothing, reused instead of allocating. */
+  scratch?: Float32Array;
+}
+
+/**
+ * Foreground mask from residual energy, in units of the learned per-pixel noise.
+ *
+ * The normalised energy (r_i / σ_i)² is about 1 where the model explains the scene. Averaging it
+ * over a small window before thresholding (a box filter, computed separably with running sums)
+ * suppresses isolated noisy pixels while keeping the edges of a person-sized blob; near the image
+ * border the mean is over the pixels inside the image. A threshold of 3 noise units then asks for
+ * a local mean of (r/σ)² above 9.
+ *
+ * @param energy e_i = r_i², row-major (see residualEnergy).
+ * @param inverseNoiseVariance 1 / σ_i² per pixel.
+ */
+export function thresholdResidual(
+  energy: Float32Array,
+  inverseNoiseVariance: Float32Array,
+  size: { width: number; height: number },
+  options: ThresholdResidualOptions = {},
+): Mask {
+  const { threshold = 3, radius = 1, out, scratch } = options;
+  const { width, height } = size;
+  const d = width * height;
+  if (energy.length !== d || inverseNoiseVariance.length !== d) {
+    throw new RangeError(`energy and noise must have ${width}×${height} = ${d} pixels`);
+  }
+  if (typeof threshold !== 'number' && threshold.length !== d) {
+    throw new RangeError(`threshold map has ${threshold.length} pixels, expected ${d}`);
+  }
+  if (!(Number.isInteger(radius) && radius >= 0)) throw new RangeError(`radius must be a whole number ≥ 0, got ${radius}`);
+  const mask = outputMask(width, height, out);
+  const rows = scratch ?? new Float32Array(d);
+  if (rows.length !== d) throw new RangeError(`scratch has length ${rows.length}, expected ${d}`);
+  const m = mask.data;
+
+  // Horizontal running sums of the normalised energy.
+  for (let y = 0; y < height; y++) {
+    const row = y * width;
+    let sum = 0;
+    for (let x = 0; x < Math.min(radius, width); x++) sum += energy[row + x] * inverseNoiseVariance[row + x];
+    for (let x = 0; x < width; x++) {
+      const add = x + radius;
+      if (add < width) sum += energy[row + add] * inverseNoiseVariance[row + add];
+      const drop = x - radius - 1;
+      if (drop >= 0) sum -= energy[row + drop] * inverseNoiseVariance[row + drop];
+      rows[row + x] = sum;
+    }
+  }
+  // Vertical running sums, divided by the number of in-image pixels in the window.
+  const single = typeof threshold === 'number' ? threshold * threshold : 0;
+  for (let x = 0; x < width; x++) {
+    let sum = 0;
+    for (let y = 0; y < Math.min(radius, height); y++) sum += rows[y * width + x];
+    const nx = Math.min(x + radius, width - 1) - Math.max(x - radius, 0) + 1;
+    for (let y = 0; y < height; y++) {
+      const add = y + radius;
+      if (add < height) sum += rows[add * width + x];
+      const drop = y - radius - 1;
+      if (drop >= 0) sum -= rows[drop * width + x];
+      const ny = Math.min(y + radius, height - 1) - Math.max(y - radius, 0) + 1;
+      const i = y * width + x;
+      const t = typeof threshold === 'number' ? single : threshold[i] * threshold[i];
+      m[i] = sum / (nx * ny) > t ? 1 : 0;
+    }
+  }
+  return mask;
+}

@@ -1,0 +1,125 @@
+import { describe, expect, it } from 'vitest';
+import { PCA } from 'ml-pca';
+import { fitSubspace } from '../../src/vision/fitSubspace.ts';
+import { symmetricEigen } from '../../src/vision/symmetricEigen.ts';
+import { mulberry } from '../helpers/random.ts';
+
+/** Column j of a pixel-major basis. */
+function column(basis: Float32Array, d: number, k: number, j: number): Float64Array {
+  const c = new Float64Array(d);
+  for (let i = 0; i < d; i++) c[i] = basis[i * k + j];
+  return c;
+}
+
+/** Cosines of the principal angles between two k-dimensional subspaces (singular values of AᵀB). */
+function principalCosines(a: Float64Array[], b: Float64Array[]): Float64Array {
+  const k = a.length;
+  const m = new Float64Array(k * k);
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j < k; j++) {
+      let s = 0;
+      for (let p = 0; p < a[i].length; p++) s += a[i][p] * b[j][p];
+      m[i * k + j] = s;
+    }
+  }
+  // Singular values of M are the square roots of the eigenvalues of MᵀM.
+  const mtm = new Float64Array(k * k);
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j < k; j++) {
+      let s = 0;
+      for (let p = 0; p < k; p++) s += m[p * k + i] * m[p * k + j];
+      mtm[i * k + j] = s;
+    }
+  }
+  return symmetricEigen(mtm, k).values.map((v) => Math.sqrt(Math.max(v, 0)));
+}
+
+describe('fitSubspace', () => {
+  it('reproduces the published two-variable worked example', () => {
+    // check: L. I. Smith, "A tutorial on Principal Components Analysis" (2002), §3: data set,
+    // covariance eigenvalues and unit eigenvectors (values recalled from memory).
+    const x = [2.5, 0.5, 2.2, 1.9, 3.1, 2.3, 2, 1, 1.5, 1.1];
+    const y = [2.4, 0.7, 2.9, 2.2, 3.0, 2.7, 1.6, 1.1, 1.6, 0.9];
+    const frames = x.map((xi, i) => Float32Array.of(xi, y[i]));
+    const model = fitSubspace(frames, { width: 2, height: 1 }, { components: 2 });
+    expect(model.eigenvalues[0]).toBeCloseTo(1.28402771, 5);
+    expect(model.eigenvalues[1]).toBeCloseTo(0.0490833989, 5);
+    const first = column(model.basis, 2, 2, 0);
+    const second = column(model.basis, 2, 2, 1);
+    // Eigenvectors are defined up to sign.
+    const s1 = Math.sign(first[0]) * Math.sign(-0.677873399);
+    expect(first[0] * s1).toBeCloseTo(-0.677873399, 5);
+    expect(first[1] * s1).toBeCloseTo(-0.735178656, 5);
+    const s2 = Math.sign(second[0]) * Math.sign(-0.735178656);
+    expect(second[0] * s2).toBeCloseTo(-0.735178656, 5);
+    expect(second[1] * s2).toBeCloseTo(0.677873399, 5);
+    expect(model.mean[0]).toBeCloseTo(1.81, 5);
+    expect(model.mean[1]).toBeCloseTo(1.91, 5);
+    expect(model.totalVariance).toBeCloseTo(0.616555556 + 0.716555556, 5);
+    expect(model.retainedVariance).toBeCloseTo(1, 6);
+  });
+
+  it('agrees with an SVD of the data matrix on random data (ml-pca)', () => {
+    const rand = mulberry(7);
+    const n = 40;
+    const d = 60;
+    // Low-rank structure plus noise, so the leading subspace is well defined.
+    const factors = Array.from({ length: 4 }, () => Float64Array.from({ length: d }, () => rand() * 2 - 1));
+    const rows: number[][] = [];
+    for (let t = 0; t < n; t++) {
+      const w = [5, 3, 2, 1].map((s) => s * (rand() * 2 - 1));
+      rows.push(Array.from({ length: d }, (_, i) => 100 + factors.reduce((s, f, q) => s + w[q] * f[i], 0) + 0.05 * (rand() - 0.5)));
+    }
+    const frames = rows.map((r) => Float32Array.from(r));
+    const model = fitSubspace(frames, { width: d, height: 1 }, { variance: 0.99 });
+    // check: ml-pca (PCA by SVD of the centred data matrix, an independent route to the same subspace)
+    const pca = new PCA(rows, { method: 'SVD' });
+    const cumulative = pca.getCumulativeVariance();
+    const k = model.components;
+    expect(k).toBe(cumulative.findIndex((c) => c >= 0.99) + 1);
+    expect(model.retainedVariance).toBeCloseTo(cumulative[k - 1], 4);
+    const theirs = pca.getEigenvalues().slice(0, k);
+    theirs.forEach((v, j) => expect(model.eigenvalues[j] / v).toBeCloseTo(1, 3));
+    const vectors = pca.getEigenvectors();
+    const ours = Array.from({ length: k }, (_, j) => column(model.basis, d, k, j));
+    const ref = Array.from({ length: k }, (_, j) => Float64Array.from(vectors.getColumn(j)));
+    for (const c of principalCosines(ours, ref)) expect(c).toBeCloseTo(1, 4);
+  });
+
+  it('keeps orthonormal eigen-images and a noise level near the sensor noise', () => {
+    const rand = mulberry(11);
+    const width = 24;
+    const height = 16;
+    const d = width * height;
+    const sigma = 3;
+    const frames: Float32Array[] = [];
+    for (let t = 0; t < 60; t++) {
+      const gain = 1 + 0.2 * Math.sin(t / 5);
+      const f = new Float32Array(d);
+      for (let i = 0; i < d; i++) f[i] = 80 * gain + (i % width) + gaussian(rand) * sigma;
+      frames.push(f);
+    }
+    const model = fitSubspace(frames, { width, height }, { components: 1 });
+    const u = column(model.basis, d, 1, 0);
+    expect(u.reduce((s, v) => s + v * v, 0)).toBeCloseTo(1, 5);
+    const meanNoise = model.noise.reduce((s, v) => s + v, 0) / d;
+    expect(meanNoise).toBeGreaterThan(sigma * 0.85);
+    expect(meanNoise).toBeLessThan(sigma * 1.15);
+  });
+
+  it('chooses k by retained variance, capped, and rejects bad options', () => {
+    const rand = mulberry(3);
+    const frames = Array.from({ length: 30 }, () => Float32Array.from({ length: 50 }, () => rand() * 255));
+    const capped = fitSubspace(frames, { width: 50, height: 1 }, { variance: 0.999, maxComponents: 5 });
+    expect(capped.components).toBe(5);
+    expect(() => fitSubspace(frames.slice(0, 1), { width: 50, height: 1 })).toThrow(/at least 2 frames/);
+    expect(() => fitSubspace(frames, { width: 50, height: 1 }, { components: 40 })).toThrow(/components 40/);
+    expect(() => fitSubspace(frames, { width: 50, height: 1 }, { variance: 1.5 })).toThrow(/variance/);
+    expect(() => fitSubspace(frames, { width: 49, height: 1 })).toThrow(/pixels/);
+  });
+});
+
+function gaussian(rand: () => number): number {
+  const u = Math.max(rand(), 1e-12);
+  return Math.sqrt(-2 * Math.log(u)) * Math.cos(2 * Math.PI * rand());
+}

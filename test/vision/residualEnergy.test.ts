@@ -1,0 +1,55 @@
+import { describe, expect, it } from 'vitest';
+import { Matrix } from 'ml-matrix';
+import { fitSubspace } from '../../src/vision/fitSubspace.ts';
+import { residualEnergy } from '../../src/vision/residualEnergy.ts';
+import { mulberry } from '../helpers/random.ts';
+
+describe('residualEnergy', () => {
+  const width = 12;
+  const height = 8;
+  const d = width * height;
+  const rand = mulberry(5);
+  const frames = Array.from({ length: 25 }, () => Float32Array.from({ length: d }, () => 50 + rand() * 100));
+  const model = fitSubspace(frames, { width, height }, { components: 4 });
+
+  it('matches r = (z − μ) − B·Bᵀ(z − μ) computed with dense matrices', () => {
+    const z = Float32Array.from({ length: d }, () => rand() * 255);
+    const result = residualEnergy(model, { width, height, data: z });
+    // check: ml-matrix dense products (an independent route to the same projection)
+    const B = new Matrix(d, model.components);
+    for (let i = 0; i < d; i++) for (let j = 0; j < model.components; j++) B.set(i, j, model.basis[i * model.components + j]);
+    const c = Matrix.columnVector(Array.from(z, (v, i) => v - model.mean[i]));
+    const y = B.transpose().mmul(c);
+    const r = Matrix.sub(c, B.mmul(y));
+    for (let i = 0; i < d; i++) expect(result.energy[i]).toBeCloseTo(r.get(i, 0) ** 2, 2);
+    expect(result.dffs).toBeCloseTo(r.norm() ** 2, 0);
+    for (let j = 0; j < model.components; j++) expect(result.coefficients[j]).toBeCloseTo(y.get(j, 0), 3);
+    const difs = Array.from({ length: model.components }, (_, j) => y.get(j, 0) ** 2 / model.eigenvalues[j]).reduce((a, b) => a + b);
+    expect(result.difs).toBeCloseTo(difs, 6);
+  });
+
+  it('gives no residual for a frame inside the subspace', () => {
+    const z = new Float32Array(d);
+    for (let i = 0; i < d; i++) z[i] = model.mean[i] + 30 * model.basis[i * model.components] - 12 * model.basis[i * model.components + 2];
+    const result = residualEnergy(model, { width, height, data: z });
+    expect(result.dffs).toBeLessThan(1e-6);
+    expect(result.coefficients[0]).toBeCloseTo(30, 3);
+    expect(result.coefficients[2]).toBeCloseTo(-12, 3);
+  });
+
+  it('is the squared difference from the mean when the model keeps no components', () => {
+    const mean0 = fitSubspace(frames, { width, height }, { components: 0 });
+    const z = Float32Array.from({ length: d }, () => rand() * 255);
+    const result = residualEnergy(mean0, { width, height, data: z });
+    for (let i = 0; i < d; i++) expect(result.energy[i]).toBeCloseTo((z[i] - mean0.mean[i]) ** 2, 2);
+    expect(result.difs).toBe(0);
+  });
+
+  it('reuses buffers and rejects frames of another size', () => {
+    const out = new Float32Array(d);
+    const z = Float32Array.from({ length: d }, () => rand() * 255);
+    expect(residualEnergy(model, { width, height, data: z }, { out }).energy).toBe(out);
+    expect(() => residualEnergy(model, { width: height, height: width, data: z })).toThrow(/8×12/);
+    expect(() => residualEnergy(model, { width, height, data: z }, { out: new Float32Array(3) })).toThrow(/length 3/);
+  });
+});
