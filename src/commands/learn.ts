@@ -1,6 +1,7 @@
 import type { GreyFrame } from '../frames/frame.ts';
 import { saveModel } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
+import { distinctFrames } from '../vision/distinctFrames.ts';
 import { fitSubspace } from '../vision/fitSubspace.ts';
 import { numberOption, parseOptions, requireOption, UsageError } from './args.ts';
 import { frameInput } from './frameInput.ts';
@@ -63,7 +64,13 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     return 1;
   }
   io.err.write(progress.interactive ? 'fitting the subspace…\n' : '');
-  const model = fitSubspace(data, size, { components, variance, maxComponents });
+  const distinct = distinctFrames(data);
+  const repeated = data.length - distinct.length;
+  if (distinct.length < 2) {
+    io.err.write(`residuum learn: all ${data.length} frames of ${frames} are the same picture; at least 2 different ones are needed\n`);
+    return 1;
+  }
+  const model = fitSubspace(distinct, size, { components, variance, maxComponents });
   await saveModel(out, model, {
     learnedAt: new Date().toISOString(),
     source: frames,
@@ -71,7 +78,7 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
   });
   const verdict = modelVerdict(model);
   const rows: [string, string][] = [
-    ['frames used', `${model.frameCount}${skipped ? ` (${skipped} skipped)` : ''}`],
+    ['frames used', `${model.frameCount}${[repeated && `${repeated} repeated dropped`, skipped && `${skipped} unreadable skipped`].filter(Boolean).join(', ').replace(/^(.+)$/, ' ($1)')}`],
     ['working size', `${model.width}×${model.height}`],
     ['components kept', String(model.components)],
     ['variance retained', `${(model.retainedVariance * 100).toFixed(1)} %`],

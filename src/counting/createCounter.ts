@@ -4,6 +4,7 @@ import { closeMask } from '../vision/closeMask.ts';
 import { labelComponents, type Blob } from '../vision/labelComponents.ts';
 import { openMask } from '../vision/openMask.ts';
 import { prepareZones, type PreparedZone, type PrepareZonesOptions } from '../vision/prepareZones.ts';
+import { frameNoiseScale } from '../vision/frameNoiseScale.ts';
 import { residualEnergy } from '../vision/residualEnergy.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { tallyZones, type FrameTally } from '../vision/tallyZones.ts';
@@ -22,6 +23,11 @@ export interface CounterOptions extends PrepareZonesOptions {
   closeRadius?: number;
   /** Pixel connectivity of blobs: 4 (edges) or 8 (edges and corners); default 8. */
   connectivity?: 4 | 8;
+  /**
+   * Raise thresholds when a whole frame is noisier than the learning frames (frameNoiseScale);
+   * default true. The scale is never below 1: a quiet frame keeps the learned thresholds.
+   */
+  adaptToFrameNoise?: boolean;
 }
 
 /** Everything counted in one frame. */
@@ -36,6 +42,8 @@ export interface FrameCount extends FrameTally {
   readonly difs: number;
   /** Mean (r/σ)² over the frame: about 1 for a scene the model explains. */
   readonly normalisedEnergy: number;
+  /** Frame noise relative to the learning frames (median (r/σ)² / median χ²₁); 1 = as learned. */
+  readonly noiseScale: number;
 }
 
 export interface Counter {
@@ -55,7 +63,7 @@ export interface Counter {
  * buffers are allocated once here and reused for every frame.
  */
 export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): Counter {
-  const { smoothRadius = 1, openRadius = 1, closeRadius = 2, connectivity = 8 } = options;
+  const { smoothRadius = 1, openRadius = 1, closeRadius = 2, connectivity = 8, adaptToFrameNoise = true } = options;
   const { width, height } = model;
   const d = width * height;
   const prepared = prepareZones(zones.length > 0 ? zones : [wholeFrameZone], model, options);
@@ -71,6 +79,7 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
   const energy = new Float32Array(d);
   const coefficients = new Float64Array(model.components);
   const scratch = new Float32Array(d);
+  const sampleScratch = new Float32Array(Math.ceil(d / 7));
   const raw = createMask(width, height);
   const opened = createMask(width, height);
   const closed = createMask(width, height);
@@ -85,7 +94,14 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     zones: prepared,
     count(frame) {
       const residual = residualEnergy(model, frame, { out: energy, outCoefficients: coefficients, inverseNoiseVariance });
-      thresholdResidual(energy, inverseNoiseVariance, model, { threshold: thresholds, radius: smoothRadius, out: raw, scratch });
+      const noiseScale = frameNoiseScale(energy, inverseNoiseVariance, { scratch: sampleScratch });
+      thresholdResidual(energy, inverseNoiseVariance, model, {
+        threshold: thresholds,
+        noiseScale: adaptToFrameNoise ? Math.max(1, noiseScale) : 1,
+        radius: smoothRadius,
+        out: raw,
+        scratch,
+      });
       let mask: Mask = raw;
       if (openRadius > 0) mask = openMask(mask, { radius: openRadius, out: opened, scratch: morphScratch });
       if (closeRadius > 0) mask = closeMask(mask, { radius: closeRadius, out: mask === raw ? opened : closed, scratch: morphScratch });
@@ -101,6 +117,7 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
         dffs: residual.dffs,
         difs: residual.difs,
         normalisedEnergy: residual.normalisedEnergy,
+        noiseScale,
       };
     },
     lastMask: () => last,

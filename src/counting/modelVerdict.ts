@@ -33,7 +33,7 @@ export function modelVerdict(model: Subspace): ModelVerdict {
   }
   if (medianNoise > 12) {
     lower('poor');
-    findings.push(`residual noise is high (median ${medianNoise.toFixed(1)} grey levels): the learning frames may show people, a moving camera or different scenes`);
+    findings.push(`residual noise is high (median ${medianNoise.toFixed(1)} grey levels): parts of the view keep moving (foliage, screens, flicker), the camera moved, or the learning frames show people`);
   } else if (medianNoise > 6) {
     lower('fair');
     findings.push(`residual noise is raised (median ${medianNoise.toFixed(1)} grey levels): something moved while learning, or the camera is noisy; counting will be less sensitive`);

@@ -10,7 +10,21 @@ export interface FitSubspaceOptions {
   maxComponents?: number;
   /** Lowest per-pixel noise level, in grey levels (inclusive); default 1.5. */
   noiseFloor?: number;
+  /**
+   * How the per-pixel noise level is estimated: `'cross-validated'` (default) from frames the
+   * subspace was not fitted to, `'training'` from the learning frames' own residuals.
+   */
+  noiseEstimate?: 'cross-validated' | 'training';
+  /**
+   * Radius in pixels of the neighbourhood whose largest noise level each pixel takes (0 = none);
+   * default 2. A textured edge that sways by a pixel or two (leaves, a curtain) then stays quiet;
+   * static texture keeps its low noise level, since the largest of low levels is low.
+   */
+  noiseSpread?: number;
 }
+
+/** Frames per block when splitting the learning frames into two interleaved halves. */
+const foldBlock = 8;
 
 /**
  * Learns the empty-scene subspace from frames of an empty scene (eigenbackground:
@@ -21,10 +35,12 @@ export interface FitSubspaceOptions {
  * eigenvector v of G maps to the unit eigen-image u = Xv / √λ. Only an n×n eigenproblem is solved,
  * however many pixels a frame has. Covariance eigenvalues are λ / (n − 1).
  *
- * The per-pixel noise level is the root mean square residual of the learning frames after
- * projection, with the residual degrees of freedom n − 1 − k as divisor (common practice, as in
- * least-squares regression), floored at `noiseFloor` so that clipped or flat pixels do not become
- * infinitely sensitive.
+ * The per-pixel noise level σ_i is the root mean square residual that the model leaves on frames
+ * it was not fitted to: two-fold cross-validation over interleaved blocks of 8 frames (the
+ * training residual of a subspace fitted to few frames is far smaller than what it leaves on new
+ * frames, and thresholds built on it fire everywhere). Each σ_i then takes the largest level
+ * within `noiseSpread` pixels and is floored at `noiseFloor`, so that clipped or flat pixels do
+ * not become infinitely sensitive.
  *
  * Example: ten 2-pixel "frames" (x, y) from the classic PCA tutorial data set give eigenvalues
  * 1.284 and 0.049 (see test/vision/fitSubspace.test.ts).
@@ -37,7 +53,14 @@ export function fitSubspace(
   size: { width: number; height: number },
   options: FitSubspaceOptions = {},
 ): Subspace {
-  const { components, variance = 0.95, maxComponents = 12, noiseFloor = 1.5 } = options;
+  const {
+    components,
+    variance = 0.95,
+    maxComponents = 12,
+    noiseFloor = 1.5,
+    noiseEstimate = 'cross-validated',
+    noiseSpread = 2,
+  } = options;
   const n = frames.length;
   const d = size.width * size.height;
   if (n < 2) throw new RangeError(`need at least 2 frames to learn from, got ${n}`);
@@ -51,6 +74,75 @@ export function fitSubspace(
   if (!(Number.isInteger(maxComponents) && maxComponents >= 0)) {
     throw new RangeError(`maxComponents must be a whole number ≥ 0, got ${maxComponents}`);
   }
+  if (!(Number.isInteger(noiseSpread) && noiseSpread >= 0)) {
+    throw new RangeError(`noiseSpread must be a whole number ≥ 0, got ${noiseSpread}`);
+  }
+  const fit = fitCore(frames, d, { components, variance, maxComponents });
+  const { mean, basis, k, keptSum, total } = fit;
+  let sumSq: Float64Array;
+  let divisor: number;
+  if (noiseEstimate === 'cross-validated' && n >= 4) {
+    // Two-fold cross-validation over interleaved blocks of frames: each half is explained by a
+    // subspace fitted to the other half, so the noise level is what the model leaves on frames it
+    // has not seen, not the smaller residual of the frames it was fitted to.
+    sumSq = new Float64Array(d);
+    const folds = [0, 1].map((f) => frames.filter((_, t) => Math.floor(t / foldBlock) % 2 === f));
+    if (folds[1].length === 0) {
+      folds[0] = frames.filter((_, t) => t % 2 === 0);
+      folds[1] = frames.filter((_, t) => t % 2 === 1);
+    }
+    for (let f = 0; f < 2; f++) {
+      const other = folds[1 - f];
+      const half = fitCore(other, d, { components: undefined, variance: 1, maxComponents: k });
+      addResidualSquares(folds[f], half.mean, half.basis, d, half.k, sumSq);
+    }
+    divisor = n;
+  } else {
+    sumSq = new Float64Array(d);
+    addResidualSquares(frames, mean, basis, d, k, sumSq);
+    // Residual degrees of freedom n − 1 − k, as in least-squares regression.
+    divisor = Math.max(1, n - 1 - k);
+  }
+  const noise = spreadMax(sumSq, divisor, noiseFloor, size, noiseSpread);
+  const retainedVariance = total > 0 ? keptSum / total : 1;
+  const residualVariance = d > k ? (total - keptSum) / (n - 1) / (d - k) : 0;
+  return {
+    width: size.width,
+    height: size.height,
+    components: k,
+    mean,
+    basis,
+    eigenvalues: fit.eigenvalues,
+    totalVariance: total / (n - 1),
+    retainedVariance,
+    residualVariance: Math.max(residualVariance, 0),
+    noise,
+    frameCount: n,
+  };
+}
+
+interface CoreFit {
+  mean: Float32Array;
+  basis: Float32Array;
+  eigenvalues: Float64Array;
+  k: number;
+  /** Sum of the kept Gram eigenvalues and of all of them (the trace), grey levels². */
+  keptSum: number;
+  total: number;
+}
+
+/** The largest number of independent directions n centred frames of d pixels can have. */
+function rankOf(n: number, d: number): number {
+  return Math.max(0, Math.min(n - 1, d));
+}
+
+/** Mean, Gram eigen-decomposition and eigen-images by the method of snapshots. */
+function fitCore(
+  frames: readonly Float32Array[],
+  d: number,
+  choice: { components: number | undefined; variance: number; maxComponents: number },
+): CoreFit {
+  const n = frames.length;
 
   const mean = meanOf(frames, d);
   const centred = frames.map((f) => {
@@ -63,13 +155,13 @@ export function fitSubspace(
 
   let total = 0;
   for (let i = 0; i < n; i++) total += gram[i * n + i];
-  const totalVariance = total / (n - 1);
   // Non-zero directions: at most n − 1 (centring removes one) and at most d.
   const tiny = Math.max(values[0], 0) * 1e-10;
   let rank = 0;
-  while (rank < Math.min(n - 1, d) && values[rank] > tiny) rank++;
+  while (rank < rankOf(n, d) && values[rank] > tiny) rank++;
 
   let k: number;
+  const { components, variance, maxComponents } = choice;
   if (components !== undefined) {
     if (components > rank) {
       throw new RangeError(
@@ -85,10 +177,13 @@ export function fitSubspace(
 
   const eigenvalues = new Float64Array(k);
   const basis = new Float32Array(d * k);
+  const u = new Float64Array(d);
+  let keptSum = 0;
   for (let j = 0; j < k; j++) {
+    keptSum += values[j];
     eigenvalues[j] = values[j] / (n - 1);
     const s = Math.sqrt(values[j]);
-    const u = new Float64Array(d);
+    u.fill(0);
     for (let t = 0; t < n; t++) {
       const w = vectors[j * n + t] / s;
       const c = centred[t];
@@ -97,26 +192,7 @@ export function fitSubspace(
     for (let i = 0; i < d; i++) basis[i * k + j] = u[i];
   }
   orthonormaliseColumns(basis, d, k);
-
-  let keptSum = 0;
-  for (let j = 0; j < k; j++) keptSum += values[j];
-  const retainedVariance = total > 0 ? keptSum / total : 1;
-  const residualVariance = d > k ? (total - keptSum) / (n - 1) / (d - k) : 0;
-
-  const noise = residualNoise(centred, basis, d, k, noiseFloor);
-  return {
-    width: size.width,
-    height: size.height,
-    components: k,
-    mean,
-    basis,
-    eigenvalues,
-    totalVariance,
-    retainedVariance,
-    residualVariance: Math.max(residualVariance, 0),
-    noise,
-    frameCount: n,
-  };
+  return { mean, basis, eigenvalues, k, keptSum, total };
 }
 
 function meanOf(frames: readonly Float32Array[], d: number): Float32Array {
@@ -180,20 +256,22 @@ function orthonormaliseColumns(basis: Float32Array, d: number, k: number): void 
   }
 }
 
-function residualNoise(
-  centred: readonly Float32Array[],
+/** Adds each frame's squared residual r_i² against (mean, basis) into sumSq. */
+function addResidualSquares(
+  frames: readonly Float32Array[],
+  mean: Float32Array,
   basis: Float32Array,
   d: number,
   k: number,
-  floor: number,
-): Float32Array {
-  const n = centred.length;
-  const sumSq = new Float64Array(d);
+  sumSq: Float64Array,
+): void {
+  const c = new Float64Array(d);
   const y = new Float64Array(k);
-  for (const c of centred) {
+  for (const f of frames) {
     y.fill(0);
     for (let i = 0; i < d; i++) {
-      const v = c[i];
+      const v = f[i] - mean[i];
+      c[i] = v;
       for (let j = 0; j < k; j++) y[j] += basis[i * k + j] * v;
     }
     for (let i = 0; i < d; i++) {
@@ -202,8 +280,34 @@ function residualNoise(
       sumSq[i] += r * r;
     }
   }
-  const dof = Math.max(1, n - 1 - k);
-  const noise = new Float32Array(d);
-  for (let i = 0; i < d; i++) noise[i] = Math.max(floor, Math.sqrt(sumSq[i] / dof));
+}
+
+/** σ_i = max(floor, largest √(sumSq / divisor) within `radius` pixels of i). */
+function spreadMax(
+  sumSq: Float64Array,
+  divisor: number,
+  floor: number,
+  size: { width: number; height: number },
+  radius: number,
+): Float32Array {
+  const { width, height } = size;
+  const sigma = new Float32Array(sumSq.length);
+  for (let i = 0; i < sumSq.length; i++) sigma[i] = Math.sqrt(sumSq[i] / divisor);
+  const rows = new Float32Array(sigma.length);
+  for (let y = 0; y < height; y++) {
+    for (let x = 0; x < width; x++) {
+      let m = 0;
+      for (let u = Math.max(0, x - radius); u <= Math.min(width - 1, x + radius); u++) m = Math.max(m, sigma[y * width + u]);
+      rows[y * width + x] = m;
+    }
+  }
+  const noise = new Float32Array(sigma.length);
+  for (let y = 0; y < height; y++) {
+    for (let x = 0; x < width; x++) {
+      let m = floor;
+      for (let v = Math.max(0, y - radius); v <= Math.min(height - 1, y + radius); v++) m = Math.max(m, rows[v * width + x]);
+      noise[y * width + x] = m;
+    }
+  }
   return noise;
 }

@@ -7,6 +7,11 @@ export interface ThresholdResidualOptions {
    * Default 3.
    */
   threshold?: number | Float32Array;
+  /**
+   * Factor on the noise variance for this frame, ≥ 1 in practice; default 1. A frame that is
+   * noisier everywhere than the learning frames (see frameNoiseScale) raises every threshold².
+   */
+  noiseScale?: number;
   /** Radius of the square smoothing window in pixels (0 = no smoothing); default 1, i.e. 3×3. */
   radius?: number;
   /** Mask to write into instead of allocating. */
@@ -33,7 +38,7 @@ export function thresholdResidual(
   size: { width: number; height: number },
   options: ThresholdResidualOptions = {},
 ): Mask {
-  const { threshold = 3, radius = 1, out, scratch } = options;
+  const { threshold = 3, noiseScale = 1, radius = 1, out, scratch } = options;
   const { width, height } = size;
   const d = width * height;
   if (energy.length !== d || inverseNoiseVariance.length !== d) {
@@ -62,7 +67,7 @@ export function thresholdResidual(
     }
   }
   // Vertical running sums, divided by the number of in-image pixels in the window.
-  const single = typeof threshold === 'number' ? threshold * threshold : 0;
+  const single = typeof threshold === 'number' ? threshold * threshold * noiseScale : 0;
   for (let x = 0; x < width; x++) {
     let sum = 0;
     for (let y = 0; y < Math.min(radius, height); y++) sum += rows[y * width + x];
@@ -74,7 +79,7 @@ export function thresholdResidual(
       if (drop >= 0) sum -= rows[drop * width + x];
       const ny = Math.min(y + radius, height - 1) - Math.max(y - radius, 0) + 1;
       const i = y * width + x;
-      const t = typeof threshold === 'number' ? single : threshold[i] * threshold[i];
+      const t = typeof threshold === 'number' ? single : threshold[i] * threshold[i] * noiseScale;
       m[i] = sum / (nx * ny) > t ? 1 : 0;
     }
   }

@@ -99,12 +99,19 @@ describe('fitSubspace', () => {
       for (let i = 0; i < d; i++) f[i] = 80 * gain + (i % width) + gaussian(rand) * sigma;
       frames.push(f);
     }
-    const model = fitSubspace(frames, { width, height }, { components: 1 });
+    const model = fitSubspace(frames, { width, height }, { components: 1, noiseSpread: 0 });
     const u = column(model.basis, d, 1, 0);
     expect(u.reduce((s, v) => s + v * v, 0)).toBeCloseTo(1, 5);
     const meanNoise = model.noise.reduce((s, v) => s + v, 0) / d;
+    // The gain change lies in the subspace, so what is left is the sensor noise.
     expect(meanNoise).toBeGreaterThan(sigma * 0.85);
     expect(meanNoise).toBeLessThan(sigma * 1.15);
+    // Training residuals underestimate it; spreading takes the neighbourhood's largest level.
+    const training = fitSubspace(frames, { width, height }, { components: 1, noiseSpread: 0, noiseEstimate: 'training' });
+    expect(training.noise.reduce((s, v) => s + v, 0) / d).toBeLessThan(sigma * 1.15);
+    const spread = fitSubspace(frames, { width, height }, { components: 1 });
+    for (let i = 0; i < d; i++) expect(spread.noise[i]).toBeGreaterThanOrEqual(model.noise[i]);
+    expect(spread.noise.reduce((s, v) => s + v, 0) / d).toBeLessThan(sigma * 1.4);
   });
 
   it('chooses k by retained variance, capped, and rejects bad options', () => {
