@@ -14,6 +14,12 @@ export interface ThresholdResidualOptions {
   noiseScale?: number;
   /** Radius of the square smoothing window in pixels (0 = no smoothing); default 1, i.e. 3×3. */
   radius?: number;
+  /**
+   * The pixel itself must also exceed this share of the threshold (in noise units, so its own
+   * (r/σ)² > (share · threshold)²), 0..1; default 0.5. Keeps the smoothing from growing a
+   * halo one window wide around every high-contrast blob. 0 turns the check off.
+   */
+  pixelShare?: number;
   /** Mask to write into instead of allocating. */
   out?: Mask;
   /** Scratch buffer of width × height floats for the smoothing, reused instead of allocating. */
@@ -38,7 +44,7 @@ export function thresholdResidual(
   size: { width: number; height: number },
   options: ThresholdResidualOptions = {},
 ): Mask {
-  const { threshold = 3, noiseScale = 1, radius = 1, out, scratch } = options;
+  const { threshold = 3, noiseScale = 1, radius = 1, pixelShare = 0.5, out, scratch } = options;
   const { width, height } = size;
   const d = width * height;
   if (energy.length !== d || inverseNoiseVariance.length !== d) {
@@ -67,6 +73,7 @@ export function thresholdResidual(
     }
   }
   // Vertical running sums, divided by the number of in-image pixels in the window.
+  const share2 = pixelShare * pixelShare;
   const single = typeof threshold === 'number' ? threshold * threshold * noiseScale : 0;
   for (let x = 0; x < width; x++) {
     let sum = 0;
@@ -80,7 +87,7 @@ export function thresholdResidual(
       const ny = Math.min(y + radius, height - 1) - Math.max(y - radius, 0) + 1;
       const i = y * width + x;
       const t = typeof threshold === 'number' ? single : threshold[i] * threshold[i] * noiseScale;
-      m[i] = sum / (nx * ny) > t ? 1 : 0;
+      m[i] = sum / (nx * ny) > t && (share2 === 0 || energy[i] * inverseNoiseVariance[i] > t * share2) ? 1 : 0;
     }
   }
   return mask;

@@ -14,7 +14,7 @@ describe('residualEnergy', () => {
 
   it('matches r = (z − μ) − B·Bᵀ(z − μ) computed with dense matrices', () => {
     const z = Float32Array.from({ length: d }, () => rand() * 255);
-    const result = residualEnergy(model, { width, height, data: z });
+    const result = residualEnergy(model, { width, height, data: z }, { robustSteps: 0 });
     // check: ml-matrix dense products (an independent route to the same projection)
     const B = new Matrix(d, model.components);
     for (let i = 0; i < d; i++) for (let j = 0; j < model.components; j++) B.set(i, j, model.basis[i * model.components + j]);
@@ -43,6 +43,37 @@ describe('residualEnergy', () => {
     const result = residualEnergy(mean0, { width, height, data: z });
     for (let i = 0; i < d; i++) expect(result.energy[i]).toBeCloseTo((z[i] - mean0.mean[i]) ** 2, 2);
     expect(result.difs).toBe(0);
+  });
+
+  it('projects robustly: a large object does not pull the background reconstruction', () => {
+    // A scene whose only variation is a global brightness gain, and a frame with a bright object
+    // over a fifth of it: plain least squares reads the object as "brighter scene" everywhere.
+    const w = 40;
+    const h = 30;
+    const n = w * h;
+    const base = Float32Array.from({ length: n }, (_, i) => 60 + (i % w) + 20 * Math.sin(i / 17));
+    const learn = Array.from({ length: 30 }, (_, t) => Float32Array.from(base, (v, i) => v * (0.8 + 0.4 * (t / 29)) + ((i * 7919 + t * 104729) % 7) - 3));
+    const gainModel = fitSubspace(learn, { width: w, height: h }, { components: 1 });
+    const z = Float32Array.from(base);
+    for (let y = 5; y < 20; y++) for (let x = 5; x < 21; x++) z[y * w + x] = 250;
+    const background = (e: Float32Array) => {
+      let s = 0;
+      let c = 0;
+      for (let i = 0; i < n; i++) {
+        const x = i % w;
+        const y = Math.floor(i / w);
+        if (x >= 3 && x < 23 && y >= 3 && y < 22) continue;
+        s += e[i];
+        c++;
+      }
+      return s / c;
+    };
+    const plain = residualEnergy(gainModel, { width: w, height: h, data: z }, { robustSteps: 0 });
+    const robust = residualEnergy(gainModel, { width: w, height: h, data: z });
+    expect(background(plain.energy)).toBeGreaterThan(100);
+    expect(background(robust.energy)).toBeLessThan(20);
+    expect(robust.outlierShare).toBeGreaterThan(0.15);
+    expect(robust.outlierShare).toBeLessThan(0.35);
   });
 
   it('reuses buffers and rejects frames of another size', () => {
