@@ -1,11 +1,15 @@
 import { countCommand, countUsage } from './commands/count.ts';
 import { demoCommand, demoUsage } from './commands/demo.ts';
+import { exportCommand, exportUsage } from './commands/export.ts';
 import { learnCommand, learnUsage } from './commands/learn.ts';
+import { runCommand, runUsage } from './commands/run.ts';
 import { UsageError } from './commands/args.ts';
 
 const commands: Record<string, { run: (argv: string[]) => Promise<number>; usage: string; summary: string }> = {
   learn: { run: learnCommand, usage: learnUsage, summary: 'learn the empty scene from frames with nobody in them' },
   count: { run: countCommand, usage: countUsage, summary: 'count people and shelf fill per zone in each frame' },
+  run: { run: runCommand, usage: runUsage, summary: 'run the counting service for the configured cameras' },
+  export: { run: exportCommand, usage: exportUsage, summary: 'write the hourly CSV of stored counts' },
   demo: { run: demoCommand, usage: demoUsage, summary: 'count the built-in synthetic reading room live' },
 };
 
@@ -43,7 +47,7 @@ export async function main(argv: string[]): Promise<number> {
     }
     const e = error as Error;
     // Known errors carry a message that names the file or field; anything else gets its stack.
-    const known = ['FrameError', 'ModelFileError', 'ZoneError', 'RangeError'].includes(e.name);
+    const known = ['FrameError', 'ModelFileError', 'ZoneError', 'ConfigError', 'RangeError'].includes(e.name);
     process.stderr.write(`residuum ${name}: ${known ? e.message : (e.stack ?? String(e))}\n`);
     return 1;
   }

@@ -1,0 +1,58 @@
+import { createWriteStream, existsSync } from 'node:fs';
+import { join, resolve } from 'node:path';
+import { once } from 'node:events';
+import { hourlyRows, writeHourlyCsv } from '../outputs/hourlyCsv.ts';
+import { openStore } from '../store/index.ts';
+import { parseOptions, requireOption, UsageError } from './args.ts';
+
+export const exportUsage = `residuum export [--data <folder> | --db <file>] --from <date> --to <date>
+                [--camera <id>] [--zone <id>] [--time-zone <IANA zone>] [--out <file>]
+
+Writes the hourly CSV (RFC 4180, UTF-8, header row) of the stored counts: one row per local hour,
+camera and zone, with hour_start in ISO 8601 local time with UTC offset.
+  --data       folder of residuum.db (default ./data)
+  --db         the database file itself (instead of --data)
+  --from, --to local dates YYYY-MM-DD (both inclusive) or ISO 8601 times with offset
+  --camera     only this camera; --zone only this zone
+  --time-zone  the zone for hour buckets (default: the site's, stored by residuum run)
+  --out        write to this file (default: standard output)`;
+
+/** `residuum export`: the hourly CSV from the database. */
+export async function exportCommand(argv: string[], io = { out: process.stdout }): Promise<number> {
+  const v = parseOptions(argv, {
+    data: { type: 'string' },
+    db: { type: 'string' },
+    from: { type: 'string' },
+    to: { type: 'string' },
+    camera: { type: 'string' },
+    zone: { type: 'string' },
+    'time-zone': { type: 'string' },
+    out: { type: 'string' },
+  });
+  if (v.data !== undefined && v.db !== undefined) throw new UsageError('give --data or --db, not both');
+  const from = requireOption(v.from, 'from', 'first local date (YYYY-MM-DD) or ISO 8601 time');
+  const to = requireOption(v.to, 'to', 'last local date (YYYY-MM-DD, inclusive) or ISO 8601 time');
+  const file = v.db ?? join(resolve(v.data ?? 'data'), 'residuum.db');
+  if (!existsSync(file)) throw new UsageError(`${file}: no database there (run residuum run first, or pass --data/--db)`);
+  const store = openStore(file);
+  try {
+    const rows = hourlyRows(store, {
+      from,
+      to,
+      ...(v.camera && { camera: v.camera }),
+      ...(v.zone && { zone: v.zone }),
+      ...(v['time-zone'] && { timeZone: v['time-zone'] }),
+    });
+    if (v.out) {
+      const out = createWriteStream(v.out);
+      await writeHourlyCsv(rows, { out });
+      out.end();
+      await once(out, 'finish');
+    } else {
+      await writeHourlyCsv(rows, { out: io.out });
+    }
+  } finally {
+    store.close();
+  }
+  return 0;
+}

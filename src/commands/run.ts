@@ -1,0 +1,183 @@
+import type { Server } from 'node:http';
+import { join, resolve } from 'node:path';
+import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
+import { createCameraPipeline, type CameraPipeline } from '../counting/cameraPipeline.ts';
+import { decodeModel, encodeModel, loadModel, modelFormatVersion } from '../counting/modelFile.ts';
+import { modelVerdict } from '../counting/modelVerdict.ts';
+import type { CameraSource } from '../frames/live/cameraSource.ts';
+import { createCameraSource } from '../frames/live/createCameraSource.ts';
+import { createScene } from '../frames/synthetic/index.ts';
+import { createApp } from '../server/createApp.ts';
+import { openStore, type Store } from '../store/index.ts';
+import { distinctFrames } from '../vision/distinctFrames.ts';
+import { fitSubspace } from '../vision/fitSubspace.ts';
+import type { Subspace } from '../vision/subspace.ts';
+import { numberOption, parseOptions, requireOption } from './args.ts';
+
+export const runUsage = `residuum run --config <file> [--data <folder>] [--port N]
+
+Runs the counting service: reads every configured camera, counts per zone, stores samples and
+hourly rollups in <data>/residuum.db, and serves the JSON API on the configured host and port.
+  --config  the configuration file (YAML; see config/demo.yaml and README)
+  --data    folder of the database (default ./data)
+  --port    HTTP port (default: server.port of the configuration, else 8080; 0 = any free port)`;
+
+/** A running service: its parts and how to stop it. */
+export interface RunningService {
+  readonly store: Store;
+  readonly pipelines: ReadonlyMap<string, CameraPipeline>;
+  readonly server: Server;
+  readonly port: number;
+  stop(): Promise<void>;
+}
+
+/** `residuum run`: starts the service and runs until SIGINT or SIGTERM. */
+export async function runCommand(argv: string[]): Promise<number> {
+  const v = parseOptions(argv, { config: { type: 'string' }, data: { type: 'string' }, port: { type: 'string' } });
+  const configFile = requireOption(v.config, 'config', 'the configuration file');
+  const port = numberOption(v.port, 'port', { min: 0, max: 65535, integer: true });
+  const config = loadConfig(configFile);
+  const service = await startService(config, { dataDir: v.data ?? 'data', port, log: logLine });
+  logLine(`serving the API at http://${config.server.host}:${service.port}/api/live`);
+  await new Promise<void>((done) => {
+    const stop = () => done();
+    process.once('SIGINT', stop);
+    process.once('SIGTERM', stop);
+  });
+  logLine('stopping');
+  await service.stop();
+  return 0;
+}
+
+export function logLine(line: string): void {
+  process.stdout.write(`${new Date().toISOString()} ${line}\n`);
+}
+
+export interface StartServiceOptions {
+  /** Folder of residuum.db. */
+  readonly dataDir: string;
+  /** Overrides config.server.port. */
+  readonly port?: number;
+  readonly log?: (line: string) => void;
+}
+
+/**
+ * Starts everything the configuration describes. The configuration is validated before the
+ * database is opened, so a bad file changes nothing.
+ */
+export async function startService(config: ResiduumConfig, options: StartServiceOptions): Promise<RunningService> {
+  const { dataDir, log = () => {} } = options;
+  const store = openStore(join(resolve(dataDir), 'residuum.db'), { timeZone: config.site.timeZone });
+  const sources: CameraSource[] = [];
+  const pipelines = new Map<string, CameraPipeline>();
+  let retention: NodeJS.Timeout | undefined;
+  try {
+    for (const camera of config.cameras) {
+      store.upsertCamera({ id: camera.id, name: camera.name });
+      const known = new Set(camera.zones.map((z) => z.id));
+      for (const zone of camera.zones) store.upsertZone(camera.id, zone);
+      for (const old of store.listZones({ camera: camera.id })) if (!known.has(old.zone.id)) store.removeZone(camera.id, old.zone.id);
+    }
+    for (const camera of config.cameras) {
+      const model = await cameraModel(camera, store, log);
+      const pipeline = createCameraPipeline({
+        camera,
+        store,
+        model,
+        learn: (frames, size) => fitSubspace(distinctFrames(frames), size),
+        onModel: (learned) => storeModel(store, camera.id, learned, 'live source'),
+        log,
+      });
+      const source = createCameraSource(camera.source);
+      source.start(pipeline.handlers);
+      sources.push(source);
+      pipelines.set(camera.id, pipeline);
+      log(`camera ${camera.id}: started (${camera.source.kind}, ${camera.zones.length} zone${camera.zones.length === 1 ? '' : 's'})`);
+    }
+    const prune = () => {
+      const { deleted } = store.applyRetention({ sampleDays: config.storage.sampleRetentionDays });
+      if (deleted > 0) log(`retention: deleted ${deleted} samples older than ${config.storage.sampleRetentionDays} days`);
+    };
+    prune();
+    retention = setInterval(prune, 3_600_000);
+    retention.unref();
+  } catch (error) {
+    await Promise.all(sources.map((s) => s.stop()));
+    store.close();
+    throw error;
+  }
+  const app = createApp({
+    store,
+    live: () => [...pipelines.values()].map((p) => p.live()),
+    siteName: config.site.name,
+    timeZone: config.site.timeZone,
+    startedAt: Date.now(),
+  });
+  const server = await new Promise<Server>((done, fail) => {
+    const s = app.listen(options.port ?? config.server.port, config.server.host, () => done(s));
+    s.once('error', fail);
+  });
+  const address = server.address();
+  return {
+    store,
+    pipelines,
+    server,
+    port: typeof address === 'object' && address ? address.port : 0,
+    async stop() {
+      if (retention) clearInterval(retention);
+      for (const p of pipelines.values()) p.stop();
+      await Promise.all(sources.map((s) => s.stop()));
+      server.closeAllConnections();
+      await new Promise<void>((done) => server.close(() => done()));
+      store.close();
+    },
+  };
+}
+
+/**
+ * The camera's empty-scene model: the configured model file (stored in the database when new),
+ * else the newest stored one, else — for a synthetic scene — one learned from its empty frames.
+ * Undefined means: learn from the live source at start.
+ */
+async function cameraModel(camera: CameraConfig, store: Store, log: (line: string) => void): Promise<Subspace | undefined> {
+  const { width, height } = camera.source.size;
+  const check = (model: Subspace, from: string) => {
+    if (model.width !== width || model.height !== height) {
+      throw new Error(`camera ${camera.id}: the model from ${from} is ${model.width}×${model.height} but cameras[].size is ${width}×${height}; set size to match or learn again`);
+    }
+    return model;
+  };
+  if (camera.model) {
+    const { model } = await loadModel(camera.model);
+    const latest = store.latestModel(camera.id);
+    const bytes = encodeModel(model);
+    if (!latest || !Buffer.from(latest.data).equals(bytes)) storeModel(store, camera.id, model, camera.model);
+    return check(model, camera.model);
+  }
+  const stored = store.latestModel(camera.id);
+  if (stored) return check(decodeModel(Buffer.from(stored.data), `stored model ${stored.id}`).model, 'the database');
+  if (camera.source.kind === 'synthetic') {
+    const scene = createScene(camera.source.scene, { width, height, ...(camera.source.seed !== undefined && { seed: camera.source.seed }) });
+    const period = 3000;
+    const frames = Array.from({ length: 200 }, (_, i) => scene.emptyFrameAt(Math.floor((i * period) / 200)).data);
+    const model = fitSubspace(frames, { width, height });
+    storeModel(store, camera.id, model, `synthetic:${camera.source.scene}:empty`);
+    log(`camera ${camera.id}: learned the empty synthetic scene (${model.components} components, ${modelVerdict(model).level})`);
+    return model;
+  }
+  log(`camera ${camera.id}: no model yet; learning from the first ${camera.learnSeconds} s of frames — keep the view empty`);
+  return undefined;
+}
+
+function storeModel(store: Store, camera: string, model: Subspace, source: string): void {
+  const verdict = modelVerdict(model);
+  store.insertModel({
+    camera,
+    width: model.width,
+    height: model.height,
+    components: model.components,
+    formatVersion: modelFormatVersion,
+    data: encodeModel(model, { learnedAt: new Date().toISOString(), source }),
+    metadata: { source, frames: model.frameCount, retainedVariance: model.retainedVariance, medianNoise: verdict.medianNoise, verdict: verdict.level },
+  });
+}

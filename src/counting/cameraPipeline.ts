@@ -1,0 +1,266 @@
+import { EventEmitter } from 'node:events';
+import type { CameraConfig } from '../config/loadConfig.ts';
+import type { GreyFrame } from '../frames/frame.ts';
+import type { FrameError } from '../frames/FrameError.ts';
+import type { CameraHandlers, SourceState, StatusDetail } from '../frames/live/cameraSource.ts';
+import type { Store } from '../store/index.ts';
+import { QualityFlag } from '../store/samples.ts';
+import type { Subspace } from '../vision/subspace.ts';
+import { createCounter, type Counter } from './createCounter.ts';
+import { slidingWindow, type SlidingWindow } from './smoothCounts.ts';
+import type { Zone } from './zone.ts';
+
+/** What the dashboard and outputs see of one zone right now. */
+export interface ZoneLive {
+  readonly id: string;
+  readonly name: string;
+  readonly kind: Zone['kind'];
+  /** Smoothed people (rooms) or items (shelves). */
+  readonly count: number;
+  /** Smoothed foreground share of the zone, 0..1. */
+  readonly fill: number;
+  readonly capacity?: number;
+}
+
+/** What the dashboard and outputs see of one camera right now. */
+export interface CameraLive {
+  readonly camera: string;
+  readonly name: string;
+  /** `learning` while the empty scene is being learned; otherwise the source's state. */
+  readonly state: SourceState | 'learning' | 'stopped';
+  /** True while the view looks changed (counts unreliable). */
+  readonly viewChanged: boolean;
+  /** Epoch ms of the last frame counted, if any. */
+  readonly lastFrameAt?: number;
+  readonly reason?: string;
+  readonly zones: readonly ZoneLive[];
+}
+
+export interface CameraPipelineOptions {
+  readonly camera: CameraConfig;
+  readonly store: Store;
+  /** The empty-scene model; without one the pipeline learns from its first `learnSeconds` of frames. */
+  readonly model?: Subspace;
+  /** Called when the pipeline has learned a model from the live source (to store it). */
+  readonly onModel?: (model: Subspace) => void;
+  /** Fits a model from learning frames; injected so the pipeline stays free of learning policy. */
+  readonly learn?: (frames: Float32Array[], size: { width: number; height: number }) => Subspace;
+  /** Frame noise scale (median (r/σ)² over its expected value) above which a frame counts as a changed view; default 6. */
+  readonly viewChangeScale?: number;
+  /** Log lines (never pixels). Default: none. */
+  readonly log?: (line: string) => void;
+}
+
+/** Events: 'live' (CameraLive) after every counted frame and status change. */
+export interface CameraPipeline extends EventEmitter {
+  readonly handlers: CameraHandlers;
+  live(): CameraLive;
+  /** Replaces the zones; counting continues at once with the new ones. */
+  setZones(zones: readonly Zone[]): void;
+  /** Ends the current interval without writing it (used on stop). */
+  stop(): void;
+}
+
+interface ZoneAccumulator {
+  readonly zone: Zone;
+  readonly count: SlidingWindow;
+  readonly fill: SlidingWindow;
+  smoothedCount: number;
+  smoothedFill: number;
+  /** Sum of smoothed values in the current interval, and frames summed. */
+  sum: number;
+  frames: number;
+  overCapacity: boolean;
+}
+
+/**
+ * One camera's live counting: frames from its source → counter → per-zone sliding-window
+ * smoothing → one sample per zone every `sampleSeconds` into the store (the mean of the smoothed
+ * per-frame values over the interval). An interval ends without a sample when the source goes
+ * offline or frames stop for more than two sample periods, so an outage is a gap, never zeros.
+ */
+export function createCameraPipeline(options: CameraPipelineOptions): CameraPipeline {
+  const { camera, store, onModel, learn, viewChangeScale = 6, log = () => {} } = options;
+  const { width, height } = camera.source.size;
+  const sampleMs = Math.round(camera.sampleSeconds * 1000);
+  const emitter = new EventEmitter() as CameraPipeline;
+  let model = options.model;
+  let zones = camera.zones;
+  let counter: Counter | undefined = model ? createCounter(model, zones, { threshold: camera.threshold }) : undefined;
+  let accumulators = makeAccumulators(zones);
+  let state: CameraLive['state'] = 'connecting';
+  let reason: string | undefined;
+  let lastFrameAt: number | undefined;
+  let intervalStart: number | undefined;
+  let quality = 0;
+  let viewChanged = false;
+  const learning: Float32Array[] = [];
+  let learningStart: number | undefined;
+
+  function makeAccumulators(list: readonly Zone[]): ZoneAccumulator[] {
+    return list.map((zone) => ({
+      zone,
+      count: slidingWindow(camera.smoothing.window, camera.smoothing.method),
+      fill: slidingWindow(camera.smoothing.window, camera.smoothing.method),
+      smoothedCount: 0,
+      smoothedFill: 0,
+      sum: 0,
+      frames: 0,
+      overCapacity: false,
+    }));
+  }
+
+  function dropInterval(): void {
+    intervalStart = undefined;
+    quality = 0;
+    for (const a of accumulators) {
+      a.sum = 0;
+      a.frames = 0;
+      a.count.reset();
+      a.fill.reset();
+    }
+  }
+
+  function writeInterval(end: number): void {
+    if (intervalStart === undefined) return;
+    const intervalMs = Math.min(end - intervalStart, 3_600_000);
+    if (intervalMs >= 1) {
+      const samples = accumulators
+        .filter((a) => a.frames > 0)
+        .map((a) => ({
+          time: end,
+          camera: camera.id,
+          zone: a.zone.id,
+          kind: a.zone.kind === 'shelf' ? ('fill' as const) : ('count' as const),
+          value: a.zone.kind === 'shelf' ? Math.min(1, Math.max(0, a.sum / a.frames)) : Math.min(1000, Math.max(0, a.sum / a.frames)),
+          intervalMs,
+          quality,
+        }));
+      try {
+        store.insertSamples(samples);
+      } catch (error) {
+        log(`camera ${camera.id}: could not store samples (${(error as Error).message})`);
+      }
+    }
+    intervalStart = end;
+    quality = 0;
+    for (const a of accumulators) {
+      a.sum = 0;
+      a.frames = 0;
+    }
+  }
+
+  function event(type: Parameters<Store['insertEvent']>[0]['type'], detail: unknown, zone?: string, time?: number): void {
+    try {
+      store.insertEvent({ camera: camera.id, zone: zone ?? null, type, detail, ...(time !== undefined && { time }) });
+    } catch (error) {
+      log(`camera ${camera.id}: could not store event ${type} (${(error as Error).message})`);
+    }
+  }
+
+  function publish(): void {
+    emitter.emit('live', emitter.live());
+  }
+
+  function onFrame(frame: GreyFrame, at: number): void {
+    if (state === 'stopped') return;
+    if (!counter) {
+      learningStart ??= at;
+      learning.push(Float32Array.from(frame.data));
+      if (at - learningStart >= camera.learnSeconds * 1000 && learning.length >= 2 && learn) {
+        model = learn(learning.splice(0), { width, height });
+        counter = createCounter(model, zones, { threshold: camera.threshold });
+        onModel?.(model);
+        log(`camera ${camera.id}: learned the empty scene from ${model.frameCount} frames (${model.components} components)`);
+        state = 'online';
+      } else {
+        state = 'learning';
+      }
+      publish();
+      return;
+    }
+    if (lastFrameAt !== undefined && at - lastFrameAt > 2 * sampleMs) dropInterval();
+    if (intervalStart === undefined) {
+      const previous = accumulators.reduce((m, a) => Math.max(m, store.lastSample(camera.id, a.zone.id)?.time ?? 0), 0);
+      intervalStart = Math.max(at, previous);
+    }
+    const result = counter.count(frame);
+    lastFrameAt = at;
+    state = 'online';
+    const changed = result.noiseScale > viewChangeScale;
+    if (changed !== viewChanged) {
+      viewChanged = changed;
+      event(changed ? 'view-changed' : 'view-restored', { noiseScale: Math.round(result.noiseScale * 100) / 100 }, undefined, at);
+      log(`camera ${camera.id}: view ${changed ? 'changed (counts marked unreliable)' : 'restored'}`);
+    }
+    if (changed) quality |= QualityFlag.viewChanged;
+    for (const a of accumulators) {
+      const z = result.zones[a.zone.id];
+      a.smoothedCount = a.count.push(z.count);
+      a.smoothedFill = a.fill.push(z.fill);
+      a.sum += a.zone.kind === 'shelf' ? a.smoothedFill : a.smoothedCount;
+      a.frames++;
+      const over = a.zone.capacity !== undefined && a.zone.kind === 'room' && a.smoothedCount > a.zone.capacity;
+      if (over && !a.overCapacity) event('capacity-exceeded', { count: a.smoothedCount, capacity: a.zone.capacity }, a.zone.id, at);
+      a.overCapacity = over;
+    }
+    if (at - intervalStart >= sampleMs) writeInterval(at);
+    publish();
+  }
+
+  function onStatus(next: SourceState, detail: StatusDetail): void {
+    if (state === 'stopped') return;
+    const was = state;
+    reason = detail.reason;
+    if (next === 'offline') {
+      dropInterval();
+      if (was !== 'offline') {
+        event('offline', { reason: detail.reason ?? null }, undefined, detail.at);
+        log(`camera ${camera.id}: offline${detail.reason ? ` (${detail.reason})` : ''}`);
+      }
+    } else if (next === 'online' && was === 'offline') {
+      event('online', {}, undefined, detail.at);
+      log(`camera ${camera.id}: online`);
+    }
+    if (counter || next !== 'online') state = next;
+    publish();
+  }
+
+  function onBadFrame(error: FrameError): void {
+    log(`camera ${camera.id}: skipped a frame (${error.message})`);
+  }
+
+  Object.assign(emitter, {
+    handlers: { frame: onFrame, status: onStatus, badFrame: onBadFrame } satisfies CameraHandlers,
+    live(): CameraLive {
+      return {
+        camera: camera.id,
+        name: camera.name,
+        state,
+        viewChanged,
+        ...(lastFrameAt !== undefined && { lastFrameAt }),
+        ...(reason !== undefined && state === 'offline' && { reason }),
+        zones: accumulators.map((a) => ({
+          id: a.zone.id,
+          name: a.zone.name ?? a.zone.id,
+          kind: a.zone.kind,
+          count: Math.round(a.smoothedCount * 100) / 100,
+          fill: Math.round(a.smoothedFill * 10000) / 10000,
+          ...(a.zone.capacity !== undefined && { capacity: a.zone.capacity }),
+        })),
+      };
+    },
+    setZones(next: readonly Zone[]) {
+      if (lastFrameAt !== undefined) writeInterval(lastFrameAt);
+      zones = next;
+      accumulators = makeAccumulators(zones);
+      if (model) counter = createCounter(model, zones, { threshold: camera.threshold });
+      publish();
+    },
+    stop() {
+      state = 'stopped';
+      dropInterval();
+    },
+  });
+  return emitter;
+}
