@@ -1,3 +1,4 @@
+import { EventEmitter } from 'node:events';
 import type { Server } from 'node:http';
 import { join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
@@ -8,6 +9,9 @@ import type { CameraSource } from '../frames/live/cameraSource.ts';
 import { createCameraSource } from '../frames/live/createCameraSource.ts';
 import { createScene } from '../frames/synthetic/index.ts';
 import { createApp } from '../server/createApp.ts';
+import type { ServiceControl, SmallImage } from '../server/serviceControl.ts';
+import { validateZones } from '../counting/parseZones.ts';
+import type { Zone } from '../counting/zone.ts';
 import { openStore, type Store } from '../store/index.ts';
 import { distinctFrames } from '../vision/distinctFrames.ts';
 import { fitSubspace } from '../vision/fitSubspace.ts';
@@ -26,6 +30,7 @@ hourly rollups in <data>/residuum.db, and serves the JSON API on the configured 
 export interface RunningService {
   readonly store: Store;
   readonly pipelines: ReadonlyMap<string, CameraPipeline>;
+  readonly control: ServiceControl;
   readonly server: Server;
   readonly port: number;
   stop(): Promise<void>;
@@ -106,8 +111,10 @@ export async function startService(config: ResiduumConfig, options: StartService
     store.close();
     throw error;
   }
+  const control = serviceControl(store, pipelines, config);
   const app = createApp({
     store,
+    control,
     live: () => [...pipelines.values()].map((p) => p.live()),
     siteName: config.site.name,
     timeZone: config.site.timeZone,
@@ -122,6 +129,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     store,
     pipelines,
     server,
+    control,
     port: typeof address === 'object' && address ? address.port : 0,
     async stop() {
       if (retention) clearInterval(retention);
@@ -180,4 +188,59 @@ function storeModel(store: Store, camera: string, model: Subspace, source: strin
     data: encodeModel(model, { learnedAt: new Date().toISOString(), source }),
     metadata: { source, frames: model.frameCount, retainedVariance: model.retainedVariance, medianNoise: verdict.medianNoise, verdict: verdict.level },
   });
+}
+
+/** The service as the HTTP layer sees it (see ServiceControl). */
+function serviceControl(store: Store, pipelines: ReadonlyMap<string, CameraPipeline>, config: ResiduumConfig): ServiceControl {
+  const control = new EventEmitter() as ServiceControl;
+  const zonesNow = new Map<string, readonly Zone[]>(config.cameras.map((c) => [c.id, c.zones]));
+  const pipeline = (camera: string) => {
+    const p = pipelines.get(camera);
+    if (!p) throw new RangeError(`no camera "${camera}"`);
+    return p;
+  };
+  for (const [camera, p] of pipelines) {
+    p.on('live', (live) => control.emit('live', live));
+    p.on('learn', (status) => control.emit('learn', { camera, status }));
+  }
+  Object.assign(control, {
+    cameras: () => [...pipelines.values()].map((p) => p.live()),
+    zones: (camera: string) => zonesNow.get(camera),
+    setZones(camera: string, raw: unknown) {
+      const p = pipeline(camera);
+      const zones = validateZones(raw, 'request body', 'zones');
+      const keep = new Set(zones.map((z) => z.id));
+      const tx = store.db.transaction(() => {
+        for (const zone of zones) store.upsertZone(camera, zone);
+        for (const old of store.listZones({ camera })) if (!keep.has(old.zone.id)) store.removeZone(camera, old.zone.id);
+      });
+      tx();
+      p.setZones(zones);
+      zonesNow.set(camera, zones);
+      return zones;
+    },
+    background(camera: string): SmallImage | undefined {
+      const model = pipeline(camera).model();
+      if (!model) return undefined;
+      return { width: model.width, height: model.height, data: Uint8Array.from(model.mean, (v) => Math.max(0, Math.min(255, Math.round(v)))) };
+    },
+    modelSummary(camera: string) {
+      const model = pipeline(camera).model();
+      if (!model) return undefined;
+      return { width: model.width, height: model.height, components: model.components, retainedVariance: model.retainedVariance, frames: model.frameCount, verdict: modelVerdict(model) };
+    },
+    maskPreview(camera: string, cell = 4): SmallImage | undefined {
+      const mask = pipeline(camera).lastMask();
+      if (!mask) return undefined;
+      if (!(Number.isInteger(cell) && cell >= 2 && cell <= 32)) throw new RangeError(`cell must be a whole number from 2 to 32, got ${cell}`);
+      const width = Math.ceil(mask.width / cell);
+      const height = Math.ceil(mask.height / cell);
+      const data = new Uint8Array(width * height);
+      for (let y = 0; y < mask.height; y++) for (let x = 0; x < mask.width; x++) if (mask.data[y * mask.width + x]) data[Math.floor(y / cell) * width + Math.floor(x / cell)] = 1;
+      return { width, height, data };
+    },
+    learn: (camera: string, seconds: number) => pipeline(camera).relearn(seconds),
+    learnStatus: (camera: string) => pipelines.get(camera)?.learnStatus(),
+  });
+  return control;
 }

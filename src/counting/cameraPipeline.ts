@@ -1,6 +1,6 @@
 import { EventEmitter } from 'node:events';
 import type { CameraConfig } from '../config/loadConfig.ts';
-import type { GreyFrame } from '../frames/frame.ts';
+import type { GreyFrame, Mask } from '../frames/frame.ts';
 import type { FrameError } from '../frames/FrameError.ts';
 import type { CameraHandlers, SourceState, StatusDetail } from '../frames/live/cameraSource.ts';
 import type { Store } from '../store/index.ts';
@@ -51,10 +51,33 @@ export interface CameraPipelineOptions {
   readonly log?: (line: string) => void;
 }
 
-/** Events: 'live' (CameraLive) after every counted frame and status change. */
+/** Where learning the empty scene from the live source stands. */
+export interface LearnStatus {
+  readonly state: 'idle' | 'learning' | 'done' | 'failed';
+  /** 0..1 of the requested seconds collected. */
+  readonly progress: number;
+  readonly seconds?: number;
+  readonly startedAt?: number;
+  readonly finishedAt?: number;
+  /** Why learning failed. */
+  readonly error?: string;
+  /** The learned model's figures (when done). */
+  readonly components?: number;
+  readonly retainedVariance?: number;
+  readonly frames?: number;
+}
+
+/** Events: 'live' (CameraLive) after every counted frame and status change; 'learn' (LearnStatus) while learning. */
 export interface CameraPipeline extends EventEmitter {
   readonly handlers: CameraHandlers;
   live(): CameraLive;
+  /** The model in use, if any. */
+  model(): Subspace | undefined;
+  /** The foreground mask of the last counted frame (an internal buffer; copy before keeping), if any. */
+  lastMask(): Mask | undefined;
+  /** Learns the empty scene again from the next `seconds` of frames; counting goes on with the old model meanwhile. */
+  relearn(seconds: number): LearnStatus;
+  learnStatus(): LearnStatus;
   /** Replaces the zones; counting continues at once with the new ones. */
   setZones(zones: readonly Zone[]): void;
   /** Ends the current interval without writing it (used on stop). */
@@ -96,6 +119,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   let viewChanged = false;
   const learning: Float32Array[] = [];
   let learningStart: number | undefined;
+  let learnSeconds: number | undefined = model ? undefined : camera.learnSeconds;
+  let learnState: LearnStatus = model ? { state: 'idle', progress: 0 } : { state: 'learning', progress: 0, seconds: camera.learnSeconds };
 
   function makeAccumulators(list: readonly Zone[]): ZoneAccumulator[] {
     return list.map((zone) => ({
@@ -164,18 +189,9 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
 
   function onFrame(frame: GreyFrame, at: number): void {
     if (state === 'stopped') return;
+    if (learnSeconds !== undefined) collectForLearning(frame, at, learnSeconds);
     if (!counter) {
-      learningStart ??= at;
-      learning.push(Float32Array.from(frame.data));
-      if (at - learningStart >= camera.learnSeconds * 1000 && learning.length >= 2 && learn) {
-        model = learn(learning.splice(0), { width, height });
-        counter = createCounter(model, zones, { threshold: camera.threshold });
-        onModel?.(model);
-        log(`camera ${camera.id}: learned the empty scene from ${model.frameCount} frames (${model.components} components)`);
-        state = 'online';
-      } else {
-        state = 'learning';
-      }
+      state = 'learning';
       publish();
       return;
     }
@@ -206,6 +222,39 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     }
     if (at - intervalStart >= sampleMs) writeInterval(at);
     publish();
+  }
+
+  function collectForLearning(frame: GreyFrame, at: number, seconds: number): void {
+    learningStart ??= at;
+    learning.push(Float32Array.from(frame.data));
+    const progress = Math.min(1, (at - learningStart) / (seconds * 1000));
+    learnState = { ...learnState, state: 'learning', progress };
+    if (progress < 1 || learning.length < 2 || !learn) {
+      emitter.emit('learn', learnState);
+      return;
+    }
+    const frames = learning.splice(0);
+    learnSeconds = undefined;
+    learningStart = undefined;
+    try {
+      model = learn(frames, { width, height });
+      counter = createCounter(model, zones, { threshold: camera.threshold });
+      onModel?.(model);
+      learnState = {
+        ...learnState,
+        state: 'done',
+        progress: 1,
+        finishedAt: at,
+        components: model.components,
+        retainedVariance: model.retainedVariance,
+        frames: model.frameCount,
+      };
+      log(`camera ${camera.id}: learned the empty scene from ${model.frameCount} frames (${model.components} components)`);
+    } catch (error) {
+      learnState = { ...learnState, state: 'failed', finishedAt: at, error: (error as Error).message };
+      log(`camera ${camera.id}: learning failed (${(error as Error).message})`);
+    }
+    emitter.emit('learn', learnState);
   }
 
   function onStatus(next: SourceState, detail: StatusDetail): void {
@@ -250,6 +299,19 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
         })),
       };
     },
+    model: () => model,
+    lastMask: () => (counter && lastFrameAt !== undefined ? counter.lastMask() : undefined),
+    relearn(seconds: number) {
+      if (!(seconds > 0 && seconds <= 3600)) throw new RangeError(`seconds must be in (0, 3600], got ${seconds}`);
+      if (learnSeconds !== undefined) return learnState;
+      learning.length = 0;
+      learningStart = undefined;
+      learnSeconds = seconds;
+      learnState = { state: 'learning', progress: 0, seconds, startedAt: Date.now() };
+      emitter.emit('learn', learnState);
+      return learnState;
+    },
+    learnStatus: () => learnState,
     setZones(next: readonly Zone[]) {
       if (lastFrameAt !== undefined) writeInterval(lastFrameAt);
       zones = next;

@@ -2,10 +2,13 @@ import express, { type NextFunction, type Request, type Response } from 'express
 import type { CameraLive } from '../counting/cameraPipeline.ts';
 import { hourlyRows, writeHourlyCsv } from '../outputs/hourlyCsv.ts';
 import type { Store } from '../store/index.ts';
+import type { ServiceControl } from './serviceControl.ts';
 
 /** What the HTTP app needs from the running service. */
 export interface AppDeps {
   readonly store: Store;
+  /** Zone editing, background, mask preview and learning of the running service. */
+  readonly control?: ServiceControl;
   /** Current state of every camera. */
   readonly live: () => readonly CameraLive[];
   readonly siteName: string;

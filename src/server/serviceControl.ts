@@ -1,0 +1,50 @@
+import type { EventEmitter } from 'node:events';
+import type { CameraLive, LearnStatus } from '../counting/cameraPipeline.ts';
+import type { Zone } from '../counting/zone.ts';
+import type { ModelVerdict } from '../counting/modelVerdict.ts';
+
+/** An 8-bit grey image (the learned empty scene) or a coarse 0/1 mask; row-major, x right, y down. */
+export interface SmallImage {
+  readonly width: number;
+  readonly height: number;
+  readonly data: Uint8Array;
+}
+
+/** Figures of a camera's current model, for the dashboard. */
+export interface ModelSummary {
+  readonly width: number;
+  readonly height: number;
+  readonly components: number;
+  readonly retainedVariance: number;
+  readonly frames: number;
+  readonly verdict: ModelVerdict;
+}
+
+/**
+ * What the HTTP layer may ask of the running service. Nothing here hands out a frame: the
+ * background is the learned empty scene (no people in it by construction) and the mask preview
+ * is a coarse binary mask of the last frame, computed on request and never stored.
+ *
+ * Events: `live` (CameraLive) whenever a camera's counts or state change; `learn`
+ * ({ camera, status: LearnStatus }) while a camera learns.
+ */
+export interface ServiceControl extends EventEmitter {
+  cameras(): readonly CameraLive[];
+  /** The camera's zones as counted now; undefined for an unknown camera. */
+  zones(camera: string): readonly Zone[] | undefined;
+  /**
+   * Validates zones (as parsed JSON), stores them with their history (when, what, old → new),
+   * and applies them to counting at once. Throws ZoneError (→ 400) naming the field, or
+   * RangeError for an unknown camera (→ 404).
+   */
+  setZones(camera: string, zones: unknown): readonly Zone[];
+  /** The model's mean image as 8-bit grey; undefined without a model. */
+  background(camera: string): SmallImage | undefined;
+  /** The model's figures; undefined without a model. */
+  modelSummary(camera: string): ModelSummary | undefined;
+  /** The last frame's foreground mask reduced by `cell` pixels per side (a cell is 1 when any pixel in it is); undefined when nothing was counted yet. */
+  maskPreview(camera: string, cell?: number): SmallImage | undefined;
+  /** Starts learning the empty scene from the next `seconds` of the live source. */
+  learn(camera: string, seconds: number): LearnStatus;
+  learnStatus(camera: string): LearnStatus | undefined;
+}
