@@ -1,5 +1,10 @@
 import type { GreyFrame } from '../frames/frame.ts';
-import { saveModel } from '../counting/modelFile.ts';
+import { join, resolve } from 'node:path';
+import { loadConfig } from '../config/loadConfig.ts';
+import { encodeModel, modelFormatVersion, saveModel } from '../counting/modelFile.ts';
+import { createCameraSource } from '../frames/live/createCameraSource.ts';
+import { openStore } from '../store/index.ts';
+import type { Subspace } from '../vision/subspace.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
 import { distinctFrames } from '../vision/distinctFrames.ts';
 import { fitSubspace } from '../vision/fitSubspace.ts';
@@ -10,6 +15,7 @@ import { progressLine } from './progressLine.ts';
 export const learnUsage = `residuum learn --frames <folder|video|synthetic:scene:empty> --out <model file>
                 [--width W] [--components K | --variance V] [--max-components N]
                 [--every N] [--limit N]
+       residuum learn --config <file> --camera <id> --seconds N [--data <folder>] [--out <model file>]
 
 Learns the empty scene: a mean image and a few eigen-images from frames with nobody in them.
   --frames          a folder of images (JPEG, PNG, WebP, …), a video file ffmpeg reads, or
@@ -20,7 +26,11 @@ Learns the empty scene: a mean image and a few eigen-images from frames with nob
   --variance        share of the variation to keep, 0 < V ≤ 1 (default 0.95)
   --max-components  upper bound when choosing by variance (default 12)
   --every           use one frame in N (default 1)
-  --limit           use at most N frames (default 500)`;
+  --limit           use at most N frames (default 500)
+  --config, --camera, --seconds
+                    learn from the configured camera's live source for N seconds (the view must be
+                    empty meanwhile); the model is stored in <data>/residuum.db (default ./data),
+                    where residuum run picks it up, and written to --out if given`;
 
 /** `residuum learn`: reads empty-scene frames, fits the subspace, writes the model file. */
 export async function learnCommand(argv: string[], io = { out: process.stdout, err: process.stderr }): Promise<number> {
@@ -33,7 +43,12 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     'max-components': { type: 'string' },
     every: { type: 'string' },
     limit: { type: 'string' },
+    config: { type: 'string' },
+    camera: { type: 'string' },
+    seconds: { type: 'string' },
+    data: { type: 'string' },
   });
+  if (v.config !== undefined) return learnFromCamera(v, io);
   const frames = requireOption(v.frames, 'frames', 'the folder, video or scene to learn from');
   const out = requireOption(v.out, 'out', 'the model file to write');
   const width = numberOption(v.width, 'width', { min: 16, max: 4096, integer: true });
@@ -76,6 +91,12 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     source: frames,
     settings: { components, variance: variance ?? 0.95, maxComponents: maxComponents ?? 12, every, limit },
   });
+  printReport(io.out, model, repeated, skipped, out);
+  return 0;
+}
+
+/** The learning report: frames, components, variance, noise, verdict. */
+function printReport(out: NodeJS.WritableStream, model: Subspace, repeated: number, skipped: number, writtenTo: string): void {
   const verdict = modelVerdict(model);
   const rows: [string, string][] = [
     ['frames used', `${model.frameCount}${[repeated && `${repeated} repeated dropped`, skipped && `${skipped} unreadable skipped`].filter(Boolean).join(', ').replace(/^(.+)$/, ' ($1)')}`],
@@ -85,8 +106,79 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     ['residual noise', `${verdict.medianNoise.toFixed(2)} grey levels (median per pixel; 95th percentile ${verdict.noiseP95.toFixed(2)})`],
     ['verdict', `${verdict.level}: ${verdict.findings[0]}`],
     ...verdict.findings.slice(1).map((f): [string, string] => ['', f]),
-    ['model written to', out],
+    ['model written to', writtenTo],
   ];
-  for (const [label, value] of rows) io.out.write(`${label.padEnd(18)}  ${value}\n`);
+  for (const [label, value] of rows) out.write(`${label.padEnd(18)}  ${value}\n`);
+}
+
+/** `learn --config --camera --seconds`: frames from the camera's live source for N seconds. */
+async function learnFromCamera(
+  v: Record<string, string | boolean | undefined>,
+  io: { out: NodeJS.WritableStream; err: NodeJS.WritableStream & { isTTY?: boolean } },
+): Promise<number> {
+  for (const only of ['frames', 'width', 'every', 'limit']) {
+    if (v[only] !== undefined) throw new UsageError(`--${only} does not go with --config: the camera's configuration sets the source and size`);
+  }
+  const config = loadConfig(v.config as string);
+  const id = requireOption(v.camera as string | undefined, 'camera', `the camera id (one of ${config.cameras.map((c) => c.id).join(', ')})`);
+  const camera = config.cameras.find((c) => c.id === id);
+  if (!camera) throw new UsageError(`--camera: no camera "${id}" in ${config.file} (known: ${config.cameras.map((c) => c.id).join(', ')})`);
+  const seconds = numberOption(v.seconds as string | undefined, 'seconds', { min: 1, max: 3600 }) ?? camera.learnSeconds;
+  const components = numberOption(v.components as string | undefined, 'components', { min: 0, max: 64, integer: true });
+  const variance = numberOption(v.variance as string | undefined, 'variance', { min: Number.MIN_VALUE, max: 1 });
+  const maxComponents = numberOption(v['max-components'] as string | undefined, 'max-components', { min: 0, max: 64, integer: true });
+
+  const frames: Float32Array[] = [];
+  const progress = progressLine(io.err, `learning from ${id}`, Math.round(seconds));
+  const source = createCameraSource(camera.source);
+  let started: number | undefined;
+  let lastState = '';
+  await new Promise<void>((done) => {
+    const timer = setTimeout(done, (seconds + 120) * 1000); // give up when no frames come at all
+    source.start({
+      frame(frame, at) {
+        started ??= at;
+        frames.push(Float32Array.from(frame.data));
+        progress.update(Math.round((at - started) / 1000));
+        if (at - started >= seconds * 1000) {
+          clearTimeout(timer);
+          done();
+        }
+      },
+      status(state, detail) {
+        if (state !== lastState) progress.note(`${id}: ${state}${detail.reason ? ` (${detail.reason})` : ''}`);
+        lastState = state;
+      },
+      badFrame(error) {
+        progress.note(`skipped ${error.message}`);
+      },
+    });
+  });
+  await source.stop();
+  progress.done();
+  const distinct = distinctFrames(frames);
+  if (distinct.length < 2) {
+    io.err.write(`residuum learn: got ${frames.length} frame${frames.length === 1 ? '' : 's'} (${distinct.length} distinct) from ${id}; at least 2 are needed\n`);
+    return 1;
+  }
+  const model = fitSubspace(distinct, camera.source.size, { components, variance, maxComponents });
+  const info = { learnedAt: new Date().toISOString(), source: `camera ${id}`, settings: { seconds, components, variance, maxComponents } };
+  const store = openStore(join(resolve((v.data as string | undefined) ?? 'data'), 'residuum.db'), { timeZone: config.site.timeZone });
+  try {
+    store.upsertCamera({ id, name: camera.name });
+    store.insertModel({
+      camera: id,
+      width: model.width,
+      height: model.height,
+      components: model.components,
+      formatVersion: modelFormatVersion,
+      data: encodeModel(model, info),
+      metadata: { source: info.source, frames: model.frameCount, retainedVariance: model.retainedVariance },
+    });
+  } finally {
+    store.close();
+  }
+  if (v.out) await saveModel(v.out as string, model, info);
+  printReport(io.out, model, frames.length - distinct.length, 0, v.out ? `${v.out} and the database` : 'the database');
   return 0;
 }

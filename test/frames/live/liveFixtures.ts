@@ -1,0 +1,177 @@
+/**
+ * Test fixtures for the live sources: a recorder of what a source delivers, waiting for events
+ * with generous limits (no timing assertions), local HTTP servers on 127.0.0.1 only, synthetic
+ * JPEGs made in memory with sharp (flat levels and stripes, no people), and a check that a stopped
+ * source left no handle behind.
+ */
+import http, { type IncomingMessage, type Server, type ServerResponse } from 'node:http';
+import type { AddressInfo } from 'node:net';
+import type { GreyFrame } from '../../../src/frames/frame.ts';
+import type { FrameError } from '../../../src/frames/FrameError.ts';
+import type { CameraHandlers, SourceState, StatusDetail } from '../../../src/frames/live/cameraSource.ts';
+import type { Clock } from '../../../src/frames/live/clock.ts';
+import { encodeGrey, greyPixels } from '../fixtures.ts';
+
+/** Everything a source delivered, in order. */
+export interface Recording {
+  readonly handlers: CameraHandlers;
+  readonly frames: { frame: GreyFrame; capturedAt: number }[];
+  readonly statuses: { state: SourceState; detail: StatusDetail }[];
+  readonly bad: FrameError[];
+  /** Every call, in order: 'frame', 'bad' or the state. */
+  readonly log: string[];
+  /** The latest state reported. */
+  state(): SourceState | undefined;
+}
+
+export function record(): Recording {
+  const frames: Recording['frames'] = [];
+  const statuses: Recording['statuses'] = [];
+  const bad: FrameError[] = [];
+  const log: string[] = [];
+  return {
+    frames,
+    statuses,
+    bad,
+    log,
+    state: () => statuses.at(-1)?.state,
+    handlers: {
+      frame(frame, capturedAt) {
+        frames.push({ frame, capturedAt });
+        log.push('frame');
+      },
+      status(state, detail) {
+        statuses.push({ state, detail });
+        log.push(state);
+      },
+      badFrame(error) {
+        bad.push(error);
+        log.push('bad');
+      },
+    },
+  };
+}
+
+/** Resolves once `condition()` is true; rejects after `timeoutMs` (default 10 s) naming `what`. */
+export async function waitFor(condition: () => boolean | Promise<boolean>, what: string, timeoutMs = 10_000): Promise<void> {
+  const deadline = Date.now() + timeoutMs;
+  while (!(await condition())) {
+    if (Date.now() > deadline) throw new Error(`timed out after ${timeoutMs} ms waiting for ${what}`);
+    await sleep(20);
+  }
+}
+
+export function sleep(ms: number): Promise<void> {
+  return new Promise((resolve) => setTimeout(resolve, ms));
+}
+
+/** A grey JPEG of width × height: a flat `level` with a darker vertical stripe at x in [w/4, w/2). */
+export function stripedJpeg(width: number, height: number, level: number, quality = 95): Promise<Buffer> {
+  const pixels = greyPixels(width, height, (x) => (x >= width / 4 && x < width / 2 ? level / 2 : level));
+  return encodeGrey(pixels, width, height, 'jpeg', { quality });
+}
+
+/** The mean grey level of a frame's columns [x0, x1) (to tell frames apart by their level). */
+export function meanLevel(frame: GreyFrame, x0 = 0, x1 = frame.width): number {
+  let sum = 0;
+  for (let y = 0; y < frame.height; y++) for (let x = x0; x < x1; x++) sum += frame.data[y * frame.width + x];
+  return sum / ((x1 - x0) * frame.height);
+}
+
+/** A local HTTP server on 127.0.0.1 with an OS-chosen port, and the requests it has had. */
+export interface TestServer {
+  readonly url: string;
+  readonly requests: IncomingMessage[];
+  /** Open sockets, destroyed by close(). */
+  close(): Promise<void>;
+}
+
+export async function startServer(handler: (request: IncomingMessage, response: ServerResponse, index: number) => void): Promise<TestServer> {
+  const requests: IncomingMessage[] = [];
+  const sockets = new Set<import('node:net').Socket>();
+  const server: Server = http.createServer((request, response) => {
+    requests.push(request);
+    handler(request, response, requests.length - 1);
+  });
+  // Idle keep-alive connections stay open until the client closes them (Node's default closes them
+  // after 5 s), so that a client that forgets its sockets is caught.
+  server.keepAliveTimeout = 0;
+  server.on('connection', (socket) => {
+    sockets.add(socket);
+    socket.on('close', () => sockets.delete(socket));
+  });
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', resolve));
+  const { port } = server.address() as AddressInfo;
+  return {
+    url: `http://127.0.0.1:${port}`,
+    requests,
+    close: () =>
+      new Promise<void>((resolve) => {
+        for (const socket of sockets) socket.destroy();
+        server.close(() => resolve());
+      }),
+  };
+}
+
+/** Kinds of handle that a stopped source must not leave behind (see process.getActiveResourcesInfo). */
+const WATCHED = ['Timeout', 'TCPSocketWrap', 'TCPServerWrap', 'FSEventWrap', 'ProcessWrap', 'PipeWrap', 'FSReqCallback', 'FSReqPromise'];
+
+/** Counts of the watched handle kinds now active. */
+export function activeHandles(): Record<string, number> {
+  const counts: Record<string, number> = {};
+  for (const kind of WATCHED) counts[kind] = 0;
+  for (const kind of process.getActiveResourcesInfo()) if (kind in counts) counts[kind]++;
+  return counts;
+}
+
+/** Waits until no watched kind of handle is more numerous than in `before` (sockets close asynchronously). */
+export async function expectReleased(before: Record<string, number>): Promise<void> {
+  let now = activeHandles();
+  const extra = (): string[] => WATCHED.filter((kind) => now[kind] > before[kind]);
+  await waitFor(
+    () => {
+      now = activeHandles();
+      return extra().length === 0;
+    },
+    'handles to be released',
+  ).catch(() => {
+    throw new Error(`handles left after stop: ${extra().map((kind) => `${kind} ${before[kind]} → ${now[kind]}`).join(', ')}`);
+  });
+}
+
+/** A clock whose time moves only by advance(); timers fire in time order, including ones set while advancing. */
+export interface ManualClock extends Clock {
+  advance(ms: number): void;
+  /** Timers not yet fired. */
+  pending(): number;
+}
+
+export function manualClock(start = 0): ManualClock {
+  let now = start;
+  let next = 1;
+  const timers = new Map<number, { at: number; callback: () => void }>();
+  return {
+    now: () => now,
+    setTimeout(callback, ms) {
+      const handle = next++;
+      timers.set(handle, { at: now + Math.max(0, ms), callback });
+      return handle;
+    },
+    clearTimeout(handle) {
+      timers.delete(handle as number);
+    },
+    advance(ms) {
+      const target = now + ms;
+      for (;;) {
+        let earliest: [number, { at: number; callback: () => void }] | undefined;
+        for (const entry of timers) if (entry[1].at <= target && (earliest === undefined || entry[1].at < earliest[1].at)) earliest = entry;
+        if (earliest === undefined) break;
+        timers.delete(earliest[0]);
+        now = earliest[1].at;
+        earliest[1].callback();
+      }
+      now = target;
+    },
+    pending: () => timers.size,
+  };
+}
