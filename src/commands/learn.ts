@@ -4,7 +4,7 @@ import { loadConfig } from '../config/loadConfig.ts';
 import { encodeModel, modelFormatVersion, saveModel } from '../counting/modelFile.ts';
 import { createCameraSource } from '../frames/live/createCameraSource.ts';
 import { openStore } from '../store/index.ts';
-import type { Subspace } from '../vision/subspace.ts';
+import type { SubspaceFit } from '../vision/fitSubspace.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
 import { distinctFrames } from '../vision/distinctFrames.ts';
 import { fitSubspace } from '../vision/fitSubspace.ts';
@@ -14,7 +14,7 @@ import { progressLine } from './progressLine.ts';
 
 export const learnUsage = `residuum learn --frames <folder|video|synthetic:scene:empty> --out <model file>
                 [--width W] [--components K | --variance V] [--max-components N]
-                [--every N] [--limit N]
+                [--every N] [--limit N] [--robust]
        residuum learn --config <file> --camera <id> --seconds N [--data <folder>] [--out <model file>]
 
 Learns the empty scene: a mean image and a few eigen-images from frames with nobody in them.
@@ -27,6 +27,7 @@ Learns the empty scene: a mean image and a few eigen-images from frames with nob
   --max-components  upper bound when choosing by variance (default 12)
   --every           use one frame in N (default 1)
   --limit           use at most N frames (default 500)
+  --robust          the frames may show people passing through: reject them while learning
   --config, --camera, --seconds
                     learn from the configured camera's live source for N seconds (the view must be
                     empty meanwhile); the model is stored in <data>/residuum.db (default ./data),
@@ -43,6 +44,7 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     'max-components': { type: 'string' },
     every: { type: 'string' },
     limit: { type: 'string' },
+    robust: { type: 'boolean' },
     config: { type: 'string' },
     camera: { type: 'string' },
     seconds: { type: 'string' },
@@ -85,7 +87,7 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     io.err.write(`residuum learn: all ${data.length} frames of ${frames} are the same picture; at least 2 different ones are needed\n`);
     return 1;
   }
-  const model = fitSubspace(distinct, size, { components, variance, maxComponents });
+  const model = fitSubspace(distinct, size, { components, variance, maxComponents, robustIterations: v.robust ? 2 : 0 });
   await saveModel(out, model, {
     learnedAt: new Date().toISOString(),
     source: frames,
@@ -96,12 +98,13 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
 }
 
 /** The learning report: frames, components, variance, noise, verdict. */
-function printReport(out: NodeJS.WritableStream, model: Subspace, repeated: number, skipped: number, writtenTo: string): void {
+function printReport(out: NodeJS.WritableStream, model: SubspaceFit, repeated: number, skipped: number, writtenTo: string): void {
   const verdict = modelVerdict(model);
   const rows: [string, string][] = [
     ['frames used', `${model.frameCount}${[repeated && `${repeated} repeated dropped`, skipped && `${skipped} unreadable skipped`].filter(Boolean).join(', ').replace(/^(.+)$/, ' ($1)')}`],
     ['working size', `${model.width}×${model.height}`],
     ['components kept', String(model.components)],
+    ...(model.rejectedShare > 0 ? [['rejected', `${(model.rejectedShare * 100).toFixed(1)} % of learning pixels as foreground`] as [string, string]] : []),
     ['variance retained', `${(model.retainedVariance * 100).toFixed(1)} %`],
     ['residual noise', `${verdict.medianNoise.toFixed(2)} grey levels (median per pixel; 95th percentile ${verdict.noiseP95.toFixed(2)})`],
     ['verdict', `${verdict.level}: ${verdict.findings[0]}`],
@@ -161,7 +164,7 @@ async function learnFromCamera(
     io.err.write(`residuum learn: got ${frames.length} frame${frames.length === 1 ? '' : 's'} (${distinct.length} distinct) from ${id}; at least 2 are needed\n`);
     return 1;
   }
-  const model = fitSubspace(distinct, camera.source.size, { components, variance, maxComponents });
+  const model = fitSubspace(distinct, camera.source.size, { components, variance, maxComponents, robustIterations: v.robust ? 2 : 0 });
   const info = { learnedAt: new Date().toISOString(), source: `camera ${id}`, settings: { seconds, components, variance, maxComponents } };
   const store = openStore(join(resolve((v.data as string | undefined) ?? 'data'), 'residuum.db'), { timeZone: config.site.timeZone });
   try {

@@ -10,6 +10,7 @@ import { createCameraSource } from '../frames/live/createCameraSource.ts';
 import { createScene } from '../frames/synthetic/index.ts';
 import { createApp } from '../server/createApp.ts';
 import type { ServiceControl, SmallImage } from '../server/serviceControl.ts';
+import { prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts';
 import { validateZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
 import { openStore, type Store } from '../store/index.ts';
@@ -18,13 +19,14 @@ import { fitSubspace } from '../vision/fitSubspace.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
 
-export const runUsage = `residuum run --config <file> [--data <folder>] [--port N]
+export const runUsage = `residuum run --config <file> [--data <folder>] [--port N] [--reset-token]
 
 Runs the counting service: reads every configured camera, counts per zone, stores samples and
 hourly rollups in <data>/residuum.db, and serves the JSON API on the configured host and port.
   --config  the configuration file (YAML; see config/demo.yaml and README)
   --data    folder of the database (default ./data)
-  --port    HTTP port (default: server.port of the configuration, else 8080; 0 = any free port)`;
+  --port    HTTP port (default: server.port of the configuration, else 8080; 0 = any free port)
+  --reset-token  make a new admin key (and view key) and print it once; the old one stops working`;
 
 /** A running service: its parts and how to stop it. */
 export interface RunningService {
@@ -33,17 +35,22 @@ export interface RunningService {
   readonly control: ServiceControl;
   readonly server: Server;
   readonly port: number;
+  /** Keys made at this start (first start, or --reset-token), to show once; empty otherwise. */
+  readonly newTokens: NewTokens;
   stop(): Promise<void>;
 }
 
 /** `residuum run`: starts the service and runs until SIGINT or SIGTERM. */
 export async function runCommand(argv: string[]): Promise<number> {
-  const v = parseOptions(argv, { config: { type: 'string' }, data: { type: 'string' }, port: { type: 'string' } });
+  const v = parseOptions(argv, { config: { type: 'string' }, data: { type: 'string' }, port: { type: 'string' }, 'reset-token': { type: 'boolean' } });
   const configFile = requireOption(v.config, 'config', 'the configuration file');
   const port = numberOption(v.port, 'port', { min: 0, max: 65535, integer: true });
   const config = loadConfig(configFile);
-  const service = await startService(config, { dataDir: v.data ?? 'data', port, log: logLine });
+  const service = await startService(config, { dataDir: v.data ?? 'data', port, log: logLine, resetToken: v['reset-token'] === true });
   logLine(`serving the API at http://${config.server.host}:${service.port}/api/live`);
+  logLine(`dashboard at http://${config.server.host}:${service.port}/`);
+  // Straight to stdout, once, never through the log function.
+  process.stdout.write(tokenNotice(service.newTokens));
   await new Promise<void>((done) => {
     const stop = () => done();
     process.once('SIGINT', stop);
@@ -64,6 +71,8 @@ export interface StartServiceOptions {
   /** Overrides config.server.port. */
   readonly port?: number;
   readonly log?: (line: string) => void;
+  /** Replace the admin (and view) key with new ones; default false. */
+  readonly resetToken?: boolean;
 }
 
 /**
@@ -89,7 +98,8 @@ export async function startService(config: ResiduumConfig, options: StartService
         camera,
         store,
         model,
-        learn: (frames, size) => fitSubspace(distinctFrames(frames), size),
+        // Rooms are rarely quite empty: learning from the live view rejects people passing through.
+        learn: (frames, size) => fitSubspace(distinctFrames(frames), size, { robustIterations: 1 }),
         onModel: (learned) => storeModel(store, camera.id, learned, 'live source'),
         log,
       });
@@ -119,13 +129,30 @@ export async function startService(config: ResiduumConfig, options: StartService
     siteName: config.site.name,
     timeZone: config.site.timeZone,
     startedAt: Date.now(),
+    viewTokenRequired: config.server.viewToken,
+    sampleRetentionDays: config.storage.sampleRetentionDays,
+    host: config.server.host,
+    log,
   });
-  const server = await new Promise<Server>((done, fail) => {
-    const s = app.listen(options.port ?? config.server.port, config.server.host, () => done(s));
-    s.once('error', fail);
-  });
+  const port = options.port ?? config.server.port;
+  let server: Server;
+  try {
+    // Express 5 hands a listen error (EADDRINUSE…) to this callback instead of throwing.
+    server = await new Promise<Server>((done, fail) => {
+      const s = app.listen(port, config.server.host, (error?: Error) => (error ? fail(error) : done(s)));
+    });
+  } catch (error) {
+    clearInterval(retention);
+    for (const p of pipelines.values()) p.stop();
+    await Promise.all(sources.map((s) => s.stop()));
+    store.close();
+    throw new Error(`server: cannot listen on ${config.server.host}:${port} (${(error as Error).message})`, { cause: error });
+  }
   const address = server.address();
+  // After listening succeeded, so that a key is never made without being shown.
+  const newTokens = prepareTokens(store, { viewToken: config.server.viewToken, reset: options.resetToken === true });
   return {
+    newTokens,
     store,
     pipelines,
     server,

@@ -1,4 +1,5 @@
 import type { Subspace } from './subspace.ts';
+import { dilate } from './dilate.ts';
 import { symmetricEigen } from './symmetricEigen.ts';
 
 export interface FitSubspaceOptions {
@@ -21,6 +22,20 @@ export interface FitSubspaceOptions {
    * static texture keeps its low noise level, since the largest of low levels is low.
    */
   noiseSpread?: number;
+  /**
+   * Robust refits for learning frames in which people pass through (0 = plain PCA); default 0.
+   * Each refit replaces the pixels whose residual exceeds `robustCutoff` noise units by the
+   * model's reconstruction and fits again.
+   */
+  robustIterations?: number;
+  /** Residual, in noise units, beyond which a learning pixel is taken as foreground; default 3. */
+  robustCutoff?: number;
+}
+
+/** A fitted subspace and, with robust learning, how much of the learning frames it rejected. */
+export interface SubspaceFit extends Subspace {
+  /** Share of learning pixels replaced as foreground in the last robust refit (0 without). */
+  readonly rejectedShare: number;
 }
 
 /** Frames per block when splitting the learning frames into two interleaved halves. */
@@ -42,6 +57,18 @@ const foldBlock = 8;
  * within `noiseSpread` pixels and is floored at `noiseFloor`, so that clipped or flat pixels do
  * not become infinitely sensitive.
  *
+ * Robust learning (`robustIterations` > 0), for rooms that are never quite empty: fit, take the
+ * pixels whose residual is an outlier (beyond `robustCutoff` noise units) as foreground, replace
+ * them by the model's reconstruction and fit again — robust subspace learning with 0/1 weights,
+ * an iteratively reweighted scheme in the spirit of De la Torre & Black (2003), where each refit
+ * is the least-squares fit with the outlying pixels imputed (the EM view of PCA with missing
+ * values). As long as each pixel shows the background in most frames, people passing through
+ * are rejected and the empty scene remains.
+ *
+ * Cost: one Gram matrix per fit (n² d / 2 multiply-adds, tiled 4×4 so that each loaded pixel
+ * serves four products); the two cross-validation halves are derived from the full Gram matrix
+ * by double centring, without touching the pixels again.
+ *
  * Example: ten 2-pixel "frames" (x, y) from the classic PCA tutorial data set give eigenvalues
  * 1.284 and 0.049 (see test/vision/fitSubspace.test.ts).
  *
@@ -52,7 +79,7 @@ export function fitSubspace(
   frames: readonly Float32Array[],
   size: { width: number; height: number },
   options: FitSubspaceOptions = {},
-): Subspace {
+): SubspaceFit {
   const {
     components,
     variance = 0.95,
@@ -60,6 +87,8 @@ export function fitSubspace(
     noiseFloor = 1.5,
     noiseEstimate = 'cross-validated',
     noiseSpread = 2,
+    robustIterations = 0,
+    robustCutoff = 3,
   } = options;
   const n = frames.length;
   const d = size.width * size.height;
@@ -77,29 +106,67 @@ export function fitSubspace(
   if (!(Number.isInteger(noiseSpread) && noiseSpread >= 0)) {
     throw new RangeError(`noiseSpread must be a whole number ≥ 0, got ${noiseSpread}`);
   }
-  const fit = fitCore(frames, d, { components, variance, maxComponents });
-  const { mean, basis, k, keptSum, total } = fit;
-  let sumSq: Float64Array;
+  if (!(Number.isInteger(robustIterations) && robustIterations >= 0 && robustIterations <= 20)) {
+    throw new RangeError(`robustIterations must be a whole number from 0 to 20, got ${robustIterations}`);
+  }
+  if (!(robustCutoff > 0)) throw new RangeError(`robustCutoff must be a number > 0, got ${robustCutoff}`);
+
+  const choice = { components, variance, maxComponents };
+  let data = frames;
+  let rejectedShare = 0;
+  if (robustIterations > 0) {
+    // Start from the per-pixel temporal median, which people passing through barely move.
+    data = imputeOutliers(frames, undefined, size, robustCutoff, noiseFloor).frames;
+  }
+  let fit = fitAll(data, d, size, choice, noiseEstimate, noiseFloor, noiseSpread);
+  for (let iteration = 0; iteration < robustIterations; iteration++) {
+    const imputed = imputeOutliers(frames, fit, size, robustCutoff, noiseFloor);
+    rejectedShare = imputed.share;
+    data = imputed.frames;
+    fit = fitAll(data, d, size, choice, noiseEstimate, noiseFloor, noiseSpread);
+    if (imputed.share === 0) break;
+  }
+  return { ...fit, rejectedShare };
+}
+
+/** One plain fit of mean, eigen-images and noise map. */
+function fitAll(
+  frames: readonly Float32Array[],
+  d: number,
+  size: { width: number; height: number },
+  choice: { components: number | undefined; variance: number; maxComponents: number },
+  noiseEstimate: 'cross-validated' | 'training',
+  noiseFloor: number,
+  noiseSpread: number,
+): Subspace {
+  const n = frames.length;
+  const mean = meanOf(frames, d);
+  const centred = frames.map((f) => {
+    const c = new Float32Array(d);
+    for (let i = 0; i < d; i++) c[i] = f[i] - mean[i];
+    return c;
+  });
+  const gram = gramMatrix(centred, d);
+  const all = Array.from({ length: n }, (_, t) => t);
+  const fit = fitFromGram(gram, n, all, centred, d, choice);
+  const { basis, k, keptSum, total } = fit;
+
+  const sumSq = new Float64Array(d);
   let divisor: number;
   if (noiseEstimate === 'cross-validated' && n >= 4) {
     // Two-fold cross-validation over interleaved blocks of frames: each half is explained by a
     // subspace fitted to the other half, so the noise level is what the model leaves on frames it
     // has not seen, not the smaller residual of the frames it was fitted to.
-    sumSq = new Float64Array(d);
-    const folds = [0, 1].map((f) => frames.filter((_, t) => Math.floor(t / foldBlock) % 2 === f));
-    if (folds[1].length === 0) {
-      folds[0] = frames.filter((_, t) => t % 2 === 0);
-      folds[1] = frames.filter((_, t) => t % 2 === 1);
-    }
+    let folds = [0, 1].map((f) => all.filter((t) => Math.floor(t / foldBlock) % 2 === f));
+    if (folds[1].length === 0) folds = [all.filter((t) => t % 2 === 0), all.filter((t) => t % 2 === 1)];
     for (let f = 0; f < 2; f++) {
-      const other = folds[1 - f];
-      const half = fitCore(other, d, { components: undefined, variance: 1, maxComponents: k });
-      addResidualSquares(folds[f], half.mean, half.basis, d, half.k, sumSq);
+      const train = folds[1 - f];
+      const half = fitFromGram(gram, n, train, centred, d, { components: undefined, variance: 1, maxComponents: k });
+      addResidualSquares(folds[f].map((t) => centred[t]), half.offset, half.basis, d, half.k, sumSq);
     }
     divisor = n;
   } else {
-    sumSq = new Float64Array(d);
-    addResidualSquares(frames, mean, basis, d, k, sumSq);
+    addResidualSquares(centred, new Float32Array(d), basis, d, k, sumSq);
     // Residual degrees of freedom n − 1 − k, as in least-squares regression.
     divisor = Math.max(1, n - 1 - k);
   }
@@ -121,8 +188,9 @@ export function fitSubspace(
   };
 }
 
-interface CoreFit {
-  mean: Float32Array;
+interface GramFit {
+  /** The subset's mean minus the global mean (δ): the subset's frames are c_t − δ. */
+  offset: Float32Array;
   basis: Float32Array;
   eigenvalues: Float64Array;
   k: number;
@@ -136,36 +204,59 @@ function rankOf(n: number, d: number): number {
   return Math.max(0, Math.min(n - 1, d));
 }
 
-/** Mean, Gram eigen-decomposition and eigen-images by the method of snapshots. */
-function fitCore(
-  frames: readonly Float32Array[],
+/**
+ * PCA of the frames `subset` (indices into the globally centred frames) by the method of
+ * snapshots. Their own Gram matrix, centred on their own mean, comes from the full one by double
+ * centring: (c_a − δ)·(c_b − δ) = G_ab − r_a − r_b + g, with r the subset row means of G and g
+ * their mean, δ the subset's mean of the c_t.
+ */
+function fitFromGram(
+  gram: Float64Array,
+  n: number,
+  subset: readonly number[],
+  centred: readonly Float32Array[],
   d: number,
   choice: { components: number | undefined; variance: number; maxComponents: number },
-): CoreFit {
-  const n = frames.length;
-
-  const mean = meanOf(frames, d);
-  const centred = frames.map((f) => {
-    const c = new Float32Array(d);
-    for (let i = 0; i < d; i++) c[i] = f[i] - mean[i];
-    return c;
-  });
-  const gram = gramMatrix(centred, d);
-  const { values, vectors } = symmetricEigen(gram, n);
+): GramFit {
+  const m = subset.length;
+  const whole = m === n;
+  const g = new Float64Array(m * m);
+  const rowMean = new Float64Array(m);
+  for (let a = 0; a < m; a++) {
+    let s = 0;
+    for (let b = 0; b < m; b++) s += gram[subset[a] * n + subset[b]];
+    rowMean[a] = whole ? 0 : s / m;
+  }
+  let grand = 0;
+  for (let a = 0; a < m; a++) grand += rowMean[a];
+  grand /= m;
+  for (let a = 0; a < m; a++) {
+    for (let b = 0; b < m; b++) g[a * m + b] = gram[subset[a] * n + subset[b]] - rowMean[a] - rowMean[b] + grand;
+  }
+  const offset = new Float32Array(d);
+  if (!whole) {
+    const sum = new Float64Array(d);
+    for (const t of subset) {
+      const c = centred[t];
+      for (let i = 0; i < d; i++) sum[i] += c[i];
+    }
+    for (let i = 0; i < d; i++) offset[i] = sum[i] / m;
+  }
+  const { values, vectors } = symmetricEigen(g, m);
 
   let total = 0;
-  for (let i = 0; i < n; i++) total += gram[i * n + i];
-  // Non-zero directions: at most n − 1 (centring removes one) and at most d.
+  for (let i = 0; i < m; i++) total += g[i * m + i];
+  // Non-zero directions: at most m − 1 (centring removes one) and at most d.
   const tiny = Math.max(values[0], 0) * 1e-10;
   let rank = 0;
-  while (rank < rankOf(n, d) && values[rank] > tiny) rank++;
+  while (rank < rankOf(m, d) && values[rank] > tiny) rank++;
 
   let k: number;
   const { components, variance, maxComponents } = choice;
   if (components !== undefined) {
     if (components > rank) {
       throw new RangeError(
-        `components ${components} is more than the ${rank} independent directions in ${n} learning frames`,
+        `components ${components} is more than the ${rank} independent directions in ${m} learning frames`,
       );
     }
     k = components;
@@ -175,24 +266,112 @@ function fitCore(
     while (k < rank && k < maxComponents && (total <= 0 || kept / total < variance)) kept += values[k++];
   }
 
+  // u_j = Σ_t w_jt (c_t − δ) with w_jt = v_jt / √λ_j, all k at once, one pass over the frames.
   const eigenvalues = new Float64Array(k);
-  const basis = new Float32Array(d * k);
-  const u = new Float64Array(d);
+  const weights = new Float64Array(k * m);
+  const weightSums = new Float64Array(k);
   let keptSum = 0;
   for (let j = 0; j < k; j++) {
     keptSum += values[j];
-    eigenvalues[j] = values[j] / (n - 1);
+    eigenvalues[j] = values[j] / (m - 1);
     const s = Math.sqrt(values[j]);
-    u.fill(0);
-    for (let t = 0; t < n; t++) {
-      const w = vectors[j * n + t] / s;
-      const c = centred[t];
+    for (let t = 0; t < m; t++) {
+      weights[j * m + t] = vectors[j * m + t] / s;
+      weightSums[j] += weights[j * m + t];
+    }
+  }
+  // Component-major accumulators: each update is one contiguous stream.
+  const acc = Array.from({ length: k }, () => new Float64Array(d));
+  for (let t = 0; t < m; t++) {
+    const c = centred[subset[t]];
+    for (let j = 0; j < k; j++) {
+      const w = weights[j * m + t];
+      const u = acc[j];
       for (let i = 0; i < d; i++) u[i] += w * c[i];
     }
-    for (let i = 0; i < d; i++) basis[i * k + j] = u[i];
+  }
+  const basis = new Float32Array(d * k);
+  for (let j = 0; j < k; j++) {
+    const u = acc[j];
+    const ws = weightSums[j];
+    for (let i = 0, b = j; i < d; i++, b += k) basis[b] = u[i] - ws * offset[i];
   }
   orthonormaliseColumns(basis, d, k);
-  return { mean, basis, eigenvalues, k, keptSum, total };
+  return { offset, basis, eigenvalues, k, keptSum, total };
+}
+
+/**
+ * The frames with every outlying pixel replaced by the model's reconstruction of it; `share` is
+ * the share of pixels replaced. Without a model the reconstruction is the per-pixel temporal
+ * median. A pixel is outlying when its residual exceeds `cutoff` robust noise levels, the
+ * per-pixel median absolute residual over the frames times 1.4826 (the MAD scale of a normal
+ * distribution; Hampel 1974), which people present in a minority of the frames do not inflate.
+ */
+function imputeOutliers(
+  frames: readonly Float32Array[],
+  model: Subspace | undefined,
+  size: { width: number; height: number },
+  cutoff: number,
+  floor: number,
+  margin = 2,
+): { frames: Float32Array[]; share: number } {
+  const d = size.width * size.height;
+  const n = frames.length;
+  const reconstructions = frames.map(() => new Float32Array(d));
+  const column = new Float32Array(n);
+  if (model) {
+    const { mean, components: k } = model;
+    const columns = componentMajor(model.basis, d, k);
+    const c = new Float64Array(d);
+    frames.forEach((f, t) => {
+      const rec = reconstructions[t];
+      for (let i = 0; i < d; i++) {
+        c[i] = f[i] - mean[i];
+        rec[i] = mean[i];
+      }
+      for (let j = 0; j < k; j++) {
+        const u = columns[j];
+        let y = 0;
+        for (let i = 0; i < d; i++) y += u[i] * c[i];
+        for (let i = 0; i < d; i++) rec[i] += y * u[i];
+      }
+    });
+  } else {
+    for (let i = 0; i < d; i++) {
+      for (let t = 0; t < n; t++) column[t] = frames[t][i];
+      const median = medianOf(column);
+      for (let t = 0; t < n; t++) reconstructions[t][i] = median;
+    }
+  }
+  const scale = new Float32Array(d);
+  for (let i = 0; i < d; i++) {
+    for (let t = 0; t < n; t++) column[t] = Math.abs(frames[t][i] - reconstructions[t][i]);
+    scale[i] = Math.max(floor, 1.4826 * medianOf(column));
+  }
+  let replaced = 0;
+  const outlying = new Uint8Array(d);
+  const out = frames.map((f, t) => {
+    const rec = reconstructions[t];
+    for (let i = 0; i < d; i++) outlying[i] = Math.abs(f[i] - rec[i]) > cutoff * scale[i] ? 1 : 0;
+    // The soft edges of a person stay below the cutoff: replace a margin around outliers too.
+    const grown = dilate({ width: size.width, height: size.height, data: outlying }, { radius: margin });
+    const g = Float32Array.from(f);
+    for (let i = 0; i < d; i++) {
+      if (grown.data[i]) {
+        g[i] = rec[i];
+        replaced++;
+      }
+    }
+    return g;
+  });
+  return { frames: out, share: replaced / (d * n) };
+}
+
+/** Median of the values (reorders them). */
+function medianOf(values: Float32Array): number {
+  values.sort();
+  const n = values.length;
+  return n % 2 === 1 ? values[(n - 1) / 2] : (values[n / 2 - 1] + values[n / 2]) / 2;
 }
 
 function meanOf(frames: readonly Float32Array[], d: number): Float32Array {
@@ -203,37 +382,40 @@ function meanOf(frames: readonly Float32Array[], d: number): Float32Array {
   return mean;
 }
 
-/** G = XᵀX over pixel tiles, so that a tile of every frame stays in cache while all pairs use it. */
+/**
+ * G = XᵀX: blocks of 4×4 frame pairs over pixel tiles, so each loaded pixel value serves four
+ * products and a tile of every frame stays in cache while all pairs use it.
+ */
 function gramMatrix(centred: readonly Float32Array[], d: number): Float64Array {
   const n = centred.length;
   const gram = new Float64Array(n * n);
-  const tile = 2048;
+  const zero = new Float32Array(d);
+  const padded = n + ((4 - (n % 4)) % 4);
+  const x = Array.from({ length: padded }, (_, t) => centred[t] ?? zero);
+  const tile = 1024;
   for (let p0 = 0; p0 < d; p0 += tile) {
     const p1 = Math.min(d, p0 + tile);
-    for (let a = 0; a < n; a++) {
-      const xa = centred[a];
-      let b = 0;
-      // Four dot products at once: xa is read once for four partners.
-      for (; b + 3 <= a; b += 4) {
-        const x0 = centred[b], x1 = centred[b + 1], x2 = centred[b + 2], x3 = centred[b + 3];
-        let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    for (let a = 0; a < padded; a += 4) {
+      const a0 = x[a], a1 = x[a + 1], a2 = x[a + 2], a3 = x[a + 3];
+      for (let b = 0; b <= a; b += 4) {
+        const b0 = x[b], b1 = x[b + 1], b2 = x[b + 2], b3 = x[b + 3];
+        let s00 = 0, s01 = 0, s02 = 0, s03 = 0, s10 = 0, s11 = 0, s12 = 0, s13 = 0;
+        let s20 = 0, s21 = 0, s22 = 0, s23 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
         for (let p = p0; p < p1; p++) {
-          const v = xa[p];
-          s0 += v * x0[p];
-          s1 += v * x1[p];
-          s2 += v * x2[p];
-          s3 += v * x3[p];
+          const u0 = a0[p], u1 = a1[p], u2 = a2[p], u3 = a3[p];
+          const v0 = b0[p], v1 = b1[p], v2 = b2[p], v3 = b3[p];
+          s00 += u0 * v0; s01 += u0 * v1; s02 += u0 * v2; s03 += u0 * v3;
+          s10 += u1 * v0; s11 += u1 * v1; s12 += u1 * v2; s13 += u1 * v3;
+          s20 += u2 * v0; s21 += u2 * v1; s22 += u2 * v2; s23 += u2 * v3;
+          s30 += u3 * v0; s31 += u3 * v1; s32 += u3 * v2; s33 += u3 * v3;
         }
-        gram[a * n + b] += s0;
-        gram[a * n + b + 1] += s1;
-        gram[a * n + b + 2] += s2;
-        gram[a * n + b + 3] += s3;
-      }
-      for (; b <= a; b++) {
-        const xb = centred[b];
-        let s = 0;
-        for (let p = p0; p < p1; p++) s += xa[p] * xb[p];
-        gram[a * n + b] += s;
+        const sums = [s00, s01, s02, s03, s10, s11, s12, s13, s20, s21, s22, s23, s30, s31, s32, s33];
+        for (let i = 0; i < 4; i++) {
+          for (let j = 0; j < 4; j++) {
+            const r = a + i, c = b + j;
+            if (r < n && c < n && c <= r) gram[r * n + c] += sums[i * 4 + j];
+          }
+        }
       }
     }
   }
@@ -256,30 +438,38 @@ function orthonormaliseColumns(basis: Float32Array, d: number, k: number): void 
   }
 }
 
-/** Adds each frame's squared residual r_i² against (mean, basis) into sumSq. */
+/** Adds each (centred) frame's squared residual r_i² against (offset, basis) into sumSq. */
 function addResidualSquares(
   frames: readonly Float32Array[],
-  mean: Float32Array,
+  offset: Float32Array,
   basis: Float32Array,
   d: number,
   k: number,
   sumSq: Float64Array,
 ): void {
-  const c = new Float64Array(d);
-  const y = new Float64Array(k);
+  const columns = componentMajor(basis, d, k);
+  const r = new Float64Array(d);
   for (const f of frames) {
-    y.fill(0);
-    for (let i = 0; i < d; i++) {
-      const v = f[i] - mean[i];
-      c[i] = v;
-      for (let j = 0; j < k; j++) y[j] += basis[i * k + j] * v;
+    for (let i = 0; i < d; i++) r[i] = f[i] - offset[i];
+    for (let j = 0; j < k; j++) {
+      const u = columns[j];
+      let y = 0;
+      for (let i = 0; i < d; i++) y += u[i] * r[i];
+      // Subtracting each component from the running residual (modified Gram–Schmidt order)
+      // equals subtracting B·Bᵀc at once, since the columns are orthonormal.
+      for (let i = 0; i < d; i++) r[i] -= y * u[i];
     }
-    for (let i = 0; i < d; i++) {
-      let r = c[i];
-      for (let j = 0; j < k; j++) r -= basis[i * k + j] * y[j];
-      sumSq[i] += r * r;
-    }
+    for (let i = 0; i < d; i++) sumSq[i] += r[i] * r[i];
   }
+}
+
+/** The k columns of a pixel-major basis as separate arrays. */
+function componentMajor(basis: Float32Array, d: number, k: number): Float32Array[] {
+  return Array.from({ length: k }, (_, j) => {
+    const u = new Float32Array(d);
+    for (let i = 0, b = j; i < d; i++, b += k) u[i] = basis[b];
+    return u;
+  });
 }
 
 /** σ_i = max(floor, largest √(sumSq / divisor) within `radius` pixels of i). */
