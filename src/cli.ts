@@ -1,5 +1,6 @@
 import { countCommand, countUsage } from './commands/count.ts';
 import { demoCommand, demoUsage } from './commands/demo.ts';
+import { evaluateCommand, evaluateUsage } from './commands/evaluate.ts';
 import { exportCommand, exportUsage } from './commands/export.ts';
 import { learnCommand, learnUsage } from './commands/learn.ts';
 import { runCommand, runUsage } from './commands/run.ts';
@@ -9,6 +10,7 @@ const commands: Record<string, { run: (argv: string[]) => Promise<number>; usage
   learn: { run: learnCommand, usage: learnUsage, summary: 'learn the empty scene from frames with nobody in them' },
   count: { run: countCommand, usage: countUsage, summary: 'count people and shelf fill per zone in each frame' },
   run: { run: runCommand, usage: runUsage, summary: 'run the counting service for the configured cameras' },
+  evaluate: { run: evaluateCommand, usage: evaluateUsage, summary: 'compare counts and masks with ground truth, optionally against a baseline' },
   export: { run: exportCommand, usage: exportUsage, summary: 'write the hourly CSV of stored counts' },
   demo: { run: demoCommand, usage: demoUsage, summary: 'count the built-in synthetic reading room live' },
 };

@@ -1,0 +1,216 @@
+import { readdir, readFile, stat } from 'node:fs/promises';
+import { join, extname, basename } from 'node:path';
+import sharp from 'sharp';
+import { addConfusion, cdnetMetrics, type CdnetMetrics, type Confusion } from '../counting/cdnetMetrics.ts';
+import { createCounter, wholeFrameZone } from '../counting/createCounter.ts';
+import { createMog2Counter } from '../counting/createMog2Counter.ts';
+import { loadModel } from '../counting/modelFile.ts';
+import { parseZones } from '../counting/parseZones.ts';
+import type { Zone } from '../counting/zone.ts';
+import type { FrameItem, GreyFrame, Mask } from '../frames/frame.ts';
+import type { Subspace } from '../vision/subspace.ts';
+import { loadOpenCv } from '../vision/loadOpenCv.ts';
+import { parseOptions, requireOption, UsageError } from './args.ts';
+import { frameInput } from './frameInput.ts';
+
+export const evaluateUsage = `residuum evaluate --model <model file> --frames <folder|video|synthetic:scene> --truth <file|folder>
+                   [--zones <zones file>] [--method subspace|mog2|both] [--json]
+
+Compares counts (and foreground masks) with ground truth.
+  --truth   a JSON file of per-frame, per-zone counts: {"frames": {"<frame>": {"<zone>": 2, …}, …}}
+            (or the JSON lines that residuum count --json prints), or a folder of ground-truth
+            masks named like the frames (CDnet labels: 255 foreground, 0 and 50 background,
+            85 and 170 not scored; or plain 0/1, 0/255 masks)
+  --method  subspace (default), mog2 (opencv.js BackgroundSubtractorMOG2 over the frames in
+            order, through the same blob and zone stages), or both side by side
+  --json    one JSON object instead of a table`;
+
+/** Count errors of one zone. */
+export interface ZoneScore {
+  frames: number;
+  /** Mean absolute error of the count. */
+  mae: number;
+  /** Share of frames with the exact count. */
+  exact: number;
+  /** Mean of (counted − true). */
+  bias: number;
+}
+
+export interface MethodReport {
+  readonly method: 'subspace' | 'mog2';
+  readonly zones: Record<string, ZoneScore>;
+  /** CDnet metrics over all scored mask pixels (mask truth only). */
+  readonly masks?: CdnetMetrics & { frames: number };
+}
+
+type CountTruth = Map<string, Record<string, number>>;
+
+/** `residuum evaluate`. */
+export async function evaluateCommand(argv: string[], io = { out: process.stdout, err: process.stderr }): Promise<number> {
+  const v = parseOptions(argv, {
+    model: { type: 'string' },
+    frames: { type: 'string' },
+    truth: { type: 'string' },
+    zones: { type: 'string' },
+    method: { type: 'string' },
+    json: { type: 'boolean' },
+  });
+  const modelFile = requireOption(v.model, 'model', 'the model file from residuum learn');
+  const frames = requireOption(v.frames, 'frames', 'the frames to evaluate on');
+  const truthPath = requireOption(v.truth, 'truth', 'a JSON file of counts or a folder of masks');
+  const method = v.method ?? 'subspace';
+  if (!['subspace', 'mog2', 'both'].includes(method)) throw new UsageError(`--method must be subspace, mog2 or both, got "${method}"`);
+  const { model } = await loadModel(modelFile);
+  const zones: Zone[] = v.zones ? parseZones(await readFile(v.zones, 'utf8'), v.zones) : [wholeFrameZone];
+  const truthIsFolder = (await stat(truthPath).catch(() => {
+    throw new UsageError(`--truth: ${truthPath}: no such file or folder`);
+  })).isDirectory();
+  const counts = truthIsFolder ? undefined : parseCountTruth(await readFile(truthPath, 'utf8'), truthPath);
+  const masks = truthIsFolder ? await maskIndex(truthPath) : undefined;
+
+  const methods = method === 'both' ? (['subspace', 'mog2'] as const) : ([method] as ['subspace' | 'mog2']);
+  const reports = await evaluate(model, frameInput(frames, { width: model.width, height: model.height }), zones, methods, { counts, masks });
+  if (v.json) {
+    io.out.write(JSON.stringify({ frames, truth: truthPath, methods: reports }) + '\n');
+  } else {
+    io.out.write(formatReports(reports));
+  }
+  return 0;
+}
+
+/**
+ * Runs the methods over the frames in order and scores them against the truth. Frames without
+ * truth are counted (MOG2 needs every frame to keep its model) but not scored.
+ */
+export async function evaluate(
+  model: Subspace,
+  items: AsyncIterable<FrameItem>,
+  zones: readonly Zone[],
+  methods: readonly ('subspace' | 'mog2')[],
+  truth: { counts?: CountTruth; masks?: Map<string, string> },
+): Promise<MethodReport[]> {
+  const size = { width: model.width, height: model.height };
+  const cv = methods.includes('mog2') ? await loadOpenCv() : undefined;
+  const runners = methods.map((m) => {
+    if (m === 'subspace') {
+      const counter = createCounter(model, zones);
+      return { method: m, count: (f: GreyFrame) => counter.count(f), mask: () => counter.lastMask(), close: () => {} };
+    }
+    const counter = createMog2Counter(cv, size, zones);
+    return { method: m, count: (f: GreyFrame) => counter.count(f), mask: () => counter.lastMask(), close: () => counter.close() };
+  });
+  const scores = runners.map(() => new Map<string, { n: number; abs: number; exact: number; bias: number }>());
+  const confusions = runners.map((): Confusion => ({ tp: 0, fp: 0, tn: 0, fn: 0 }));
+  let maskFrames = 0;
+  try {
+    for await (const item of items) {
+      if (item.error) continue;
+      const wantCounts = truth.counts?.get(item.name) ?? truth.counts?.get(basename(item.name, extname(item.name)));
+      const maskFile = truth.masks?.get(basename(item.name, extname(item.name)));
+      const wantMask = maskFile ? await readTruthMask(maskFile, size) : undefined;
+      if (wantMask) maskFrames++;
+      runners.forEach((runner, r) => {
+        const result = runner.count(item.frame);
+        if (wantCounts) {
+          for (const [zone, want] of Object.entries(wantCounts)) {
+            const got = result.zones[zone];
+            if (!got) continue;
+            const s = scores[r].get(zone) ?? { n: 0, abs: 0, exact: 0, bias: 0 };
+            s.n++;
+            s.abs += Math.abs(got.count - want);
+            s.exact += got.count === want ? 1 : 0;
+            s.bias += got.count - want;
+            scores[r].set(zone, s);
+          }
+        }
+        if (wantMask) addConfusion((runner.mask() as Mask).data, wantMask, confusions[r]);
+      });
+    }
+  } finally {
+    for (const runner of runners) runner.close();
+  }
+  return runners.map((runner, r) => {
+    const zonesOut: Record<string, ZoneScore> = {};
+    for (const [zone, s] of scores[r]) zonesOut[zone] = { frames: s.n, mae: s.abs / s.n, exact: s.exact / s.n, bias: s.bias / s.n };
+    return {
+      method: runner.method,
+      zones: zonesOut,
+      ...(maskFrames > 0 && { masks: { ...cdnetMetrics(confusions[r]), frames: maskFrames } }),
+    };
+  });
+}
+
+/** Count truth: {"frames": {name: {zone: n | {count: n}}}} or JSON lines of {frame, zones}. */
+export function parseCountTruth(text: string, source: string): CountTruth {
+  const truth: CountTruth = new Map();
+  const add = (name: unknown, zones: unknown, at: string) => {
+    if (typeof name !== 'string' && typeof name !== 'number') throw new UsageError(`${source}: ${at} needs a frame name`);
+    if (typeof zones !== 'object' || zones === null) throw new UsageError(`${source}: ${at}.zones must be an object of zone counts`);
+    const counts: Record<string, number> = {};
+    for (const [zone, raw] of Object.entries(zones as Record<string, unknown>)) {
+      const n = typeof raw === 'object' && raw !== null ? (raw as { count?: unknown }).count : raw;
+      if (typeof n !== 'number' || !Number.isFinite(n) || n < 0) throw new UsageError(`${source}: ${at}.${zone} must be a count ≥ 0, got ${JSON.stringify(raw)}`);
+      counts[zone] = n;
+    }
+    truth.set(String(name), counts);
+  };
+  const trimmed = text.trim();
+  let doc: unknown;
+  try {
+    doc = JSON.parse(trimmed);
+  } catch {
+    trimmed.split(/\r?\n/).forEach((line, i) => {
+      if (line.trim() === '') return;
+      let row: { frame?: unknown; zones?: unknown };
+      try {
+        row = JSON.parse(line);
+      } catch {
+        throw new UsageError(`${source}: line ${i + 1} is not JSON`);
+      }
+      add(row.frame, row.zones, `line ${i + 1}`);
+    });
+    return truth;
+  }
+  const framesObject = (doc as { frames?: unknown })?.frames;
+  if (typeof framesObject !== 'object' || framesObject === null || Array.isArray(framesObject)) {
+    throw new UsageError(`${source}: expected {"frames": {"<frame>": {"<zone>": count}}} or JSON lines of {"frame", "zones"}`);
+  }
+  for (const [name, zones] of Object.entries(framesObject)) add(name, zones, `frames["${name}"]`);
+  return truth;
+}
+
+async function maskIndex(folder: string): Promise<Map<string, string>> {
+  const index = new Map<string, string>();
+  for (const name of await readdir(folder)) {
+    if (/\.(png|bmp|jpe?g|webp|tiff?)$/i.test(name)) index.set(basename(name, extname(name)).replace(/^gt/, ''), join(folder, name));
+  }
+  return index;
+}
+
+/** A truth mask at the model size, nearest-neighbour so labels stay labels. */
+async function readTruthMask(file: string, size: { width: number; height: number }): Promise<Uint8Array> {
+  const { data } = await sharp(file).greyscale().resize(size.width, size.height, { fit: 'fill', kernel: 'nearest' }).raw().toBuffer({ resolveWithObject: true });
+  return new Uint8Array(data);
+}
+
+function formatReports(reports: readonly MethodReport[]): string {
+  const lines: string[] = [];
+  const zones = [...new Set(reports.flatMap((r) => Object.keys(r.zones)))];
+  const header = ['zone'.padEnd(16), ...reports.flatMap((r) => [`${r.method} MAE`.padStart(14), 'exact'.padStart(7), 'bias'.padStart(7)])];
+  lines.push(header.join(' '));
+  for (const zone of zones) {
+    const cells = reports.flatMap((r) => {
+      const s = r.zones[zone];
+      return s ? [s.mae.toFixed(3).padStart(14), `${(s.exact * 100).toFixed(0)}%`.padStart(7), s.bias.toFixed(2).padStart(7)] : ['–'.padStart(14), '', ''];
+    });
+    lines.push([zone.padEnd(16), ...cells].join(' '));
+  }
+  if (reports.some((r) => r.masks)) {
+    lines.push('');
+    lines.push(['masks (CDnet)'.padEnd(16), ...reports.map((r) => r.method.padStart(10))].join(' '));
+    for (const key of ['recall', 'specificity', 'fpr', 'fnr', 'pwc', 'precision', 'fMeasure'] as const) {
+      lines.push([key.padEnd(16), ...reports.map((r) => (r.masks ? r.masks[key].toFixed(4) : '–').padStart(10))].join(' '));
+    }
+  }
+  return lines.join('\n') + '\n';
+}
