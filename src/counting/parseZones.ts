@@ -18,6 +18,9 @@ const idPattern = /^[A-Za-z0-9][A-Za-z0-9_-]{0,63}$/;
  *     kind: room            # room | shelf
  *     polygon: [[0.05, 0.45], [0.60, 0.45], [0.60, 0.98], [0.05, 0.98]]
  *     personArea: 0.009     # optional, fraction of the frame area
+ *     perspective:          # optional, instead of personArea: reference people (foot y, area)
+ *       - { y: 0.55, area: 0.005 }
+ *       - { y: 0.95, area: 0.014 }
  *     minBlobArea: 0.002    # optional, fraction of the frame area
  *     threshold: 3          # optional, noise units
  *     anchor: foot          # optional: foot | centroid
@@ -51,7 +54,7 @@ export function validateZones(doc: unknown, source = 'zones', path = 'zones'): Z
   });
 }
 
-const knownFields = new Set(['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'anchor', 'capacity']);
+const knownFields = new Set(['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'perspective', 'anchor', 'capacity']);
 
 function validateZone(raw: unknown, source: string, at: string): Zone {
   const fail = (field: string, message: string): never => {
@@ -87,6 +90,17 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
   if (capacity !== undefined && (typeof capacity !== 'number' || !Number.isInteger(capacity) || capacity < 0)) {
     fail('capacity', `must be a whole number ≥ 0, got ${show(capacity)}`);
   }
+  let perspective: { y: number; area: number }[] | undefined;
+  if (z.perspective !== undefined) {
+    if (!Array.isArray(z.perspective) || z.perspective.length < 2) fail('perspective', 'must be a list of at least 2 reference people {y, area}');
+    perspective = (z.perspective as unknown[]).map((r, i) => {
+      if (!isRecord(r)) return fail(`perspective[${i}]`, 'must be {y, area}');
+      if (typeof r.y !== 'number' || !(r.y >= 0 && r.y <= 1)) fail(`perspective[${i}].y`, `must be the foot row in 0..1, got ${show(r.y)}`);
+      if (typeof r.area !== 'number' || !(r.area > 0 && r.area <= 1)) fail(`perspective[${i}].area`, `must be a fraction of the frame area in (0, 1], got ${show(r.area)}`);
+      return { y: r.y as number, area: r.area as number };
+    });
+    if (new Set(perspective.map((r) => r.y)).size < 2) fail('perspective', 'needs reference people at two or more different heights (y)');
+  }
   const zone: Zone = {
     id: z.id as string,
     kind: z.kind as ZoneKind,
@@ -95,6 +109,7 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
     ...(threshold !== undefined && { threshold: threshold as number }),
     ...(z.minBlobArea !== undefined && { minBlobArea: fraction('minBlobArea') }),
     ...(z.personArea !== undefined && { personArea: fraction('personArea') }),
+    ...(perspective !== undefined && { perspective }),
     ...(z.anchor !== undefined && { anchor: z.anchor as AnchorPoint }),
     ...(capacity !== undefined && { capacity: capacity as number }),
   };

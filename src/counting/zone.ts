@@ -37,6 +37,12 @@ export interface Zone {
   readonly personArea?: number;
   /** Which blob point decides membership; default `foot` for rooms, `centroid` for shelves. */
   readonly anchor?: AnchorPoint;
+  /**
+   * Perspective: two or more reference people, each where their feet were (normalised y) and the
+   * area they covered (fraction of the frame). The expected person area then follows the foot
+   * point's y (see fitPersonArea) instead of the single `personArea`.
+   */
+  readonly perspective?: readonly { readonly y: number; readonly area: number }[];
   /** Capacity in people (rooms); informational for the counting engine. */
   readonly capacity?: number;
 }

@@ -1,4 +1,5 @@
 import type { AnchorPoint, Zone, ZoneKind } from '../counting/zone.ts';
+import { fitPersonArea } from './fitPersonArea.ts';
 import { rasterizeZone } from './rasterizeZone.ts';
 
 /** A zone turned into pixels and pixel counts at one working size, ready for tallying. */
@@ -15,6 +16,8 @@ export interface PreparedZone {
   readonly minBlobPixels: number;
   /** Pixels of one person (rooms) or one item (shelves); 0 = count each blob as one. */
   readonly personPixels: number;
+  /** With perspective: pixels of one person whose feet are on pixel row `footY`. */
+  readonly personPixelsAt?: (footY: number) => number;
 }
 
 export interface PrepareZonesOptions {
@@ -49,7 +52,11 @@ export function prepareZones(
     const room = zone.kind === 'room';
     const person = zone.personArea ?? (room ? personArea : undefined);
     const personPixels = person === undefined ? 0 : person * frameArea;
-    const minBlob = zone.minBlobArea ?? (room ? (person ?? personArea) * minBlobShare : shelfMinBlobArea);
+    const perspective = zone.perspective ? fitPersonArea(zone.perspective) : undefined;
+    const personPixelsAt = perspective && ((footY: number) => perspective.areaAt((footY + 0.5) / size.height) * frameArea);
+    // With perspective, the smallest blob kept follows the smallest expected person in the zone.
+    const smallestPerson = perspective ? Math.min(...zone.polygon.map(([, y]) => perspective.areaAt(y))) : undefined;
+    const minBlob = zone.minBlobArea ?? (room ? (smallestPerson ?? person ?? personArea) * minBlobShare : shelfMinBlobArea);
     return {
       id: zone.id,
       kind: zone.kind,
@@ -59,6 +66,7 @@ export function prepareZones(
       threshold: zone.threshold ?? threshold,
       minBlobPixels: minBlob * frameArea,
       personPixels,
+      ...(personPixelsAt && { personPixelsAt }),
     };
   });
 }

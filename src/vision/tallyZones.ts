@@ -34,7 +34,8 @@ export function peopleInBlob(area: number, personPixels: number): number {
  * A blob belongs to every zone whose polygon contains its anchor point (the foot point, bottom
  * centre of the bounding box, for rooms; the centroid for shelves), taken at pixel centres in
  * normalised coordinates; zones drop blobs smaller than their minimum. A room counts people by
- * {@link peopleInBlob}; a shelf counts item blobs the same way (one each when it has no item area)
+ * {@link peopleInBlob} (against the person area at the blob's foot row when the zone has a
+ * perspective model); a shelf counts item blobs the same way (one each when it has no item area)
  * and reports its fill, the foreground share of its pixels.
  */
 export function tallyZones(
@@ -55,7 +56,7 @@ export function tallyZones(
       if (blob.area < zone.minBlobPixels) continue;
       const [ax, ay] = zone.anchor === 'foot' ? [blob.footX, blob.footY] : [blob.cx, blob.cy];
       if (!pointInPolygon((ax + 0.5) / width, (ay + 0.5) / height, zone.polygon)) continue;
-      const people = peopleInBlob(blob.area, zone.personPixels);
+      const people = peopleInBlob(blob.area, zone.personPixelsAt ? zone.personPixelsAt(blob.footY) : zone.personPixels);
       count += people;
       kept++;
       if (!claimed.has(blob.label)) claimed.set(blob.label, people);

@@ -26,6 +26,8 @@ describe('parseZones', () => {
     ['a person area above 1', `- {id: a, kind: room, polygon: ${square}, personArea: 2}`, /zones\[0\]\.personArea must be a fraction/],
     ['a negative threshold', `- {id: a, kind: room, polygon: ${square}, threshold: -1}`, /zones\[0\]\.threshold/],
     ['no list', `zones: 3`, /zones must be a list/],
+    ['a single perspective reference', `- {id: a, kind: room, polygon: ${square}, perspective: [{y: 0.5, area: 0.01}]}`, /zones\[0\]\.perspective must be a list of at least 2/],
+    ['a perspective reference off the frame', `- {id: a, kind: room, polygon: ${square}, perspective: [{y: 0.5, area: 0.01}, {y: 1.5, area: 0.02}]}`, /zones\[0\]\.perspective\[1\]\.y must be the foot row in 0\.\.1/],
     ['broken YAML', `zones: [`, /z\.yaml: not valid YAML/],
   ])('rejects %s with a message naming the field', (_what, text, message) => {
     expect(() => parseZones(text, 'z.yaml')).toThrow(message);

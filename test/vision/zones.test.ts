@@ -121,3 +121,21 @@ describe('tallyZones', () => {
     expect(tally.total).toBe(9);
   });
 });
+
+describe('tallyZones with perspective', () => {
+  it('counts a near blob and a far blob of the same size differently', () => {
+    const width = 100;
+    const height = 100;
+    // One person covers 1 % of the frame with feet at y 0.5 and 4 % at y 1.0.
+    const zones = prepareZones(
+      [{ id: 'floor', kind: 'room', polygon: [[0, 0], [1, 0], [1, 1], [0, 1]], perspective: [{ y: 0.5, area: 0.01 }, { y: 1, area: 0.04 }] }],
+      { width, height },
+    );
+    const mask = createMask(width, height);
+    // Both blobs cover 400 pixels: four people far away (feet at row 49: about 1 % each), one person near (row 99: 4 %).
+    const far = tallyZones([blob(1, 10, 30, 29, 49, 400)], mask, zones);
+    const near = tallyZones([blob(1, 10, 80, 29, 99, 400)], mask, zones);
+    expect(far.zones.floor.count).toBe(4);
+    expect(near.zones.floor.count).toBe(1);
+  });
+});
