@@ -84,6 +84,9 @@ export interface CameraPipeline extends EventEmitter {
   stop(): void;
 }
 
+/** Frames kept in memory while learning from a live source (about 37 MB at 320×240). */
+const maxLearningFrames = 480;
+
 interface ZoneAccumulator {
   readonly zone: Zone;
   readonly count: SlidingWindow;
@@ -100,12 +103,16 @@ interface ZoneAccumulator {
  * One camera's live counting: frames from its source → counter → per-zone sliding-window
  * smoothing → one sample per zone every `sampleSeconds` into the store (the mean of the smoothed
  * per-frame values over the interval). An interval ends without a sample when the source goes
- * offline or frames stop for more than two sample periods, so an outage is a gap, never zeros.
+ * offline or frames stop for more than two sample periods (at least two minutes), so an outage
+ * is a gap, never zeros.
  */
 export function createCameraPipeline(options: CameraPipelineOptions): CameraPipeline {
   const { camera, store, onModel, learn, viewChangeScale = 6, log = () => {} } = options;
   const { width, height } = camera.source.size;
   const sampleMs = Math.round(camera.sampleSeconds * 1000);
+  // Frames further apart than this mean the camera was away: the interval is a gap. Slow sources
+  // (a snapshot a minute) still get samples, one per frame.
+  const maxGapMs = Math.max(2 * sampleMs, 120_000);
   const emitter = new EventEmitter() as CameraPipeline;
   let model = options.model;
   let zones = camera.zones;
@@ -118,6 +125,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   let quality = 0;
   let viewChanged = false;
   const learning: Float32Array[] = [];
+  let learnedSeen = 0;
+  let learnStride = 1;
   let learningStart: number | undefined;
   let learnSeconds: number | undefined = model ? undefined : camera.learnSeconds;
   let learnState: LearnStatus = model ? { state: 'idle', progress: 0 } : { state: 'learning', progress: 0, seconds: camera.learnSeconds };
@@ -187,15 +196,17 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     emitter.emit('live', emitter.live());
   }
 
-  function onFrame(frame: GreyFrame, at: number): void {
+  function onFrame(frame: GreyFrame, capturedAt: number): void {
     if (state === 'stopped') return;
+    // The store takes whole epoch ms; a drop folder's capturedAt is a file mtime with a fraction.
+    const at = Math.floor(capturedAt);
     if (learnSeconds !== undefined) collectForLearning(frame, at, learnSeconds);
     if (!counter) {
       state = 'learning';
       publish();
       return;
     }
-    if (lastFrameAt !== undefined && at - lastFrameAt > 2 * sampleMs) dropInterval();
+    if (lastFrameAt !== undefined && at - lastFrameAt > maxGapMs) dropInterval();
     if (intervalStart === undefined) {
       const previous = accumulators.reduce((m, a) => Math.max(m, store.lastSample(camera.id, a.zone.id)?.time ?? 0), 0);
       intervalStart = Math.max(at, previous);
@@ -226,7 +237,14 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
 
   function collectForLearning(frame: GreyFrame, at: number, seconds: number): void {
     learningStart ??= at;
-    learning.push(Float32Array.from(frame.data));
+    // Keep at most maxLearningFrames, spread over the whole learning time: when full, drop every
+    // other kept frame and keep only every second new one from then on.
+    if (learnedSeen++ % learnStride === 0) learning.push(Float32Array.from(frame.data));
+    if (learning.length >= maxLearningFrames) {
+      for (let i = 0, j = 0; i < learning.length; i += 2, j++) learning[j] = learning[i];
+      learning.length = Math.ceil(learning.length / 2);
+      learnStride *= 2;
+    }
     const progress = Math.min(1, (at - learningStart) / (seconds * 1000));
     learnState = { ...learnState, state: 'learning', progress };
     if (progress < 1 || learning.length < 2 || !learn) {
@@ -234,6 +252,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       return;
     }
     const frames = learning.splice(0);
+    learnedSeen = 0;
+    learnStride = 1;
     learnSeconds = undefined;
     learningStart = undefined;
     try {
@@ -305,6 +325,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       if (!(seconds > 0 && seconds <= 3600)) throw new RangeError(`seconds must be in (0, 3600], got ${seconds}`);
       if (learnSeconds !== undefined) return learnState;
       learning.length = 0;
+      learnedSeen = 0;
+      learnStride = 1;
       learningStart = undefined;
       learnSeconds = seconds;
       learnState = { state: 'learning', progress: 0, seconds, startedAt: Date.now() };

@@ -102,11 +102,28 @@ describe('camera pipeline', () => {
     expect(types).toContain('online');
   });
 
-  it('starts a new interval when frames stop for more than two sample periods', () => {
+  it('starts a new interval when frames stop for more than two minutes', () => {
     const { store, pipeline } = setup();
     for (let i = 0; i <= 15; i++) pipeline.handlers.frame(scene.frameAt(600 + i).frame, t0 + i * 100);
-    for (let i = 0; i <= 15; i++) pipeline.handlers.frame(scene.frameAt(700 + i).frame, t0 + 10_000 + i * 100);
+    for (let i = 0; i <= 15; i++) pipeline.handlers.frame(scene.frameAt(700 + i).frame, t0 + 200_000 + i * 100);
     for (const s of store.listSamples({ camera: 'cam', zone: 'entrance' })) expect(s.intervalMs).toBeLessThanOrEqual(1000);
+  });
+
+  it('still samples a slow source that sends a frame every 30 s', () => {
+    const { store, pipeline } = setup({ sampleSeconds: 10 });
+    for (let i = 0; i < 6; i++) pipeline.handlers.frame(scene.frameAt(600 + i * 300).frame, t0 + i * 30_000);
+    const samples = store.listSamples({ camera: 'cam', zone: 'tables' });
+    expect(samples.length).toBe(5);
+    for (const s of samples) expect(s.intervalMs).toBe(30_000);
+  });
+
+  it('keeps a bounded number of frames while learning for a long time', () => {
+    const { pipeline, learned } = setup({ learnSeconds: 120 }, false);
+    // 10 frames a second for 2 minutes: 1200 frames seen, at most 480 kept.
+    for (let i = 0; i <= 1200; i++) pipeline.handlers.frame(scene.emptyFrameAt((i * 7) % 3000), t0 + i * 100);
+    expect(learned.length).toBe(1);
+    expect(learned[0].frameCount).toBeLessThanOrEqual(480);
+    expect(learned[0].frameCount).toBeGreaterThan(200);
   });
 
   it('flags a changed view instead of counting a crowd, and logs capacity exceeded', () => {
