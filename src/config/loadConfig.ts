@@ -41,7 +41,8 @@ export interface ResiduumConfig {
   readonly file: string;
   readonly site: { readonly name: string; readonly timeZone: string };
   readonly storage: { readonly sampleRetentionDays: number };
-  readonly server: { readonly host: string; readonly port: number };
+  /** HTTP server: listen address and port; `viewToken` true = reading counts needs a key too. */
+  readonly server: { readonly host: string; readonly port: number; readonly viewToken: boolean };
   readonly cameras: readonly CameraConfig[];
 }
 
@@ -79,7 +80,7 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   const timeZone = site.timeZone ?? Intl.DateTimeFormat().resolvedOptions().timeZone;
   if (typeof timeZone !== 'string' || !isTimeZone(timeZone)) fail('site.timeZone', `must be an IANA time zone such as Europe/Berlin, got ${show(timeZone)}`);
   const storage = record(root.storage ?? {}, 'storage', fail, ['sampleRetentionDays']);
-  const server = record(root.server ?? {}, 'server', fail, ['host', 'port']);
+  const server = record(root.server ?? {}, 'server', fail, ['host', 'port', 'viewToken']);
   const host = server.host ?? '127.0.0.1';
   if (typeof host !== 'string' || host === '') fail('server.host', `must be a host name or address, got ${show(host)}`);
   const cameras = root.cameras;
@@ -96,7 +97,7 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
     file,
     site: { name: text(site.name ?? 'Residuum site', 'site.name', fail), timeZone: timeZone as string },
     storage: { sampleRetentionDays: int(storage.sampleRetentionDays ?? 30, 'storage.sampleRetentionDays', fail, 1, 36500) },
-    server: { host: host as string, port: int(server.port ?? 8080, 'server.port', fail, 0, 65535) },
+    server: { host: host as string, port: int(server.port ?? 8080, 'server.port', fail, 0, 65535), viewToken: bool(server.viewToken, 'server.viewToken', fail) ?? false },
     cameras: parsed,
   };
 }

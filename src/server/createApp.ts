@@ -1,8 +1,28 @@
+import { createRequire } from 'node:module';
+import { dirname } from 'node:path';
+import { fileURLToPath } from 'node:url';
 import express, { type NextFunction, type Request, type Response } from 'express';
+import helmet from 'helmet';
 import type { CameraLive } from '../counting/cameraPipeline.ts';
-import { hourlyRows, writeHourlyCsv } from '../outputs/hourlyCsv.ts';
 import type { Store } from '../store/index.ts';
+import { createAuth } from './auth.ts';
+import type { ServerContext } from './context.ts';
+import { readDisplaySettings } from './displaySettings.ts';
+import type { FailureLimiter } from './failureLimiter.ts';
+import { HttpError } from './HttpError.ts';
+import type { LiveStreamOptions } from './liveStream.ts';
+import { liveView } from './liveView.ts';
+import { cameraRoutes } from './routes/cameras.ts';
+import { capacityRoutes } from './routes/capacity.ts';
+import { exportRoutes } from './routes/export.ts';
+import { healthRoutes } from './routes/health.ts';
+import { historyRoutes } from './routes/history.ts';
+import { learnRoutes } from './routes/learn.ts';
+import { liveRoutes } from './routes/live.ts';
+import { settingsRoutes } from './routes/settings.ts';
 import type { ServiceControl } from './serviceControl.ts';
+
+export { HttpError } from './HttpError.ts';
 
 /** What the HTTP app needs from the running service. */
 export interface AppDeps {
@@ -15,69 +35,146 @@ export interface AppDeps {
   readonly timeZone: string;
   /** When the service started, epoch ms. */
   readonly startedAt: number;
+  /** Whether reading counts needs a token (config server.viewToken); default false. */
+  readonly viewTokenRequired?: boolean;
+  /** Days raw samples are kept (config storage.sampleRetentionDays), shown in the privacy notice. */
+  readonly sampleRetentionDays?: number;
+  /**
+   * The address the server listens on (config server.host). When it is a loopback address, only
+   * requests whose Host header names a loopback host are served (421 otherwise), so a web page
+   * cannot reach the dashboard through DNS rebinding. Default: no Host check.
+   */
+  readonly host?: string;
+  /** Limiter of failed key attempts; default 10 per minute per address. */
+  readonly limiter?: FailureLimiter;
+  /** Live stream timing; default a check every 500 ms. */
+  readonly stream?: LiveStreamOptions;
+  /** Service log lines (never a token). Default: none. */
+  readonly log?: (line: string) => void;
 }
 
-/** An error with the HTTP status to answer. */
-export class HttpError extends Error {
-  constructor(readonly status: number, message: string) {
-    super(message);
-  }
-}
+/** The dashboard's files. */
+export const WEB_DIR = fileURLToPath(new URL('../../web/', import.meta.url));
 
 /**
- * The JSON API of the service (listening is the caller's job, so tests drive it on listen(0)).
- * Counts only: no route serves a frame or anything derived from one besides the counts.
+ * The dashboard and JSON API of the service (listening is the caller's job, so tests drive it on
+ * listen(0)). Counts only: besides them, no route serves anything derived from a frame except the
+ * learned empty scene and, on request, a coarse foreground mask — both to the admin only.
+ *
+ * Security: helmet's headers with a strict Content-Security-Policy (scripts, styles and
+ * connections from this origin only, no inline script or style, no framing); every change needs
+ * the admin token as `Authorization: Bearer …` (src/server/auth.ts); JSON bodies are limited to
+ * 256 kB and validated with messages naming the field; one error handler answers JSON.
  */
 export function createApp(deps: AppDeps): express.Express {
-  const { store, live, siteName, timeZone, startedAt } = deps;
+  const { store, viewTokenRequired = false, log = () => {} } = deps;
+  const auth = createAuth(store, { viewTokenRequired, ...(deps.limiter && { limiter: deps.limiter }) });
+  const ctx: ServerContext = {
+    store,
+    control: deps.control,
+    live: deps.live,
+    siteName: deps.siteName,
+    timeZone: deps.timeZone,
+    startedAt: deps.startedAt,
+    sampleRetentionDays: deps.sampleRetentionDays,
+    auth,
+    log,
+    display: () => readDisplaySettings(store),
+    liveView() {
+      const d = readDisplaySettings(store);
+      const control = deps.control;
+      return liveView(deps.live(), {
+        nearCapacity: d.nearCapacity,
+        defaultLowStock: d.defaultLowStock,
+        lowStock: d.lowStock,
+        ...(control && { learn: (camera: string) => control.learnStatus(camera) }),
+      });
+    },
+  };
+
   const app = express();
   app.disable('x-powered-by');
+  app.set('etag', false);
+  if (deps.host !== undefined && isLoopback(deps.host)) app.use(loopbackHostOnly);
+  app.use(
+    helmet({
+      contentSecurityPolicy: {
+        useDefaults: false,
+        directives: {
+          defaultSrc: ["'none'"],
+          scriptSrc: ["'self'"],
+          styleSrc: ["'self'"],
+          imgSrc: ["'self'", 'blob:', 'data:'],
+          connectSrc: ["'self'"],
+          fontSrc: ["'self'"],
+          manifestSrc: ["'self'"],
+          baseUri: ["'none'"],
+          formAction: ["'self'"],
+          frameAncestors: ["'none'"],
+          objectSrc: ["'none'"],
+          scriptSrcAttr: ["'none'"],
+        },
+      },
+      // Served over plain HTTP on the local network; HTTPS and HSTS belong to a reverse proxy.
+      strictTransportSecurity: false,
+      xFrameOptions: { action: 'deny' },
+      referrerPolicy: { policy: 'no-referrer' },
+    }),
+  );
 
-  app.get('/api/health', (_req, res) => {
-    const cameras = live().map((c) => ({ camera: c.camera, state: c.state, viewChanged: c.viewChanged, lastFrameAt: c.lastFrameAt ?? null }));
-    res.json({ ok: true, site: siteName, timeZone, startedAt, cameras });
+  const api = express.Router();
+  api.use(healthRoutes(ctx));
+  api.use(liveRoutes(ctx, deps.stream));
+  api.use(historyRoutes(ctx));
+  api.use(exportRoutes(ctx));
+  api.use(cameraRoutes(ctx));
+  api.use(learnRoutes(ctx));
+  api.use(settingsRoutes(ctx));
+  api.use(capacityRoutes(ctx));
+  api.use((_req, _res, next) => next(new HttpError(404, 'no such API route')));
+  app.use('/api', api);
+
+  app.use('/vendor/uplot', express.static(uplotDir(), { index: false, fallthrough: false }));
+  app.use(express.static(WEB_DIR, { index: 'index.html', extensions: ['html'] }));
+  app.use((_req, res) => {
+    res.status(404).type('text/plain').send('not found');
   });
 
-  app.get('/api/live', (_req, res) => {
-    res.json({ time: Date.now(), cameras: live() });
-  });
-
-  app.get('/api/export/hourly.csv', (req, res) => {
-    const from = queryText(req, 'from');
-    const to = queryText(req, 'to');
-    const camera = optionalQueryText(req, 'camera');
-    const zone = optionalQueryText(req, 'zone');
-    let rows;
-    try {
-      rows = hourlyRows(store, { from, to, timeZone, maxHours: 24 * 400, ...(camera && { camera }), ...(zone && { zone }) });
-    } catch (error) {
-      throw new HttpError(400, (error as Error).message);
+  app.use((error: unknown, req: Request, res: Response, _next: NextFunction) => {
+    const e = error as { status?: number; statusCode?: number; type?: string; message?: string };
+    let status = error instanceof HttpError ? error.status : (e.status ?? e.statusCode ?? 500);
+    if (!(status >= 400 && status <= 599)) status = 500;
+    let message = status >= 500 ? 'internal error' : String(e.message ?? 'error');
+    if (e.type === 'entity.too.large') message = 'request body is larger than 256 kB';
+    else if (e.type === 'entity.parse.failed') message = 'request body is not valid JSON';
+    if (error instanceof HttpError) res.set(error.headers);
+    if (status >= 500 && !(error instanceof HttpError)) log(`internal error on ${req.method} ${req.path}: ${(error as Error)?.message ?? String(error)}`);
+    if (res.headersSent) {
+      res.end();
+      return;
     }
-    res.type('text/csv; charset=utf-8');
-    res.attachment(`residuum-hourly-${from}-${to}.csv`);
-    res.send(writeHourlyCsv(rows));
-  });
-
-  app.use('/api', (_req, _res, next) => next(new HttpError(404, 'no such API route')));
-
-  app.use((error: unknown, _req: Request, res: Response, _next: NextFunction) => {
-    const status = error instanceof HttpError ? error.status : (error as { status?: number }).status ?? 500;
-    const message = status >= 500 ? 'internal error' : (error as Error).message;
     res.status(status).json({ error: message });
   });
   return app;
 }
 
-function queryText(req: Request, name: string): string {
-  const v = req.query[name];
-  if (typeof v !== 'string' || v === '') throw new HttpError(400, `query parameter ${name} is required (a date YYYY-MM-DD or an ISO 8601 time)`);
-  if (v.length > 64) throw new HttpError(400, `query parameter ${name} is too long`);
-  return v;
+/** uPlot's dist folder in node_modules, served at /vendor/uplot/. */
+function uplotDir(): string {
+  return dirname(createRequire(import.meta.url).resolve('uplot'));
 }
 
-function optionalQueryText(req: Request, name: string): string | undefined {
-  const v = req.query[name];
-  if (v === undefined) return undefined;
-  if (typeof v !== 'string' || !/^[A-Za-z0-9][A-Za-z0-9_-]{0,63}$/.test(v)) throw new HttpError(400, `query parameter ${name} must be an id (letters, digits, - and _)`);
-  return v;
+const LOOPBACK_NAMES = new Set(['localhost', '127.0.0.1', '[::1]', '::1']);
+
+function isLoopback(host: string): boolean {
+  return LOOPBACK_NAMES.has(host.toLowerCase()) || /^127\.\d{1,3}\.\d{1,3}\.\d{1,3}$/.test(host);
+}
+
+function loopbackHostOnly(req: Request, res: Response, next: NextFunction): void {
+  const header = req.headers.host ?? '';
+  const name = header.startsWith('[') ? header.slice(0, header.indexOf(']') + 1) : header.split(':')[0];
+  if (isLoopback(name) || name.toLowerCase().endsWith('.localhost')) {
+    next();
+    return;
+  }
+  res.status(421).json({ error: 'this server listens on a loopback address and answers only requests for localhost or 127.0.0.1' });
 }

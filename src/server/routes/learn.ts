@@ -1,0 +1,35 @@
+import express, { Router } from 'express';
+import type { ServerContext } from '../context.ts';
+import { HttpError } from '../HttpError.ts';
+import { cameraParam, jsonObject, serviceOf } from '../requestFields.ts';
+import { BODY_LIMIT } from './cameras.ts';
+
+/**
+ * Learning the empty scene from the live source:
+ * - `POST /api/cameras/:id/learn` (admin) `{ "seconds": 30 }`: starts learning from the next
+ *   `seconds` (1..3600) of frames; counting goes on with the old model meanwhile; 202 with the status;
+ * - `GET /api/cameras/:id/learn` (view): the learning status and the current model's figures and
+ *   verdict. Progress also arrives in the live stream (`cameras[].learn`).
+ */
+export function learnRoutes(ctx: ServerContext): Router {
+  const router = Router();
+  router.post('/cameras/:id/learn', ctx.auth.admin, express.json({ limit: BODY_LIMIT }), (req, res) => {
+    const control = serviceOf(ctx);
+    const id = cameraParam(req, control);
+    const body = jsonObject(req);
+    for (const key of Object.keys(body)) if (key !== 'seconds') throw new HttpError(400, `request body: ${key} is not expected (send { "seconds": N })`);
+    const seconds = body.seconds;
+    if (typeof seconds !== 'number' || !Number.isFinite(seconds) || seconds < 1 || seconds > 3600) {
+      throw new HttpError(400, `request body: seconds must be a number from 1 to 3600, got ${JSON.stringify(seconds) ?? 'nothing'}`);
+    }
+    const status = control.learn(id, seconds);
+    ctx.log(`camera ${id}: learning the empty scene for ${seconds} s, started from the dashboard`);
+    res.status(202).json({ camera: id, status });
+  });
+  router.get('/cameras/:id/learn', ctx.auth.view, (req, res) => {
+    const control = serviceOf(ctx);
+    const id = cameraParam(req, control);
+    res.set('Cache-Control', 'no-store').json({ camera: id, status: control.learnStatus(id) ?? null, model: control.modelSummary(id) ?? null });
+  });
+  return router;
+}
