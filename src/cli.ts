@@ -12,7 +12,7 @@ const commands: Record<string, { run: (argv: string[]) => Promise<number>; usage
   run: { run: runCommand, usage: runUsage, summary: 'run the counting service for the configured cameras' },
   evaluate: { run: evaluateCommand, usage: evaluateUsage, summary: 'compare counts and masks with ground truth, optionally against a baseline' },
   export: { run: exportCommand, usage: exportUsage, summary: 'write the hourly CSV of stored counts' },
-  demo: { run: demoCommand, usage: demoUsage, summary: 'count the built-in synthetic reading room live' },
+  demo: { run: demoCommand, usage: demoUsage, summary: 'run the synthetic demo scenario with the dashboard (npm start)' },
 };
 
 const overview = `Residuum counts people per zone of a room, and fill per shelf section, from an ordinary camera,

@@ -3,6 +3,7 @@ import type { Server } from 'node:http';
 import { join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraPipeline, type CameraPipeline } from '../counting/cameraPipeline.ts';
+import { learnInWorker } from '../counting/learnInWorker.ts';
 import { decodeModel, encodeModel, loadModel, modelFormatVersion } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
 import type { CameraSource } from '../frames/live/cameraSource.ts';
@@ -14,8 +15,6 @@ import { prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts'
 import { validateZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
 import { openStore, type Store } from '../store/index.ts';
-import { distinctFrames } from '../vision/distinctFrames.ts';
-import { fitSubspace } from '../vision/fitSubspace.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
 
@@ -99,7 +98,7 @@ export async function startService(config: ResiduumConfig, options: StartService
         store,
         model,
         // Rooms are rarely quite empty: learning from the live view rejects people passing through.
-        learn: (frames, size) => fitSubspace(distinctFrames(frames), size, { robustIterations: 1 }),
+        learn: (frames, size) => learnInWorker(frames, size, { robustIterations: 1 }),
         onModel: (learned) => storeModel(store, camera.id, learned, 'live source'),
         log,
       });
@@ -195,7 +194,7 @@ async function cameraModel(camera: CameraConfig, store: Store, log: (line: strin
     const scene = createScene(camera.source.scene, { width, height, ...(camera.source.seed !== undefined && { seed: camera.source.seed }) });
     const period = 3000;
     const frames = Array.from({ length: 200 }, (_, i) => scene.emptyFrameAt(Math.floor((i * period) / 200)).data);
-    const model = fitSubspace(frames, { width, height });
+    const model = await learnInWorker(frames, { width, height });
     storeModel(store, camera.id, model, `synthetic:${camera.source.scene}:empty`);
     log(`camera ${camera.id}: learned the empty synthetic scene (${model.components} components, ${modelVerdict(model).level})`);
     return model;

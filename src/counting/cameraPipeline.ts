@@ -43,8 +43,8 @@ export interface CameraPipelineOptions {
   readonly model?: Subspace;
   /** Called when the pipeline has learned a model from the live source (to store it). */
   readonly onModel?: (model: Subspace) => void;
-  /** Fits a model from learning frames; injected so the pipeline stays free of learning policy. */
-  readonly learn?: (frames: Float32Array[], size: { width: number; height: number }) => Subspace;
+  /** Fits a model from learning frames (may take the frames over); injected so the pipeline stays free of learning policy. */
+  readonly learn?: (frames: Float32Array[], size: { width: number; height: number }) => Subspace | Promise<Subspace>;
   /** Frame noise scale (median (r/σ)² over its expected value) above which a frame counts as a changed view; default 6. */
   readonly viewChangeScale?: number;
   /** Log lines (never pixels). Default: none. */
@@ -251,30 +251,47 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       emitter.emit('learn', learnState);
       return;
     }
+    fitLearned();
+  }
+
+  function fitLearned(): void {
+    if (!learn) return;
     const frames = learning.splice(0);
     learnedSeen = 0;
     learnStride = 1;
     learnSeconds = undefined;
     learningStart = undefined;
-    try {
-      model = learn(frames, { width, height });
+    learnState = { ...learnState, state: 'learning', progress: 1 };
+    const finish = (learned: Subspace) => {
+      if (state === 'stopped') return;
+      model = learned;
       counter = createCounter(model, zones, { threshold: camera.threshold });
       onModel?.(model);
       learnState = {
         ...learnState,
         state: 'done',
         progress: 1,
-        finishedAt: at,
+        finishedAt: Date.now(),
         components: model.components,
         retainedVariance: model.retainedVariance,
         frames: model.frameCount,
       };
       log(`camera ${camera.id}: learned the empty scene from ${model.frameCount} frames (${model.components} components)`);
-    } catch (error) {
-      learnState = { ...learnState, state: 'failed', finishedAt: at, error: (error as Error).message };
+      emitter.emit('learn', learnState);
+      publish();
+    };
+    const fail = (error: unknown) => {
+      learnState = { ...learnState, state: 'failed', finishedAt: Date.now(), error: (error as Error).message };
       log(`camera ${camera.id}: learning failed (${(error as Error).message})`);
+      emitter.emit('learn', learnState);
+    };
+    try {
+      const result = learn(frames, { width, height });
+      if (result instanceof Promise) result.then(finish, fail);
+      else finish(result);
+    } catch (error) {
+      fail(error);
     }
-    emitter.emit('learn', learnState);
   }
 
   function onStatus(next: SourceState, detail: StatusDetail): void {

@@ -1,0 +1,36 @@
+import { Worker } from 'node:worker_threads';
+import type { FitSubspaceOptions, SubspaceFit } from '../vision/fitSubspace.ts';
+
+/**
+ * Fits the empty-scene subspace (after dropping repeated frames) in a worker thread, so that a
+ * running service keeps counting its other cameras and answering the dashboard meanwhile: a fit
+ * at 320×240 takes seconds. The frames are moved to the worker (the caller's arrays become
+ * unusable); the model comes back the same way.
+ */
+export function learnInWorker(
+  frames: Float32Array[],
+  size: { width: number; height: number },
+  options: FitSubspaceOptions = {},
+): Promise<SubspaceFit> {
+  return new Promise((resolve, reject) => {
+    const worker = new Worker(new URL('./workerBootstrap.mjs', import.meta.url), {
+      workerData: { module: new URL('./learnWorker.ts', import.meta.url).href, frames, size: { width: size.width, height: size.height }, options },
+      transferList: frames.map((f) => f.buffer as ArrayBuffer),
+    });
+    let settled = false;
+    worker.once('message', (message: { model?: SubspaceFit; error?: string }) => {
+      settled = true;
+      void worker.terminate();
+      if (message.model) resolve(message.model);
+      else reject(new Error(message.error ?? 'learning failed'));
+    });
+    worker.once('error', (error) => {
+      if (!settled) reject(error);
+      settled = true;
+    });
+    worker.once('exit', (code) => {
+      if (!settled) reject(new Error(`the learning worker stopped (exit code ${code})`));
+      settled = true;
+    });
+  });
+}
