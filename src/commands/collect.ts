@@ -1,0 +1,98 @@
+import type { Server } from 'node:http';
+import { join, resolve } from 'node:path';
+import { loadCollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
+import { startCollector, type Collector } from '../outputs/mqtt/mqttCollector.ts';
+import { readMqttTls } from '../outputs/mqtt/mqttSettings.ts';
+import { createApp } from '../server/createApp.ts';
+import { prepareTokens, tokenNotice } from '../server/tokens.ts';
+import { openStore } from '../store/index.ts';
+import { numberOption, parseOptions, requireOption } from './args.ts';
+
+export { startCollector, type Collector, type CollectorOptions, type CollectorStats } from '../outputs/mqtt/mqttCollector.ts';
+export { loadCollectorConfig, type CollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
+
+export const collectUsage = `residuum collect --config <file> [--data <folder>] [--port N] [--reset-token]
+
+Collects the samples, states and events that counting services publish over MQTT, from every
+site under the topic prefix, into one database (<data>/residuum.db), and serves the read-only
+dashboard and JSON API over it. Camera door of site riverside is stored as riverside--door.
+  --config  the collector configuration (YAML: site, storage, server, mqtt; no cameras)
+  --data    folder of the database (default ./data)
+  --port    HTTP port (default: server.port of the configuration, else 8080; 0 = any free port)
+  --reset-token  make a new admin key (and view key) and print it once`;
+
+export interface CollectCommandOptions {
+  /** Resolves when the collector should stop; default SIGINT or SIGTERM. */
+  readonly until?: Promise<void>;
+  readonly log?: (line: string) => void;
+  /** Where the one-time key notice goes; default standard output. */
+  readonly out?: { write(text: string): unknown };
+}
+
+function logLine(line: string): void {
+  process.stdout.write(`${new Date().toISOString()} ${line}\n`);
+}
+
+/** `residuum collect`: runs the collector until SIGINT or SIGTERM (or `options.until`). */
+export async function collectCommand(argv: string[], options: CollectCommandOptions = {}): Promise<number> {
+  const { log = logLine, out = process.stdout } = options;
+  const v = parseOptions(argv, { config: { type: 'string' }, data: { type: 'string' }, port: { type: 'string' }, 'reset-token': { type: 'boolean' } });
+  const configFile = requireOption(v.config, 'config', 'the collector configuration file');
+  const portOption = numberOption(v.port, 'port', { min: 0, max: 65535, integer: true });
+  // Validated before the database is opened: a bad file changes nothing.
+  const config = loadCollectorConfig(configFile);
+  readMqttTls(config.mqtt); // unreadable TLS files fail here, before the database is touched
+  const store = openStore(join(resolve(v.data ?? 'data'), 'residuum.db'), { timeZone: config.site.timeZone });
+  let collector: Collector;
+  try {
+    collector = startCollector(config.mqtt, { store, log });
+  } catch (error) {
+    store.close();
+    throw error;
+  }
+  const prune = () => {
+    const { deleted } = store.applyRetention({ sampleDays: config.storage.sampleRetentionDays });
+    if (deleted > 0) log(`retention: deleted ${deleted} samples older than ${config.storage.sampleRetentionDays} days`);
+  };
+  let server: Server | undefined;
+  let retention: NodeJS.Timeout | undefined;
+  try {
+    prune();
+    retention = setInterval(prune, 3_600_000);
+    retention.unref();
+    const app = createApp({
+      store,
+      live: () => collector.live(),
+      siteName: config.site.name,
+      timeZone: config.site.timeZone,
+      startedAt: Date.now(),
+      viewTokenRequired: config.server.viewToken,
+      sampleRetentionDays: config.storage.sampleRetentionDays,
+      host: config.server.host,
+      log,
+    });
+    const port = portOption ?? config.server.port;
+    server = await new Promise<Server>((done, fail) => {
+      const s = app.listen(port, config.server.host, (error?: Error) => (error ? fail(new Error(`server: cannot listen on ${config.server.host}:${port} (${error.message})`)) : done(s)));
+    });
+    const address = server.address();
+    const bound = typeof address === 'object' && address ? address.port : port;
+    log(`collecting from ${new URL(config.mqtt.url).host} under ${config.mqtt.topicPrefix}/; dashboard at http://${config.server.host}:${bound}/`);
+    out.write(tokenNotice(prepareTokens(store, { viewToken: config.server.viewToken, reset: v['reset-token'] === true })));
+    await (options.until ??
+      new Promise<void>((done) => {
+        process.once('SIGINT', () => done());
+        process.once('SIGTERM', () => done());
+      }));
+    log('stopping');
+  } finally {
+    if (retention) clearInterval(retention);
+    await collector.stop();
+    if (server) {
+      server.closeAllConnections();
+      await new Promise<void>((done) => server!.close(() => done()));
+    }
+    store.close();
+  }
+  return 0;
+}

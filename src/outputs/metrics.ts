@@ -1,0 +1,196 @@
+import { collectDefaultMetrics, Counter, Gauge, Histogram, Registry } from 'prom-client';
+import type { CameraLive } from '../counting/cameraPipeline.ts';
+import type { MqttPublisherStats } from './mqtt/mqttPublisher.ts';
+
+/**
+ * Prometheus metrics of the counting service, with prom-client, in the text exposition format
+ * (https://prometheus.io/docs/instrumenting/exposition_formats/, "Text-based format"; served with
+ * `contentType`, `text/plain; version=0.0.4; charset=utf-8`).
+ *
+ * | metric | type | labels | meaning |
+ * | --- | --- | --- | --- |
+ * | `residuum_zone_count` | gauge | camera, zone | smoothed people (rooms) or items (shelves) |
+ * | `residuum_zone_fill` | gauge | camera, zone | smoothed share of the zone covered, 0..1 |
+ * | `residuum_zone_capacity` | gauge | camera, zone | configured capacity (zones with one) |
+ * | `residuum_camera_up` | gauge | camera | 1 while the camera delivers frames and counts, else 0 |
+ * | `residuum_camera_view_changed` | gauge | camera | 1 while the view does not match the learned scene |
+ * | `residuum_frames_processed_total` | counter | camera | frames counted |
+ * | `residuum_camera_fps` | gauge | camera | frames counted per second over the last `fpsWindowSeconds` (at scrape time) |
+ * | `residuum_last_frame_age_seconds` | gauge | camera | now − capture time of the last counted frame (at scrape time; cameras that counted a frame) |
+ * | `residuum_source_errors_total` | counter | camera | bad frames and lost connections of the source |
+ * | `residuum_stage_seconds` | histogram | stage | processing time per stage |
+ * | `residuum_mqtt_connected`, `residuum_mqtt_queued_samples`, `residuum_mqtt_samples_published_total`, `residuum_mqtt_samples_dropped_total` | | | with the `mqtt` option |
+ *
+ * Per-zone series disappear when the zone is no longer in the camera's live view. No label ever
+ * carries anything but camera, zone and stage ids (letters, digits, `-`, `_`).
+ */
+
+export interface MetricsOptions {
+  /** Also export prom-client's default process metrics (CPU, memory, event loop, GC); default true. */
+  readonly processMetrics?: boolean;
+  /** Clock for frame ages and rates, epoch ms; default Date.now. */
+  readonly clock?: () => number;
+  /** Window of `residuum_camera_fps`, seconds, > 0 and ≤ 3600; default 10. */
+  readonly fpsWindowSeconds?: number;
+  /** Upper bounds of the stage histogram's buckets, seconds, increasing; default 0.5 ms … 2.5 s. */
+  readonly stageBuckets?: readonly number[];
+  /** The MQTT publisher's figures, read at scrape time; default none (no mqtt metrics). */
+  readonly mqtt?: () => MqttPublisherStats;
+}
+
+export interface Metrics {
+  readonly registry: Registry;
+  /** Content-Type of `render()`'s text. */
+  readonly contentType: string;
+  /** Call on every pipeline 'live' event: updates the zone and camera gauges, counts a frame when `lastFrameAt` moved on. */
+  observeLive(live: CameraLive): void;
+  /** Adds one measurement of `stage` (a lower-case id: letters, digits, `_`; ≤ 32) in seconds (≥ 0). */
+  observeStage(stage: string, seconds: number): void;
+  /** Counts `n` (default 1) source errors of `camera`: a bad frame, a failed connection. */
+  sourceError(camera: string, n?: number): void;
+  /** The text exposition of every metric. */
+  render(): Promise<string>;
+}
+
+/** Default stage buckets, seconds: a frame's stages take from well under a millisecond to a few hundred. */
+export const STAGE_BUCKETS = [0.0005, 0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5] as const;
+
+const STAGE_PATTERN = /^[a-z][a-z0-9_]{0,31}$/;
+
+interface CameraTrack {
+  lastFrameAt?: number;
+  /** Clock times of frames counted within the fps window, oldest first. */
+  arrivals: number[];
+  zones: Set<string>;
+}
+
+/** A fresh registry with Residuum's metrics (one per service; tests make their own). */
+export function createMetrics(options: MetricsOptions = {}): Metrics {
+  const { processMetrics = true, clock = Date.now, fpsWindowSeconds = 10, stageBuckets = STAGE_BUCKETS, mqtt } = options;
+  if (!(fpsWindowSeconds > 0 && fpsWindowSeconds <= 3600)) throw new RangeError(`fpsWindowSeconds: expected a number in (0, 3600], got ${String(fpsWindowSeconds)}`);
+  if (!(stageBuckets.length > 0 && stageBuckets.every((b, i) => Number.isFinite(b) && b > 0 && (i === 0 || b > stageBuckets[i - 1])))) {
+    throw new RangeError(`stageBuckets: expected increasing positive numbers of seconds, got ${JSON.stringify(stageBuckets)}`);
+  }
+  const windowMs = fpsWindowSeconds * 1000;
+  const registry = new Registry();
+  const registers = [registry];
+  const cameras = new Map<string, CameraTrack>();
+
+  const prune = (track: CameraTrack, now: number) => {
+    let drop = 0;
+    while (drop < track.arrivals.length && track.arrivals[drop] <= now - windowMs) drop++;
+    if (drop > 0) track.arrivals.splice(0, drop);
+  };
+
+  const zoneCount = new Gauge({ name: 'residuum_zone_count', help: 'Smoothed people (room zones) or items (shelf zones) in the zone.', labelNames: ['camera', 'zone'] as const, registers });
+  const zoneFill = new Gauge({ name: 'residuum_zone_fill', help: 'Smoothed share of the zone covered by foreground, 0..1.', labelNames: ['camera', 'zone'] as const, registers });
+  const zoneCapacity = new Gauge({ name: 'residuum_zone_capacity', help: 'Configured capacity of the zone (people for rooms).', labelNames: ['camera', 'zone'] as const, registers });
+  const cameraUp = new Gauge({ name: 'residuum_camera_up', help: 'Whether the camera delivers frames and counts (1) or not (0: connecting, offline, learning, stopped).', labelNames: ['camera'] as const, registers });
+  const viewChanged = new Gauge({ name: 'residuum_camera_view_changed', help: 'Whether the view no longer matches the learned empty scene (1) or does (0).', labelNames: ['camera'] as const, registers });
+  const frames = new Counter({ name: 'residuum_frames_processed_total', help: 'Frames counted.', labelNames: ['camera'] as const, registers });
+  const sourceErrors = new Counter({ name: 'residuum_source_errors_total', help: 'Bad frames and failed connections of the camera source.', labelNames: ['camera'] as const, registers });
+  const stages = new Histogram({ name: 'residuum_stage_seconds', help: 'Processing time per stage, seconds.', labelNames: ['stage'] as const, buckets: [...stageBuckets], registers });
+  new Gauge({
+    name: 'residuum_camera_fps',
+    help: `Frames counted per second, over the last ${fpsWindowSeconds} s.`,
+    labelNames: ['camera'] as const,
+    registers,
+    collect() {
+      const now = clock();
+      for (const [camera, track] of cameras) {
+        prune(track, now);
+        this.set({ camera }, track.arrivals.length / fpsWindowSeconds);
+      }
+    },
+  });
+  new Gauge({
+    name: 'residuum_last_frame_age_seconds',
+    help: 'Seconds since the capture of the last counted frame.',
+    labelNames: ['camera'] as const,
+    registers,
+    collect() {
+      const now = clock();
+      for (const [camera, track] of cameras) if (track.lastFrameAt !== undefined) this.set({ camera }, Math.max(0, (now - track.lastFrameAt) / 1000));
+    },
+  });
+  if (mqtt) {
+    let published = 0;
+    let dropped = 0;
+    new Gauge({ name: 'residuum_mqtt_connected', help: 'Whether the MQTT publisher is connected to the broker (1) or not (0).', registers, collect() { this.set(mqtt().connected ? 1 : 0); } });
+    new Gauge({ name: 'residuum_mqtt_queued_samples', help: 'Samples waiting in memory for the MQTT broker.', registers, collect() { this.set(mqtt().queuedSamples); } });
+    new Counter({
+      name: 'residuum_mqtt_samples_published_total',
+      help: 'Samples the MQTT broker acknowledged.',
+      registers,
+      collect() {
+        const now = mqtt().samplesPublished;
+        if (now > published) this.inc(now - published);
+        published = Math.max(published, now);
+      },
+    });
+    new Counter({
+      name: 'residuum_mqtt_samples_dropped_total',
+      help: 'Samples dropped from the full MQTT queue (they stay in the database).',
+      registers,
+      collect() {
+        const now = mqtt().samplesDropped;
+        if (now > dropped) this.inc(now - dropped);
+        dropped = Math.max(dropped, now);
+      },
+    });
+  }
+  if (processMetrics) collectDefaultMetrics({ register: registry });
+
+  return {
+    registry,
+    contentType: registry.contentType,
+    observeLive(live) {
+      const { camera } = live;
+      let track = cameras.get(camera);
+      if (track === undefined) {
+        track = { arrivals: [], zones: new Set<string>() };
+        cameras.set(camera, track);
+        // Counters start at 0 on first sight, so that rate() has a starting point (Prometheus
+        // instrumentation practice: avoid missing metrics).
+        frames.inc({ camera }, 0);
+        sourceErrors.inc({ camera }, 0);
+      }
+      if (live.lastFrameAt !== undefined && live.lastFrameAt !== track.lastFrameAt) {
+        track.lastFrameAt = live.lastFrameAt;
+        frames.inc({ camera });
+        const now = clock();
+        track.arrivals.push(now);
+        prune(track, now);
+      }
+      cameraUp.set({ camera }, live.state === 'online' ? 1 : 0);
+      viewChanged.set({ camera }, live.viewChanged ? 1 : 0);
+      const zones = new Set<string>();
+      for (const z of live.zones) {
+        zones.add(z.id);
+        const labels = { camera, zone: z.id };
+        zoneCount.set(labels, z.count);
+        zoneFill.set(labels, z.fill);
+        if (z.capacity !== undefined) zoneCapacity.set(labels, z.capacity);
+        else zoneCapacity.remove(labels);
+      }
+      for (const old of track.zones) {
+        if (zones.has(old)) continue;
+        const labels = { camera, zone: old };
+        zoneCount.remove(labels);
+        zoneFill.remove(labels);
+        zoneCapacity.remove(labels);
+      }
+      track.zones = zones;
+    },
+    observeStage(stage, seconds) {
+      if (typeof stage !== 'string' || !STAGE_PATTERN.test(stage)) throw new RangeError(`stage: expected a lower-case id (letters, digits, "_"; ≤ 32), got ${JSON.stringify(stage)}`);
+      if (typeof seconds !== 'number' || !Number.isFinite(seconds) || seconds < 0) throw new RangeError(`seconds: expected a finite number ≥ 0, got ${String(seconds)}`);
+      stages.observe({ stage }, seconds);
+    },
+    sourceError(camera, n = 1) {
+      if (!(Number.isInteger(n) && n >= 1)) throw new RangeError(`n: expected a whole number ≥ 1, got ${String(n)}`);
+      sourceErrors.inc({ camera }, n);
+    },
+    render: () => registry.metrics(),
+  };
+}

@@ -1,0 +1,316 @@
+import { hostname } from 'node:os';
+import type { CameraLive, ZoneLive } from '../../counting/cameraPipeline.ts';
+import type { Zone, ZoneKind } from '../../counting/zone.ts';
+import type { BackoffOptions } from '../../frames/live/backoff.ts';
+import { EventType, MAX_INTERVAL_MS, type Sample, type StoredSample, type Store } from '../../store/index.ts';
+import { checkEpochMs, checkId, checkOneOf } from '../../store/validate.ts';
+import { connectMqtt, type MqttConnection } from './connectMqtt.ts';
+import type { MqttQos, MqttSettings } from './mqttSettings.ts';
+import { parseSampleMessage, type SampleMessage } from './sampleMessage.ts';
+import { collectorCameraId, collectorFilters, parseTopic, SITE_ID_PATTERN, topicSegment } from './topics.ts';
+import { ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
+
+/**
+ * The collector: subscribes to the samples, states and events of every site under the topic
+ * prefix and keeps them in one Residuum database, so that `residuum export` and the dashboard
+ * work on many sites at once.
+ *
+ * Camera ids: camera `door` of site `riverside` is stored as `riverside--door` (collectorCameraId
+ * in topics.ts: site ids never contain `--`; over-long pairs are shortened with a hash), named
+ * `door (riverside)`. Zones keep their ids. The collector does not know a zone's polygon: it
+ * stores the whole frame as the polygon, the kind from the sample (count → room, fill → shelf),
+ * the creation time sent with the sample (else the start of its first sample), and the name and
+ * capacity from the zone's state messages.
+ *
+ * Exactly the publisher's samples: QoS ≥ 1 may deliver a sample twice, a reconnect or a refill
+ * from the publisher's database may send it again, and messages may come out of order. The
+ * store refuses a sample whose interval overlaps a stored one; before inserting, the collector
+ * looks for a stored sample of the zone with the same `time`: the same interval, value, kind and
+ * quality is a duplicate (ignored, counted), anything else a conflict (refused, counted, logged).
+ * An older sample that overlaps nothing is simply inserted: order does not matter, and the
+ * rollups (exact integer sums) come out the same in any order.
+ *
+ * Session: the collector connects with a fixed client id and clean session off (MQTT 3.1.1
+ * §3.1.2.4), so the broker keeps its subscriptions and queues QoS 1 and 2 messages while it is
+ * away; it subscribes again on every connection in case the broker lost the session.
+ */
+
+export interface CollectorOptions {
+  readonly store: Store;
+  /** Log lines. Default: none. */
+  readonly log?: (line: string) => void;
+  /** Reconnection delays; default 1 s doubling to 60 s with full jitter. */
+  readonly backoff?: BackoffOptions;
+}
+
+export interface CollectorStats {
+  readonly connected: boolean;
+  /** Whether the broker granted every subscription on the current connection. */
+  readonly subscribed: boolean;
+  /** Samples inserted into the store. */
+  readonly samplesStored: number;
+  /** Samples that were already stored, identical: ignored. */
+  readonly duplicates: number;
+  /** Samples refused because a different sample covers (part of) their interval. */
+  readonly conflicts: number;
+  /** Messages that could not be read or stored (malformed, wrong kind for the zone, …). */
+  readonly rejected: number;
+  readonly eventsStored: number;
+  readonly eventDuplicates: number;
+  /** State messages received. */
+  readonly states: number;
+}
+
+export interface Collector {
+  readonly connected: boolean;
+  /** Cameras as their last state messages describe them (ids as stored: `site--camera`). */
+  live(): CameraLive[];
+  stats(): CollectorStats;
+  /** Unsubscribes nothing (the session keeps queuing for the next start) and disconnects. */
+  stop(): Promise<void>;
+}
+
+/** The polygon stored for a collected zone, whose real shape only the counting site knows: the whole frame. */
+export const WHOLE_FRAME: Zone['polygon'] = [
+  [0, 0],
+  [1, 0],
+  [1, 1],
+  [0, 1],
+];
+
+interface CollectedCamera {
+  site: string;
+  name: string;
+  readonly zones: Map<string, ZoneStateMessage>;
+}
+
+/** Connects, subscribes and stores what arrives until `stop()`. */
+export function startCollector(settings: MqttSettings, options: CollectorOptions): Collector {
+  const { store, log = () => {}, backoff } = options;
+  const prefix = settings.topicPrefix;
+  const filters = collectorFilters(prefix);
+  const sampleQos: MqttQos = settings.qos === 0 ? 1 : settings.qos;
+  const known = new Set<string>();
+  const cameras = new Map<string, CollectedCamera>();
+  const offlineSites = new Set<string>();
+  const count = { samplesStored: 0, duplicates: 0, conflicts: 0, rejected: 0, eventsStored: 0, eventDuplicates: 0, states: 0 };
+  const complaints = new Map<string, number>();
+  let subscribed = false;
+
+  /** Logs the 1st–5th, 10th, 100th, … complaint of a kind, so a flood of bad messages does not flood the log. */
+  function complain(kind: string, line: string): void {
+    const n = (complaints.get(kind) ?? 0) + 1;
+    complaints.set(kind, n);
+    if (n <= 5 || Number.isInteger(Math.log10(n))) log(`collect: ${line}${n > 5 ? ` (${n} so far)` : ''}`);
+  }
+
+  const connection: MqttConnection = connectMqtt(settings, {
+    clientId: settings.clientId ?? `residuum-collector-${topicSegment(hostname())}`.slice(0, 64),
+    clean: false,
+    ...(backoff && { backoff }),
+    log,
+    onClose() {
+      subscribed = false;
+    },
+    onConnect() {
+      subscribed = false;
+      client.subscribe(
+        { [filters.samples]: { qos: sampleQos }, [filters.state]: { qos: settings.qos }, [filters.events]: { qos: settings.qos }, [filters.status]: { qos: settings.qos } },
+        (error, granted) => {
+          if (error) log(`collect: could not subscribe (${error.message})`);
+          for (const g of granted ?? []) if (g.qos === 128) log(`collect: the broker refused the subscription to ${g.topic}`);
+          subscribed = !error && (granted ?? []).every((g) => g.qos !== 128);
+        },
+      );
+    },
+  });
+  const client = connection.client;
+
+  client.on('message', (topic, payload) => {
+    const parsed = parseTopic(prefix, topic);
+    if (parsed === undefined) return;
+    try {
+      if (!SITE_ID_PATTERN.test(parsed.site)) throw new RangeError(`topic: "${parsed.site}" is not a site id`);
+      switch (parsed.kind) {
+        case 'samples':
+          onSample(parseSampleMessage(parsed, payload));
+          break;
+        case 'state':
+          onState(parsed.site, parsed.camera, parsed.zone, payload);
+          break;
+        case 'events':
+          onEvent(parsed.site, parsed.camera, payload);
+          break;
+        case 'status':
+          onStatus(parsed.site, payload);
+          break;
+      }
+    } catch (error) {
+      count.rejected++;
+      complain('rejected', `refused a message on ${topic}: ${(error as Error).message}`);
+    }
+  });
+
+  function ensureCamera(site: string, camera: string, time: number): string {
+    const id = collectorCameraId(site, camera);
+    if (!known.has(id)) {
+      if (store.getCamera(id) === undefined) store.upsertCamera({ id, name: cameras.get(id)?.name ?? `${camera} (${site})` }, { time });
+      known.add(id);
+    }
+    return id;
+  }
+
+  function ensureZone(site: string, camera: string, zone: string, kind: ZoneKind, time: number): string {
+    const id = ensureCamera(site, camera, time);
+    const key = `${id}/${zone}`;
+    if (known.has(key)) return id;
+    const record = store.getZone(id, zone);
+    if (record === undefined) {
+      const state = cameras.get(id)?.zones.get(zone);
+      store.upsertZone(id, { id: zone, kind, polygon: WHOLE_FRAME, ...zoneDetails(state) }, { time });
+    } else if (record.zone.kind !== kind) {
+      throw new RangeError(`zone ${key} is stored as a ${record.zone.kind} zone and cannot take samples of a ${kind} zone`);
+    } else if (record.removed !== null) {
+      store.upsertZone(id, record.zone);
+    }
+    known.add(key);
+    return id;
+  }
+
+  function zoneDetails(state: ZoneStateMessage | undefined): Partial<Zone> {
+    if (state === undefined) return {};
+    const name = typeof state.zoneName === 'string' && state.zoneName.length >= 1 && state.zoneName.length <= 200 ? state.zoneName : undefined;
+    const capacity = Number.isInteger(state.capacity) && (state.capacity as number) >= 0 && (state.capacity as number) <= 1_000_000 ? state.capacity : undefined;
+    return { ...(name !== undefined && name !== state.zone && { name }), ...(capacity !== undefined && { capacity }) };
+  }
+
+  function onSample(m: SampleMessage): void {
+    const camera = ensureZone(m.site, m.camera, m.zone, m.zoneKind, m.zoneCreated ?? m.time - m.intervalMs);
+    const sample: Sample = { time: m.time, camera, zone: m.zone, value: m.value, kind: m.kind, intervalMs: m.intervalMs, quality: m.quality };
+    const clash = overlapping(sample);
+    if (clash !== undefined) {
+      if (clash.time === sample.time && clash.intervalMs === sample.intervalMs && clash.value === sample.value && clash.kind === sample.kind && clash.quality === sample.quality) {
+        count.duplicates++;
+        return;
+      }
+      count.conflicts++;
+      complain('conflict', `sample ${m.site}/${m.id} (value ${m.value} over ${m.intervalMs} ms) conflicts with the stored one ending ${new Date(clash.time).toISOString()} (value ${clash.value} over ${clash.intervalMs} ms); kept the stored one`);
+      return;
+    }
+    store.insertSample(sample);
+    count.samplesStored++;
+  }
+
+  /** A stored sample of the zone whose interval overlaps the sample's (the one with the same end first), if any. */
+  function overlapping(s: Sample): StoredSample | undefined {
+    const start = s.time - s.intervalMs;
+    // A stored [t − i, t) overlaps [start, s.time) iff t > start and t − i < s.time; i ≤ MAX_INTERVAL_MS bounds t.
+    const near = store.listSamples({ camera: s.camera, zone: s.zone, from: start + 1, to: s.time + MAX_INTERVAL_MS });
+    return near.find((x) => x.time === s.time) ?? near.find((x) => x.time - x.intervalMs < s.time);
+  }
+
+  function onState(site: string, camera: string, zone: string, payload: Uint8Array): void {
+    const id = collectorCameraId(site, checkId(camera, 'topic camera'));
+    checkId(zone, 'topic zone');
+    const entry = cameras.get(id) ?? { site, name: `${camera} (${site})`, zones: new Map<string, ZoneStateMessage>() };
+    cameras.set(id, entry);
+    if (payload.length === 0) {
+      entry.zones.delete(zone);
+      return;
+    }
+    const m = readJson(payload) as Partial<ZoneStateMessage>;
+    if (m.camera !== camera || m.zone !== zone) throw new RangeError(`message: camera/zone ${String(m.camera)}/${String(m.zone)} is not the topic's ${camera}/${zone}`);
+    checkOneOf(m.state, 'message.state', ZoneStateName);
+    if (m.kind !== 'room' && m.kind !== 'shelf') throw new RangeError(`message.kind: expected 'room' or 'shelf', got ${JSON.stringify(m.kind)}`);
+    count.states++;
+    const state = m as ZoneStateMessage;
+    entry.zones.set(zone, state);
+    if (typeof state.cameraName === 'string' && state.cameraName.length > 0 && state.cameraName.length <= 180) {
+      const name = `${state.cameraName} (${site})`;
+      if (name !== entry.name) {
+        entry.name = name;
+        if (store.getCamera(id) !== undefined) store.upsertCamera({ id, name });
+      }
+    }
+    const record = store.getZone(id, zone);
+    if (record !== undefined && record.zone.kind === state.kind) {
+      const { name: _oldName, capacity: _oldCapacity, ...rest } = record.zone;
+      const next: Zone = { ...rest, ...zoneDetails(state) };
+      if (next.name !== record.zone.name || next.capacity !== record.zone.capacity) store.upsertZone(id, next);
+    }
+  }
+
+  function onEvent(site: string, camera: string, payload: Uint8Array): void {
+    const m = readJson(payload) as Record<string, unknown>;
+    if (m.site !== site || m.camera !== camera) throw new RangeError(`message: site/camera ${String(m.site)}/${String(m.camera)} is not the topic's ${site}/${camera}`);
+    const time = checkEpochMs(m.time, 'message.time');
+    const type = checkOneOf(m.type, 'message.type', EventType);
+    const zone = m.zone == null ? null : checkId(m.zone, 'message.zone');
+    const id = ensureCamera(site, checkId(camera, 'message.camera'), time);
+    // An event of a zone not stored yet (no sample of it arrived) is kept on the camera: { zone, detail }.
+    const zoneKnown = zone !== null && store.getZone(id, zone) !== undefined;
+    const detail = zone !== null && !zoneKnown ? { zone, detail: m.detail ?? {} } : (m.detail ?? {});
+    const storedZone = zoneKnown ? zone : null;
+    const text = JSON.stringify(detail);
+    if (store.listEvents({ from: time, to: time + 1, camera: id, type }).some((e) => e.zone === storedZone && JSON.stringify(e.detail) === text)) {
+      count.eventDuplicates++;
+      return;
+    }
+    store.insertEvent({ time, camera: id, zone: storedZone, type, detail });
+    count.eventsStored++;
+  }
+
+  function onStatus(site: string, payload: Uint8Array): void {
+    if (payload.length === 0) return;
+    const m = readJson(payload) as { state?: unknown };
+    if (m.state === 'offline') offlineSites.add(site);
+    else if (m.state === 'online') offlineSites.delete(site);
+  }
+
+  return {
+    get connected() {
+      return connection.connected;
+    },
+    live() {
+      return [...cameras.entries()]
+        .filter(([, c]) => c.zones.size > 0)
+        .sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0))
+        .map(([id, c]): CameraLive => {
+          const states = [...c.zones.values()];
+          const learning = states.some((s) => s.state === ZoneStateName.learning);
+          const offline = offlineSites.has(c.site) || states.every((s) => s.state === ZoneStateName.offline);
+          return {
+            camera: id,
+            name: c.name,
+            state: offline ? 'offline' : learning ? 'learning' : 'online',
+            viewChanged: states.some((s) => s.state === ZoneStateName.viewChanged),
+            zones: states.map(
+              (s): ZoneLive => ({
+                id: s.zone,
+                name: typeof s.zoneName === 'string' ? s.zoneName : s.zone,
+                kind: s.kind,
+                count: typeof s.count === 'number' ? s.count : 0,
+                fill: typeof s.fill === 'number' ? s.fill : 0,
+                ...(typeof s.capacity === 'number' && { capacity: s.capacity }),
+              }),
+            ),
+          };
+        });
+    },
+    stats() {
+      return { connected: connection.connected, subscribed, ...count };
+    },
+    stop: () => connection.stop(),
+  };
+}
+
+function readJson(payload: Uint8Array): unknown {
+  let body: unknown;
+  try {
+    body = JSON.parse(Buffer.from(payload).toString('utf8'));
+  } catch (error) {
+    throw new TypeError(`message: not JSON (${(error as Error).message})`);
+  }
+  if (typeof body !== 'object' || body === null || Array.isArray(body)) throw new TypeError('message: expected a JSON object');
+  return body;
+}

@@ -1,0 +1,47 @@
+import type { Store } from '../../store/index.ts';
+import type { MqttPublisher } from './mqttPublisher.ts';
+
+/**
+ * The store as the camera pipeline should see it when MQTT is configured: every method is the
+ * store's own, except that `insertSample`, `insertSamples` and `insertEvent` hand what they
+ * committed to the publisher afterwards. A write that throws publishes nothing, so MQTT never
+ * carries a sample or event the database does not have; a publisher that throws (it should not)
+ * is logged and does not fail the write, which has already been committed.
+ *
+ * ```ts
+ * const pipeline = createCameraPipeline({ camera, store: publishingStore(store, publisher), … });
+ * ```
+ */
+export function publishingStore(store: Store, publisher: Pick<MqttPublisher, 'publishSample' | 'publishEvent'>, log: (line: string) => void = () => {}): Store {
+  const quietly = (what: string, publish: () => void) => {
+    try {
+      publish();
+    } catch (error) {
+      log(`mqtt: could not queue ${what} (${(error as Error).message})`);
+    }
+  };
+  const wrapped: Partial<Store> = {
+    insertSample(sample) {
+      store.insertSample(sample);
+      quietly('a sample', () => publisher.publishSample(sample));
+    },
+    insertSamples(samples) {
+      const n = store.insertSamples(samples);
+      quietly('samples', () => {
+        for (const s of samples) publisher.publishSample(s);
+      });
+      return n;
+    },
+    insertEvent(event) {
+      const id = store.insertEvent(event);
+      quietly('an event', () => publisher.publishEvent(event));
+      return id;
+    },
+  };
+  return new Proxy(store, {
+    get(target, key) {
+      if (typeof key === 'string' && Object.hasOwn(wrapped, key)) return wrapped[key as keyof Store];
+      return Reflect.get(target, key);
+    },
+  });
+}

@@ -1,0 +1,71 @@
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterEach, describe, expect, it } from 'vitest';
+import { collectCommand } from '../../../src/commands/collect.ts';
+import { createMqttPublisher } from '../../../src/outputs/mqtt/mqttPublisher.ts';
+import { validateMqttSettings } from '../../../src/outputs/mqtt/mqttSettings.ts';
+import { openStore } from '../../../src/store/index.ts';
+import { waitUntil } from '../../service/waitUntil.ts';
+import { startBroker, type TestBroker } from './broker.ts';
+import { FAST } from './fixtures.ts';
+
+let broker: TestBroker | undefined;
+let dir: string | undefined;
+afterEach(async () => {
+  await broker?.close();
+  if (dir) rmSync(dir, { recursive: true, force: true });
+  broker = undefined;
+  dir = undefined;
+});
+
+describe('residuum collect', () => {
+  it('collects published samples into <data>/residuum.db and serves the collected cameras', async () => {
+    broker = await startBroker();
+    dir = mkdtempSync(join(tmpdir(), 'residuum-collect-'));
+    const config = join(dir, 'collect.yaml');
+    writeFileSync(config, `site: { name: Head office, timeZone: Europe/Berlin }\nserver: { host: 127.0.0.1, port: 0 }\nmqtt: { url: "${broker.url}", clientId: collect-test }\n`);
+    const lines: string[] = [];
+    let notice = '';
+    let stop!: () => void;
+    const until = new Promise<void>((done) => (stop = done));
+    const exit = collectCommand(['--config', config, '--data', join(dir, 'data')], { until, log: (l) => lines.push(l), out: { write: (t: string) => (notice += t) } });
+    const url = await waitUntil(() => lines.map((l) => /dashboard at (http:\/\/\S+)/.exec(l)?.[1]).find(Boolean), { what: 'the dashboard line', timeoutMs: 30_000, intervalMs: 20 });
+    await waitUntil(() => lines.some((l) => l.startsWith('mqtt: connected')), { what: 'the collector to connect', timeoutMs: 30_000, intervalMs: 20 });
+    expect(notice).toMatch(/Admin key \(shown only now/);
+
+    const publisher = createMqttPublisher(validateMqttSettings({ url: broker.url, stateIntervalSeconds: 0 }), { site: 'riverside', backoff: FAST });
+    await waitUntil(() => publisher.stats().connected, { what: 'the publisher to connect', timeoutMs: 30_000, intervalMs: 20 });
+    const time = Date.UTC(2026, 2, 2, 9, 0);
+    // Retained, so it reaches the collector even if its subscription is not in place yet.
+    publisher.publishLive({ camera: 'door', name: 'Front door', state: 'online', viewChanged: false, zones: [{ id: 'entrance', name: 'Entrance', kind: 'room', count: 2, fill: 0.02 }] });
+    const health = await waitUntil(
+      async () => {
+        const body = (await (await fetch(`${url}api/health`)).json()) as { cameras: { camera: string; state: string }[] };
+        return body.cameras.length > 0 ? body : undefined;
+      },
+      { what: 'the collected camera in /api/health', timeoutMs: 30_000, intervalMs: 50 },
+    );
+    expect(health.cameras).toEqual([expect.objectContaining({ camera: 'riverside--door', state: 'online' })]);
+    publisher.publishSample({ time, camera: 'door', zone: 'entrance', kind: 'count', value: 2, intervalMs: 10_000 });
+    const reader = openStore(join(dir, 'data', 'residuum.db'));
+    try {
+      await waitUntil(() => reader.listSamples({ camera: 'riverside--door', zone: 'entrance' }).length === 1, { what: 'the sample in the database', timeoutMs: 30_000, intervalMs: 20 });
+      expect(reader.listSamples({ camera: 'riverside--door', zone: 'entrance' })).toEqual([{ time, camera: 'riverside--door', zone: 'entrance', kind: 'count', value: 2, intervalMs: 10_000, quality: 0 }]);
+      expect(reader.getCamera('riverside--door')?.name).toBe('Front door (riverside)');
+    } finally {
+      reader.close();
+    }
+    await publisher.stop();
+    stop();
+    expect(await exit).toBe(0);
+  });
+
+  it('refuses a bad configuration before opening the database', async () => {
+    dir = mkdtempSync(join(tmpdir(), 'residuum-collect-'));
+    const config = join(dir, 'collect.yaml');
+    writeFileSync(config, 'mqtt: { url: "mqtt://127.0.0.1:1", topicPrefix: "a/#" }\n');
+    await expect(collectCommand(['--config', config, '--data', join(dir, 'data')], { until: Promise.resolve() })).rejects.toThrow(/collect\.yaml: mqtt\.topicPrefix must not contain/);
+    await expect(collectCommand(['--data', dir])).rejects.toThrow(/--config is required/);
+  });
+});

@@ -1,0 +1,159 @@
+import { afterEach, describe, expect, it } from 'vitest';
+import { publishingStore } from '../../../src/outputs/mqtt/publishingStore.ts';
+import type { Sample } from '../../../src/store/index.ts';
+import { mulberry } from '../../helpers/random.ts';
+import { waitUntil } from '../../service/waitUntil.ts';
+import type { TempStore } from '../../store/tempStore.ts';
+import { dayCsv, inventedBatches, samplesOf, SITE, sourceStore, startRig, ZONES, type Rig } from './fixtures.ts';
+
+/**
+ * Publisher → aedes (an independent MQTT 3.1.1 broker, in process on 127.0.0.1) → collector: the
+ * collector's database must end up with exactly the source database's samples, whatever the
+ * broker did in between.
+ */
+
+let rig: Rig | undefined;
+let source: TempStore | undefined;
+afterEach(async () => {
+  await rig?.close();
+  source?.cleanup();
+  rig = undefined;
+  source = undefined;
+});
+
+const wait = { timeoutMs: 60_000, intervalMs: 25 };
+
+// check: the source database itself is the reference; the messages travel through aedes, an
+// independent MQTT broker, with its own QoS 1 and persistent-session handling.
+function expectSameSamples(): void {
+  for (const [camera, zone] of ZONES) {
+    const expected = samplesOf(source!.store, camera, zone);
+    expect(expected.length).toBeGreaterThan(100);
+    expect(samplesOf(rig!.target.store, `${SITE}--${camera}`, zone, camera)).toEqual(expected);
+  }
+}
+
+function expectSameCsv(): void {
+  const csv = dayCsv(source!.store);
+  // The zones exist from 07:00 local: 17 hours × 3 zones plus the header. 07:00 local (before the
+  // first sample) and 11:00 local (the outage) have no data (coverage 0, empty values), yet a row,
+  // in both databases: the zones' creation time travels with the samples.
+  expect(csv.split('\r\n').length).toBe(1 + 17 * 3 + 1);
+  expect(csv).not.toContain('2026-03-02T06:00:00+01:00');
+  expect(csv).toContain('2026-03-02T07:00:00+01:00,door,entrance,,,,,0,0\r\n');
+  expect(csv).toContain('2026-03-02T11:00:00+01:00,door,entrance,,,,,0,0\r\n');
+  expect(csv).toMatch(/2026-03-02T09:00:00\+01:00,door,entrance,\d+(\.\d+)?,/);
+  expect(dayCsv(rig!.target.store).replaceAll(`,${SITE}--`, ',')).toBe(csv);
+}
+
+function shuffled<T>(items: readonly T[], seed: number): T[] {
+  // Fisher–Yates with a seeded generator.
+  const out = [...items];
+  const random = mulberry(seed);
+  for (let i = out.length - 1; i > 0; i--) {
+    const j = Math.floor(random() * (i + 1));
+    [out[i], out[j]] = [out[j], out[i]];
+  }
+  return out;
+}
+
+describe('publisher → broker → collector', () => {
+  it('stores exactly the source samples and events; rollups and hourly CSV come out equal', async () => {
+    source = sourceStore();
+    rig = await startRig({ publisher: { store: source.store } });
+    const { publisher, collector, target } = rig;
+    const store = publishingStore(source.store, publisher);
+    const batches = inventedBatches();
+    for (const batch of batches) store.insertSamples(batch);
+    const n = batches.length * ZONES.length;
+    await waitUntil(() => collector.stats().samplesStored === n, { what: `${n} samples in the collector`, ...wait });
+    store.insertEvent({ camera: 'door', zone: 'entrance', type: 'capacity-exceeded', detail: { count: 11, capacity: 10 }, time: Date.UTC(2026, 2, 2, 8, 30) });
+    store.insertEvent({ camera: 'stacks', type: 'offline', detail: { reason: 'timeout' }, time: Date.UTC(2026, 2, 2, 9, 10) });
+    await waitUntil(() => collector.stats().eventsStored === 2, { what: 'two events in the collector', ...wait });
+    expect(collector.stats()).toMatchObject({ samplesStored: n, duplicates: 0, conflicts: 0, rejected: 0 });
+    expectSameSamples();
+    // Rollups are exact integer sums: the same in both databases, bucket for bucket.
+    const rollups = (s: typeof target.store, prefix: string) => s.listRollups().map((r) => ({ ...r, camera: r.camera.slice(prefix.length) }));
+    expect(rollups(target.store, `${SITE}--`)).toEqual(rollups(source.store, ''));
+    expectSameCsv();
+    const events = (s: typeof target.store, prefix: string) => s.listEvents().map(({ id: _id, ...e }) => ({ ...e, camera: e.camera.slice(prefix.length) }));
+    expect(events(target.store, `${SITE}--`)).toEqual(events(source.store, ''));
+    // The collector knows zones only from their samples: kind from the sample, creation time from the source.
+    expect(target.store.getZone(`${SITE}--stacks`, 'returns')).toMatchObject({ zone: { kind: 'shelf' }, created: source.store.getZone('stacks', 'returns')!.created });
+  });
+
+  it('stores each sample once when every message comes twice, in shuffled order', async () => {
+    source = sourceStore();
+    rig = await startRig({ publisher: { store: source.store } });
+    const { publisher, collector } = rig;
+    const samples: Sample[] = inventedBatches(2).flat();
+    source.store.insertSamples(samples);
+    for (const s of shuffled([...samples, ...samples], 5)) publisher.publishSample(s);
+    const n = samples.length;
+    await waitUntil(() => collector.stats().samplesStored === n && collector.stats().duplicates >= n, { what: `${n} samples and ${n} duplicates`, ...wait });
+    expect(collector.stats()).toMatchObject({ conflicts: 0, rejected: 0 });
+    expectSameSamples();
+    expectSameCsv();
+  });
+
+  it('loses nothing while the broker is away: the full queue drops the oldest, the store fills them in later', async () => {
+    source = sourceStore();
+    rig = await startRig({ mqtt: { queueLimit: 20 }, publisher: { store: source.store } });
+    const { broker, publisher, collector } = rig;
+    broker.down();
+    await waitUntil(() => !publisher.stats().connected && !collector.connected, { what: 'both clients to notice', ...wait });
+    const store = publishingStore(source.store, publisher);
+    const batches = inventedBatches(3);
+    for (const batch of batches) store.insertSamples(batch);
+    const n = batches.length * ZONES.length;
+    // The database has everything at once; MQTT holds the newest 20 and counts the rest as dropped.
+    expect(source.store.listSamples({ camera: 'door', zone: 'tables' }).length).toBe(batches.length);
+    expect(publisher.stats()).toMatchObject({ queuedSamples: 20, samplesDropped: n - 20, backfillPending: 3 });
+    broker.up();
+    await waitUntil(() => collector.stats().samplesStored === n, { what: `${n} samples in the collector`, ...wait });
+    expect(publisher.stats().samplesBackfilled).toBeGreaterThanOrEqual(n - 20);
+    expect(collector.stats()).toMatchObject({ conflicts: 0, rejected: 0 });
+    expectSameSamples();
+    expectSameCsv();
+  });
+
+  it('without the store, only the newest samples of the bounded queue reach the collector', async () => {
+    source = sourceStore();
+    rig = await startRig({ mqtt: { queueLimit: 20 } });
+    const { broker, publisher, collector, target } = rig;
+    broker.down();
+    await waitUntil(() => !publisher.stats().connected, { what: 'the publisher to notice', ...wait });
+    const store = publishingStore(source.store, publisher);
+    const samples = inventedBatches(4).flat();
+    store.insertSamples(samples);
+    expect(publisher.stats()).toMatchObject({ queuedSamples: 20, samplesDropped: samples.length - 20, backfillPending: 0 });
+    broker.up();
+    await waitUntil(() => collector.stats().samplesStored === 20 && publisher.stats().queuedSamples === 0 && publisher.stats().inFlight === 0, { what: '20 samples in the collector', ...wait });
+    const received = ZONES.flatMap(([camera, zone]) => samplesOf(target.store, `${SITE}--${camera}`, zone, camera));
+    const newest = samples.slice(-20).map((s) => ({ ...s, quality: s.quality ?? 0 }));
+    const key = (s: Sample) => `${s.camera}/${s.zone}/${s.time}`;
+    expect(received.sort((a, b) => key(a).localeCompare(key(b)))).toEqual(newest.sort((a, b) => key(a).localeCompare(key(b))));
+  });
+
+  it('refuses a conflicting sample and keeps the stored one; an older sample that overlaps nothing is stored', async () => {
+    source = sourceStore();
+    rig = await startRig({ publisher: { store: source.store } });
+    const { publisher, collector, target } = rig;
+    const base = { camera: 'door', zone: 'entrance', kind: 'count' as const, intervalMs: 30_000, quality: 0 };
+    const t = Date.UTC(2026, 2, 2, 8, 0);
+    publisher.publishSample({ ...base, time: t, value: 3 });
+    await waitUntil(() => collector.stats().samplesStored === 1, { what: 'the first sample', ...wait });
+    publisher.publishSample({ ...base, time: t, value: 4 }); // same interval, other value
+    publisher.publishSample({ ...base, time: t + 10_000, value: 3 }); // overlaps [t − 20 s, t)
+    publisher.publishSample({ ...base, time: t, value: 3, quality: 1 }); // same value, other flags
+    publisher.publishSample({ ...base, time: t - 60_000, value: 1 }); // older, before the stored interval
+    publisher.publishSample({ ...base, time: t - 30_000, value: 2 }); // ends where the stored one starts
+    await waitUntil(() => collector.stats().conflicts === 3 && collector.stats().samplesStored === 3, { what: 'three conflicts and three samples', ...wait });
+    expect(target.store.listSamples({ camera: `${SITE}--door`, zone: 'entrance' }).map((s) => [s.time - t, s.value, s.quality])).toEqual([
+      [-60_000, 1, 0],
+      [-30_000, 2, 0],
+      [0, 3, 0],
+    ]);
+    expect(rig.log.some((l) => /conflicts with the stored one/.test(l))).toBe(true);
+  });
+});
