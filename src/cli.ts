@@ -1,3 +1,4 @@
+import { collectCommand, collectUsage } from './commands/collect.ts';
 import { countCommand, countUsage } from './commands/count.ts';
 import { demoCommand, demoUsage } from './commands/demo.ts';
 import { evaluateCommand, evaluateUsage } from './commands/evaluate.ts';
@@ -12,6 +13,7 @@ const commands: Record<string, { run: (argv: string[]) => Promise<number>; usage
   run: { run: runCommand, usage: runUsage, summary: 'run the counting service for the configured cameras' },
   evaluate: { run: evaluateCommand, usage: evaluateUsage, summary: 'compare counts and masks with ground truth, optionally against a baseline' },
   export: { run: exportCommand, usage: exportUsage, summary: 'write the hourly CSV of stored counts' },
+  collect: { run: collectCommand, usage: collectUsage, summary: 'collect counts published over MQTT by many sites into one database' },
   demo: { run: demoCommand, usage: demoUsage, summary: 'run the synthetic demo scenario with the dashboard (npm start)' },
 };
 
@@ -49,7 +51,7 @@ export async function main(argv: string[]): Promise<number> {
     }
     const e = error as Error;
     // Known errors carry a message that names the file or field; anything else gets its stack.
-    const known = ['FrameError', 'ModelFileError', 'ZoneError', 'ConfigError', 'RangeError'].includes(e.name);
+    const known = ['FrameError', 'ModelFileError', 'ZoneError', 'ConfigError', 'RangeError', 'UsageError'].includes(e.name);
     process.stderr.write(`residuum ${name}: ${known ? e.message : (e.stack ?? String(e))}\n`);
     return 1;
   }

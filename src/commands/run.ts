@@ -4,6 +4,10 @@ import { join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraPipeline, type CameraPipeline } from '../counting/cameraPipeline.ts';
 import { learnInWorker } from '../counting/learnInWorker.ts';
+import { createMetrics } from '../outputs/metrics.ts';
+import { createMqttPublisher } from '../outputs/mqtt/mqttPublisher.ts';
+import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
+import { siteSlug } from '../outputs/mqtt/topics.ts';
 import { decodeModel, encodeModel, loadModel, modelFormatVersion } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
 import type { CameraSource } from '../frames/live/cameraSource.ts';
@@ -84,6 +88,10 @@ export async function startService(config: ResiduumConfig, options: StartService
   const sources: CameraSource[] = [];
   const pipelines = new Map<string, CameraPipeline>();
   let retention: NodeJS.Timeout | undefined;
+  // MQTT is best-effort after the database: samples and events are published once committed.
+  const mqtt = config.mqtt && createMqttPublisher(config.mqtt, { site: config.mqtt.site ?? siteSlug(config.site.name), store, log });
+  const metrics = createMetrics(mqtt ? { mqtt: () => mqtt.stats() } : {});
+  const pipelineStore = mqtt ? publishingStore(store, mqtt, log) : store;
   try {
     for (const camera of config.cameras) {
       store.upsertCamera({ id: camera.id, name: camera.name });
@@ -95,15 +103,29 @@ export async function startService(config: ResiduumConfig, options: StartService
       const model = await cameraModel(camera, store, log);
       const pipeline = createCameraPipeline({
         camera,
-        store,
+        store: pipelineStore,
         model,
         // Rooms are rarely quite empty: learning from the live view rejects people passing through.
         learn: (frames, size) => learnInWorker(frames, size, { robustIterations: 1 }),
         onModel: (learned) => storeModel(store, camera.id, learned, 'live source'),
         log,
       });
+      pipeline.on('live', (live) => {
+        mqtt?.publishLive(live);
+        metrics.observeLive(live);
+      });
       const source = createCameraSource(camera.source);
-      source.start(pipeline.handlers);
+      source.start({
+        ...pipeline.handlers,
+        badFrame(error) {
+          metrics.sourceError(camera.id);
+          pipeline.handlers.badFrame(error);
+        },
+        status(state, detail) {
+          if (state === 'offline') metrics.sourceError(camera.id);
+          pipeline.handlers.status(state, detail);
+        },
+      });
       sources.push(source);
       pipelines.set(camera.id, pipeline);
       log(`camera ${camera.id}: started (${camera.source.kind}, ${camera.zones.length} zone${camera.zones.length === 1 ? '' : 's'})`);
@@ -117,6 +139,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     retention.unref();
   } catch (error) {
     await Promise.all(sources.map((s) => s.stop()));
+    await mqtt?.stop();
     store.close();
     throw error;
   }
@@ -131,6 +154,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     viewTokenRequired: config.server.viewToken,
     sampleRetentionDays: config.storage.sampleRetentionDays,
     host: config.server.host,
+    metrics,
     log,
   });
   const port = options.port ?? config.server.port;
@@ -144,6 +168,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     clearInterval(retention);
     for (const p of pipelines.values()) p.stop();
     await Promise.all(sources.map((s) => s.stop()));
+    await mqtt?.stop();
     store.close();
     throw new Error(`server: cannot listen on ${config.server.host}:${port} (${(error as Error).message})`, { cause: error });
   }
@@ -161,6 +186,7 @@ export async function startService(config: ResiduumConfig, options: StartService
       if (retention) clearInterval(retention);
       for (const p of pipelines.values()) p.stop();
       await Promise.all(sources.map((s) => s.stop()));
+      await mqtt?.stop();
       server.closeAllConnections();
       await new Promise<void>((done) => server.close(() => done()));
       store.close();

@@ -5,11 +5,11 @@ import { validateZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
 import type { CameraSourceDescription } from '../frames/live/createCameraSource.ts';
 import { sceneIds } from '../frames/synthetic/index.ts';
+import { validateMqttSettings, type MqttSettings } from '../outputs/mqtt/mqttSettings.ts';
 
-/** A configuration file that does not validate; the message names the file and the field. */
-export class ConfigError extends Error {
-  override name = 'ConfigError';
-}
+import { ConfigError } from './ConfigError.ts';
+
+export { ConfigError };
 
 /** How per-frame counts are smoothed before sampling. */
 export interface SmoothingConfig {
@@ -44,6 +44,8 @@ export interface ResiduumConfig {
   /** HTTP server: listen address and port; `viewToken` true = reading counts needs a key too. */
   readonly server: { readonly host: string; readonly port: number; readonly viewToken: boolean };
   readonly cameras: readonly CameraConfig[];
+  /** MQTT publishing of counts and events (optional). */
+  readonly mqtt?: MqttSettings;
 }
 
 /** Reads and validates a configuration file (YAML; JSON is YAML too). */
@@ -75,7 +77,7 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   const fail: Fail = (path, message) => {
     throw new ConfigError(`${file}: ${path} ${message}`);
   };
-  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'cameras']);
+  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'cameras', 'mqtt']);
   const site = record(root.site ?? {}, 'site', fail, ['name', 'timeZone']);
   const timeZone = site.timeZone ?? Intl.DateTimeFormat().resolvedOptions().timeZone;
   if (typeof timeZone !== 'string' || !isTimeZone(timeZone)) fail('site.timeZone', `must be an IANA time zone such as Europe/Berlin, got ${show(timeZone)}`);
@@ -99,6 +101,7 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
     storage: { sampleRetentionDays: int(storage.sampleRetentionDays ?? 30, 'storage.sampleRetentionDays', fail, 1, 36500) },
     server: { host: host as string, port: int(server.port ?? 8080, 'server.port', fail, 0, 65535), viewToken: bool(server.viewToken, 'server.viewToken', fail) ?? false },
     cameras: parsed,
+    ...(root.mqtt !== undefined && { mqtt: validateMqttSettings(root.mqtt, { file, base }) }),
   };
 }
 

@@ -21,6 +21,8 @@ import { learnRoutes } from './routes/learn.ts';
 import { liveRoutes } from './routes/live.ts';
 import { settingsRoutes } from './routes/settings.ts';
 import type { ServiceControl } from './serviceControl.ts';
+import type { Metrics } from '../outputs/metrics.ts';
+import { metricsRoutes } from './routes/metrics.ts';
 
 export { HttpError } from './HttpError.ts';
 
@@ -51,6 +53,8 @@ export interface AppDeps {
   readonly stream?: LiveStreamOptions;
   /** Service log lines (never a token). Default: none. */
   readonly log?: (line: string) => void;
+  /** Metrics registry served at GET /metrics (Prometheus text format); default: no such route. */
+  readonly metrics?: Metrics;
 }
 
 /** The dashboard's files. */
@@ -133,6 +137,7 @@ export function createApp(deps: AppDeps): express.Express {
   api.use(capacityRoutes(ctx));
   api.use((_req, _res, next) => next(new HttpError(404, 'no such API route')));
   app.use('/api', api);
+  if (deps.metrics) app.use(metricsRoutes(ctx, deps.metrics));
 
   app.use('/vendor/uplot', express.static(uplotDir(), { index: false, fallthrough: false }));
   app.use(express.static(WEB_DIR, { index: 'index.html', extensions: ['html'] }));

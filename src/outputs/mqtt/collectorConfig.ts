@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import { parse as parseYaml } from 'yaml';
-import { ConfigError } from '../../config/loadConfig.ts';
+import { ConfigError } from '../../config/ConfigError.ts';
 import { MqttRole, validateMqttSettings, type MqttSettings } from './mqttSettings.ts';
 
 /**

@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
-import { ConfigError } from '../../config/loadConfig.ts';
+import { ConfigError } from '../../config/ConfigError.ts';
 import { SITE_ID_PATTERN } from './topics.ts';
 
 /**
