@@ -110,6 +110,7 @@ export async function startService(config: ResiduumConfig, options: StartService
         onModel: (learned) => storeModel(store, camera.id, learned, 'live source'),
         log,
       });
+      pipeline.on('counted', (seconds: number) => metrics.observeStage('count', seconds));
       pipeline.on('live', (live) => {
         mqtt?.publishLive(live);
         metrics.observeLive(live);

@@ -67,7 +67,10 @@ export interface LearnStatus {
   readonly frames?: number;
 }
 
-/** Events: 'live' (CameraLive) after every counted frame and status change; 'learn' (LearnStatus) while learning. */
+/**
+ * Events: 'live' (CameraLive) after every counted frame and status change; 'learn' (LearnStatus)
+ * while learning; 'counted' (seconds the frame took to count) after every counted frame.
+ */
 export interface CameraPipeline extends EventEmitter {
   readonly handlers: CameraHandlers;
   live(): CameraLive;
@@ -211,7 +214,9 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       const previous = accumulators.reduce((m, a) => Math.max(m, store.lastSample(camera.id, a.zone.id)?.time ?? 0), 0);
       intervalStart = Math.max(at, previous);
     }
+    const started = performance.now();
     const result = counter.count(frame);
+    emitter.emit('counted', (performance.now() - started) / 1000);
     lastFrameAt = at;
     state = 'online';
     const changed = result.noiseScale > viewChangeScale;
