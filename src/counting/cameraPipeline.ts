@@ -4,7 +4,7 @@ import type { GreyFrame, Mask } from '../frames/frame.ts';
 import type { FrameError } from '../frames/FrameError.ts';
 import type { CameraHandlers, SourceState, StatusDetail } from '../frames/live/cameraSource.ts';
 import type { Store } from '../store/index.ts';
-import { QualityFlag } from '../store/samples.ts';
+import { QualityFlag, type Sample } from '../store/samples.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { createCounter, type Counter } from './createCounter.ts';
 import { slidingWindow, type SlidingWindow } from './smoothCounts.ts';
@@ -87,6 +87,15 @@ export interface CameraPipeline extends EventEmitter {
   stop(): void;
 }
 
+/** Samples kept in memory while the database cannot be written (a day of 10 zones at one per 10 s). */
+const maxBacklog = 86_400;
+
+/** SQLite result codes of a database that cannot be written now but may be later. */
+function isStorageFault(error: unknown): boolean {
+  const code = (error as { code?: unknown }).code;
+  return typeof code === 'string' && /^SQLITE_(FULL|READONLY|IOERR|CANTOPEN|BUSY|LOCKED|PROTOCOL)/.test(code);
+}
+
 /** Frames kept in memory while learning from a live source (about 37 MB at 320×240). */
 const maxLearningFrames = 480;
 
@@ -127,6 +136,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   let intervalStart: number | undefined;
   let quality = 0;
   let viewChanged = false;
+  const backlog: Sample[] = [];
+  let droppedFromBacklog = 0;
   const learning: Float32Array[] = [];
   let learnedSeen = 0;
   let learnStride = 1;
@@ -173,17 +184,37 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
           intervalMs,
           quality,
         }));
-      try {
-        store.insertSamples(samples);
-      } catch (error) {
-        log(`camera ${camera.id}: could not store samples (${(error as Error).message})`);
-      }
+      storeSamples(samples);
     }
     intervalStart = end;
     quality = 0;
     for (const a of accumulators) {
       a.sum = 0;
       a.frames = 0;
+    }
+  }
+
+  /**
+   * Writes samples, first any backlog. When the database cannot be written (disk full, read-only
+   * data folder, I/O error), samples wait in a bounded backlog (oldest dropped first) and counting
+   * goes on; the next interval tries again, so writes resume when space returns.
+   */
+  function storeSamples(samples: Sample[]): void {
+    const all = backlog.length > 0 ? [...backlog, ...samples] : samples;
+    try {
+      store.insertSamples(all);
+      if (backlog.length > 0) log(`camera ${camera.id}: the database is writable again; stored ${backlog.length} samples from the backlog`);
+      backlog.length = 0;
+    } catch (error) {
+      if (!isStorageFault(error)) {
+        log(`camera ${camera.id}: could not store samples (${(error as Error).message})`);
+        // A backlog that was waiting for space is kept; only the new samples were at fault.
+        if (backlog.length > 0) storeSamples([]);
+        return;
+      }
+      if (backlog.length === 0) log(`camera ${camera.id}: cannot write the database (${(error as Error).message}); keeping samples in memory`);
+      backlog.splice(0, backlog.length, ...all.slice(-maxBacklog));
+      droppedFromBacklog += Math.max(0, all.length - maxBacklog);
     }
   }
 

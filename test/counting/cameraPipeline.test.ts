@@ -154,6 +154,36 @@ describe('camera pipeline', () => {
     expect(store.listSamples({ camera: 'cam', zone: 'tables' }).length).toBeGreaterThan(0);
   });
 
+  it('keeps counting through a full disk and stores the backlog when space returns', () => {
+    const { store, camera } = setup();
+    let full = true;
+    const logs: string[] = [];
+    // A store whose disk is full: SQLite answers SQLITE_FULL (better-sqlite3 puts the result code on error.code).
+    const failing = new Proxy(store, {
+      get(target, key, receiver) {
+        if (key === 'insertSamples' && full) {
+          return () => {
+            throw Object.assign(new Error('database or disk is full'), { code: 'SQLITE_FULL' });
+          };
+        }
+        const value = Reflect.get(target, key, receiver);
+        return typeof value === 'function' ? value.bind(target) : value;
+      },
+    });
+    const pipeline = createCameraPipeline({ camera, store: failing, model, log: (l) => logs.push(l) });
+    let t = t0;
+    for (let i = 0; i <= 40; i++, t += 100) pipeline.handlers.frame(scene.frameAt(600 + i).frame, t);
+    expect(store.listSamples({ camera: 'cam', zone: 'tables' })).toEqual([]);
+    expect(pipeline.live().state).toBe('online');
+    expect(logs.some((l) => /cannot write the database \(database or disk is full\); keeping samples in memory/.test(l))).toBe(true);
+    full = false;
+    for (let i = 0; i <= 12; i++, t += 100) pipeline.handlers.frame(scene.frameAt(650 + i).frame, t);
+    const stored = store.listSamples({ camera: 'cam', zone: 'tables' });
+    expect(stored.length).toBe(5);
+    for (let i = 1; i < stored.length; i++) expect(stored[i].time - stored[i].intervalMs).toBe(stored[i - 1].time);
+    expect(logs.filter((l) => /writable again/.test(l))).toEqual([expect.stringMatching(/stored 12 samples from the backlog/)]);
+  });
+
   it('applies new zones at once', () => {
     const { pipeline } = setup();
     pipeline.handlers.frame(scene.frameAt(600).frame, t0);
