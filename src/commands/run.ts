@@ -132,8 +132,12 @@ export async function startService(config: ResiduumConfig, options: StartService
       log(`camera ${camera.id}: started (${camera.source.kind}, ${camera.zones.length} zone${camera.zones.length === 1 ? '' : 's'})`);
     }
     const prune = () => {
-      const { deleted } = store.applyRetention({ sampleDays: config.storage.sampleRetentionDays });
+      const { deleted, rollupsDeleted = 0 } = store.applyRetention({
+        sampleDays: config.storage.sampleRetentionDays,
+        ...(config.storage.rollupRetentionDays !== undefined && { rollupDays: config.storage.rollupRetentionDays }),
+      });
       if (deleted > 0) log(`retention: deleted ${deleted} samples older than ${config.storage.sampleRetentionDays} days`);
+      if (rollupsDeleted > 0) log(`retention: deleted ${rollupsDeleted} rollup rows older than ${config.storage.rollupRetentionDays} days`);
     };
     prune();
     retention = setInterval(prune, 3_600_000);

@@ -40,7 +40,8 @@ export interface ResiduumConfig {
   /** The file it was read from (for messages). */
   readonly file: string;
   readonly site: { readonly name: string; readonly timeZone: string };
-  readonly storage: { readonly sampleRetentionDays: number };
+  /** Samples kept N days; rollups kept N days when set, else until deleted. */
+  readonly storage: { readonly sampleRetentionDays: number; readonly rollupRetentionDays?: number };
   /** HTTP server: listen address and port; `viewToken` true = reading counts needs a key too. */
   readonly server: { readonly host: string; readonly port: number; readonly viewToken: boolean };
   readonly cameras: readonly CameraConfig[];
@@ -81,7 +82,12 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   const site = record(root.site ?? {}, 'site', fail, ['name', 'timeZone']);
   const timeZone = site.timeZone ?? Intl.DateTimeFormat().resolvedOptions().timeZone;
   if (typeof timeZone !== 'string' || !isTimeZone(timeZone)) fail('site.timeZone', `must be an IANA time zone such as Europe/Berlin, got ${show(timeZone)}`);
-  const storage = record(root.storage ?? {}, 'storage', fail, ['sampleRetentionDays']);
+  const storage = record(root.storage ?? {}, 'storage', fail, ['sampleRetentionDays', 'rollupRetentionDays']);
+  const sampleRetentionDays = int(storage.sampleRetentionDays ?? 30, 'storage.sampleRetentionDays', fail, 1, 36500);
+  const rollupRetentionDays =
+    storage.rollupRetentionDays === undefined
+      ? undefined
+      : int(storage.rollupRetentionDays, 'storage.rollupRetentionDays', fail, sampleRetentionDays, 36500);
   const server = record(root.server ?? {}, 'server', fail, ['host', 'port', 'viewToken']);
   const host = server.host ?? '127.0.0.1';
   if (typeof host !== 'string' || host === '') fail('server.host', `must be a host name or address, got ${show(host)}`);
@@ -98,7 +104,7 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   return {
     file,
     site: { name: text(site.name ?? 'Residuum site', 'site.name', fail), timeZone: timeZone as string },
-    storage: { sampleRetentionDays: int(storage.sampleRetentionDays ?? 30, 'storage.sampleRetentionDays', fail, 1, 36500) },
+    storage: { sampleRetentionDays, ...(rollupRetentionDays !== undefined && { rollupRetentionDays }) },
     server: { host: host as string, port: int(server.port ?? 8080, 'server.port', fail, 0, 65535), viewToken: bool(server.viewToken, 'server.viewToken', fail) ?? false },
     cameras: parsed,
     ...(root.mqtt !== undefined && { mqtt: validateMqttSettings(root.mqtt, { file, base }) }),

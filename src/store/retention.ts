@@ -24,6 +24,11 @@ export const DEFAULT_RETENTION = {
 export interface RetentionPolicy {
   /** Days raw samples are kept, ≥ 1 (fractions allowed); default 30. */
   readonly sampleDays?: number;
+  /**
+   * Days hourly rollups are kept (fractions allowed), at least `sampleDays`; default: kept until
+   * deleted. Rollups older than that are deleted by whole 15-minute buckets.
+   */
+  readonly rollupDays?: number;
   /** "Now" for the policy, UTC epoch ms; default the store's clock. */
   readonly now?: number;
 }
@@ -31,6 +36,8 @@ export interface RetentionPolicy {
 export interface PruneResult {
   /** Samples deleted. */
   readonly deleted: number;
+  /** Rollup rows deleted (applyRetention with rollupDays only; else 0). */
+  readonly rollupsDeleted?: number;
   /** Samples with time < cutoff are gone; UTC epoch ms, a multiple of 15 minutes. */
   readonly cutoff: number;
 }
@@ -46,6 +53,7 @@ export interface RetentionStore {
 
 export function prepareRetention(db: Database.Database, settings: SettingStore, clock: () => number): RetentionStore {
   const remove = db.prepare('DELETE FROM samples WHERE time < ?');
+  const removeRollups = db.prepare('DELETE FROM rollups WHERE bucket_start < ?');
   const horizon = (): number => {
     const value = settings.getSetting(SettingKey.samplesPrunedBefore);
     return typeof value === 'number' ? value : 0;
@@ -61,9 +69,14 @@ export function prepareRetention(db: Database.Database, settings: SettingStore, 
       return prune.immediate(cutoff);
     },
     applyRetention(policy = {}) {
-      const { sampleDays = DEFAULT_RETENTION.sampleDays, now = clock() } = policy;
+      const { sampleDays = DEFAULT_RETENTION.sampleDays, rollupDays, now = clock() } = policy;
       const days = checkNumber(sampleDays, 'policy.sampleDays', 1, 1_000_000);
-      return store.pruneSamples(Math.max(0, checkEpochMs(now, 'policy.now') - Math.round(days * 86_400_000)));
+      const at = checkEpochMs(now, 'policy.now');
+      const result = store.pruneSamples(Math.max(0, at - Math.round(days * 86_400_000)));
+      if (rollupDays === undefined) return result;
+      const keep = checkNumber(rollupDays, 'policy.rollupDays', days, 1_000_000);
+      const cutoff = Math.floor(Math.max(0, at - Math.round(keep * 86_400_000)) / BUCKET_MS) * BUCKET_MS;
+      return { ...result, rollupsDeleted: removeRollups.run(cutoff).changes };
     },
     samplesPrunedBefore: horizon,
   };

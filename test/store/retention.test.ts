@@ -51,4 +51,16 @@ describe('retention', () => {
     expect(() => t.store.applyRetention({ sampleDays: 0 })).toThrow(/^policy\.sampleDays/);
     expect(() => t.store.pruneSamples(-1)).toThrow(/^olderThanMs/);
   });
+
+  it('keeps rollups until deleted, or rollupDays when given (never less than sampleDays)', () => {
+    sampleAt(T0 + 5 * DAY);
+    sampleAt(T0 + 50 * DAY);
+    sampleAt(T0 + 95 * DAY);
+    const now = T0 + 100 * DAY;
+    expect(t.store.applyRetention({ now }).rollupsDeleted).toBeUndefined();
+    expect(t.store.listRollups()).toHaveLength(3);
+    expect(t.store.applyRetention({ now, rollupDays: 60 }).rollupsDeleted).toBe(1);
+    expect(t.store.listRollups().map((r) => r.bucketStart)).toEqual([T0 + 50 * DAY - BUCKET_MS, T0 + 95 * DAY - BUCKET_MS].map((b) => Math.floor(b / BUCKET_MS) * BUCKET_MS));
+    expect(() => t.store.applyRetention({ now, sampleDays: 30, rollupDays: 10 })).toThrow(/^policy\.rollupDays/);
+  });
 });
