@@ -93,7 +93,7 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     height,
     zones: prepared,
     count(frame) {
-      const residual = residualEnergy(model, frame, { out: energy, outCoefficients: coefficients, inverseNoiseVariance });
+      const residual = residualEnergy(model, frame, { out: energy, outCoefficients: coefficients, inverseNoiseVariance, scratch: sampleScratch });
       const noiseScale = frameNoiseScale(energy, inverseNoiseVariance, { scratch: sampleScratch });
       thresholdResidual(energy, inverseNoiseVariance, model, {
         threshold: thresholds,
@@ -106,9 +106,10 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
       if (openRadius > 0) mask = openMask(mask, { radius: openRadius, out: opened, scratch: morphScratch });
       if (closeRadius > 0) mask = closeMask(mask, { radius: closeRadius, out: mask === raw ? opened : closed, scratch: morphScratch });
       last = mask;
-      let foreground = 0;
-      for (let i = 0; i < d; i++) foreground += mask.data[i];
       const components = labelComponents(mask, { connectivity, out: labels, scratch: labelScratch });
+      // Every set pixel of the mask lies in exactly one blob.
+      let foreground = 0;
+      for (const blob of components.blobs) foreground += blob.area;
       const tally = tallyZones(components.blobs, mask, prepared);
       return {
         ...tally,

@@ -1,4 +1,5 @@
 import { outputMask, type Mask } from '../frames/frame.ts';
+import { morphologyBits } from './morphologyBits.ts';
 import type { ElementShape } from './erode.ts';
 
 export interface DilateOptions {
@@ -8,7 +9,7 @@ export interface DilateOptions {
   shape?: ElementShape;
   /** Mask to write into and return, same size as the input and not sharing memory with it; default: a new one. */
   out?: Mask;
-  /** Work buffer for the row pass, reusable across calls, length ≥ width × height (inclusive), not sharing memory with input or out; default: a new one. */
+  /** Work buffer for the bit planes, reusable across calls, length ≥ width × height (inclusive), not sharing memory with input or out; default: a new one. */
   scratch?: Uint8Array;
 }
 
@@ -23,12 +24,11 @@ export interface DilateOptions {
  *
  * Method: as {@link erode}, with the roles of set and unset swapped: a row dilation then a column
  * dilation for the square (separability, Serra 1982), the union of the row and the column
- * dilations of the input for the cross; each 1-D pass keeps a running count of set pixels in the
- * sliding window (two-bin running histogram, Huang, Yang & Tang 1979), so the cost is
- * O(width × height) whatever the radius.
+ * dilations of the input for the cross; the passes run on the mask packed 32 pixels to a word
+ * ({@link morphologyBits}: ORs of shifted rows and of 2r+1 rows).
  *
- * Memory: besides `out` and `scratch` (allocated when not given), each call allocates only one
- * row of `width` 32-bit column counters.
+ * Memory: besides `out` (allocated when not given), the bit planes live in `scratch` (allocated
+ * when not given, or for masks narrower than 12 pixels).
  *
  * Example, radius 1, cross:
  *
@@ -63,79 +63,7 @@ export function dilate(mask: Mask, options: DilateOptions = {}): Mask {
       throw new RangeError('options.scratch must not share memory with the input mask or options.out');
     }
   }
-  const rows = scratch ?? new Uint8Array(n);
-
-  dilateRows(data, rows, width, height, radius);
-  if (shape === 'square') dilateColumns(rows, result.data, width, height, radius, undefined);
-  else dilateColumns(data, result.data, width, height, radius, rows);
-  return result;
-}
-
-/*
- * Inner loops are branch-free on the pixel values: for a byte v, `-v >>> 31` is 1 when v is set
- * and 0 when it is not; for a count c ≥ 0, `-c >>> 31` is 1 exactly when c > 0.
- */
-
-/** dst = src dilated along each row by a segment of half-length r; outside the row counts as unset. */
-function dilateRows(src: Uint8Array, dst: Uint8Array, width: number, height: number, r: number): void {
-  for (let base = 0, n = width * height; base < n; base += width) {
-    const end = base + width;
-    // Set pixels in the window [x - r, x + r] of the current x, starting at x = 0.
-    let set = 0;
-    for (let k = base, leadEnd = Math.min(base + r + 1, end); k < leadEnd; k++) set += -src[k] >>> 31;
-    let x = base;
-    // Head: the window still starts before the row, nothing leaves it.
-    for (const headEnd = Math.min(base + r, end); x < headEnd; x++) {
-      dst[x] = -set >>> 31;
-      if (x + r + 1 < end) set += -src[x + r + 1] >>> 31;
-    }
-    // Middle: x + r + 1 enters, x - r leaves.
-    for (const middleEnd = Math.max(end - r - 1, x); x < middleEnd; x++) {
-      dst[x] = -set >>> 31;
-      set += (-src[x + r + 1] >>> 31) - (-src[x - r] >>> 31);
-    }
-    // Tail: the window reaches past the row end, nothing enters.
-    for (; x < end; x++) {
-      dst[x] = -set >>> 31;
-      set -= -src[x - r] >>> 31;
-    }
-  }
-}
-
-/**
- * dst = src dilated along each column by a segment of half-length r, then ORed with `or` when
- * given; outside the column counts as unset. Runs row by row, keeping one counter per column.
- */
-function dilateColumns(
-  src: Uint8Array,
-  dst: Uint8Array,
-  width: number,
-  height: number,
-  r: number,
-  or: Uint8Array | undefined,
-): void {
-  // Set pixels per column in the rows [y - r, y + r] of the current y, starting at y = 0.
-  const set = new Int32Array(width);
-  for (let k = 0, leadEnd = Math.min(r + 1, height); k < leadEnd; k++) {
-    for (let x = 0, b = k * width; x < width; x++) set[x] += -src[b + x] >>> 31;
-  }
-  for (let y = 0; y < height; y++) {
-    const b = y * width;
-    if (or === undefined) {
-      for (let x = 0; x < width; x++) dst[b + x] = -set[x] >>> 31;
-    } else {
-      for (let x = 0; x < width; x++) dst[b + x] = (-set[x] >>> 31) | or[b + x];
-    }
-    const enter = y + r + 1 < height ? (y + r + 1) * width : -1;
-    const leave = y - r >= 0 ? (y - r) * width : -1;
-    if (enter >= 0 && leave >= 0) {
-      for (let x = 0; x < width; x++) set[x] += (-src[enter + x] >>> 31) - (-src[leave + x] >>> 31);
-    } else if (enter >= 0) {
-      for (let x = 0; x < width; x++) set[x] += -src[enter + x] >>> 31;
-    } else if (leave >= 0) {
-      for (let x = 0; x < width; x++) set[x] -= -src[leave + x] >>> 31;
-    }
-  }
+  return morphologyBits(mask, { steps: ['dilate'], radius, shape, out: result, scratch });
 }
 
 /** True when two byte arrays share at least one byte of memory. */

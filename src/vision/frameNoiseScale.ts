@@ -1,3 +1,5 @@
+import { quickselect } from './quickselect.ts';
+
 export interface FrameNoiseScaleOptions {
   /** Pixels between two sampled pixels (≥ 1); default 7, about 11 000 samples at 320×240. */
   stride?: number;
@@ -32,8 +34,14 @@ export function frameNoiseScale(
   if (n === 0) return 1;
   const buf = scratch ?? new Float32Array(n);
   if (buf.length < n) throw new RangeError(`scratch has length ${buf.length}, expected at least ${n}`);
-  for (let i = 0, s = 0; i < energy.length; i += stride, s++) buf[s] = energy[i] * inverseNoiseVariance[i];
-  const sample = buf.subarray(0, n).sort();
-  const median = n % 2 === 1 ? sample[(n - 1) / 2] : (sample[n / 2 - 1] + sample[n / 2]) / 2;
-  return median / chiSquare1Median;
+  const sample = buf.length === n ? buf : buf.subarray(0, n);
+  for (let i = 0, s = 0; i < energy.length; i += stride, s++) sample[s] = energy[i] * inverseNoiseVariance[i];
+  // The median by selection, not a full sort: for an even count, the lower middle is selected and
+  // the upper middle is then the smallest value above it.
+  const half = n >> 1;
+  if (n % 2 === 1) return quickselect(sample, half, { scratch: sample }) / chiSquare1Median;
+  const lower = quickselect(sample, half - 1, { scratch: sample });
+  let upper = sample[half];
+  for (let s = half + 1; s < n; s++) if (sample[s] < upper) upper = sample[s];
+  return (lower + upper) / 2 / chiSquare1Median;
 }

@@ -1,6 +1,6 @@
 import { outputMask, type Mask } from '../frames/frame.ts';
-import { dilate } from './dilate.ts';
-import { erode, type ElementShape } from './erode.ts';
+import type { ElementShape } from './erode.ts';
+import { morphologyBits } from './morphologyBits.ts';
 
 export interface OpenMaskOptions {
   /** Half-size of the structuring element in pixels, integer ≥ 0 (inclusive); 1 → 3×3; 0 copies the mask. Default 1. */
@@ -21,8 +21,11 @@ export interface OpenMaskOptions {
  * Border: as in the two steps, outside counts as set while eroding and as unset while dilating,
  * opencv's default, so the border neither erodes nor grows anything.
  *
- * Scratch: the first `width × height` bytes hold the eroded mask, the next `width × height` the
- * work rows of each step.
+ * Method: both steps run on the mask packed 32 pixels to a word ({@link morphologyBits}), packed
+ * once and unpacked once.
+ *
+ * Scratch: holds the bit planes (three of height × ⌈width / 32⌉ words); a buffer is allocated
+ * when none is given, or for masks narrower than 12 pixels.
  *
  * Example, radius 1, square: the isolated pixel goes, the 3×3 block stays.
  *
@@ -42,6 +45,12 @@ export function openMask(mask: Mask, options: OpenMaskOptions = {}): Mask {
   if (!(data instanceof Uint8Array) || data.length !== n) {
     throw new RangeError(`mask.data must be a Uint8Array of length ${n} (${width}×${height}), got length ${data?.length}`);
   }
+  if (!Number.isInteger(radius) || radius < 0) {
+    throw new RangeError(`options.radius must be an integer ≥ 0 (pixels), got ${String(radius)}`);
+  }
+  if (shape !== 'square' && shape !== 'cross') {
+    throw new RangeError(`options.shape must be 'square' or 'cross', got ${String(shape)}`);
+  }
   const result = outputMask(width, height, out);
   if (overlaps(result.data, data)) throw new RangeError('options.out must not share memory with the input mask');
   if (scratch !== undefined) {
@@ -52,12 +61,7 @@ export function openMask(mask: Mask, options: OpenMaskOptions = {}): Mask {
       throw new RangeError('options.scratch must not share memory with the input mask or options.out');
     }
   }
-  const work = scratch ?? new Uint8Array(2 * n);
-  const eroded: Mask = { width, height, data: work.subarray(0, n) };
-  const rows = work.subarray(n, 2 * n);
-
-  erode(mask, { radius, shape, out: eroded, scratch: rows });
-  return dilate(eroded, { radius, shape, out: result, scratch: rows });
+  return morphologyBits(mask, { steps: ['erode', 'dilate'], radius, shape, out: result, scratch });
 }
 
 /** True when two byte arrays share at least one byte of memory. */

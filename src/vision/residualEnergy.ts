@@ -1,5 +1,6 @@
 import type { GreyFrame } from '../frames/frame.ts';
 import { chiSquare1Median } from './frameNoiseScale.ts';
+import { quickselect } from './quickselect.ts';
 import type { Subspace } from './subspace.ts';
 
 /** Per-pixel residual energy of a frame and the per-frame distances of probabilistic PCA. */
@@ -32,6 +33,11 @@ export interface ResidualEnergyOptions {
   robustSteps?: number;
   /** Pixels whose |r / σ| exceeds this many noise units (times the frame's noise scale) are left out; default 3. */
   robustCutoff?: number;
+  /**
+   * Work buffer for the noise-scale sample of the robust steps, length ≥ ⌈width × height / 7⌉
+   * (inclusive), reused instead of allocating; its contents on return are unspecified.
+   */
+  scratch?: Float32Array;
 }
 
 /** Pixels sampled for the robust noise scale: every 7th. */
@@ -54,6 +60,13 @@ const scaleStride = 7;
  * so a step costs one pass over the frame plus k² per left-out pixel. Steps stop early once the
  * left-out set is below 0.1 % of the frame or no longer changes in size.
  *
+ * Cost: the noise scale of a step needs only the sampled pixels (every 7th), so they are
+ * projected first, and the full pass of the step then computes e_i, finds the left-out pixels
+ * and accumulates their products at once. Each robust step is one pass over the frame and the
+ * basis (plus a seventh of one); the plain projection and the final residual are one pass each,
+ * and the final one is skipped when the last step left y as it was. The arithmetic is that of the
+ * plain per-pixel loops, in the same order, so the results do not depend on this organisation.
+ *
  * Example: with the mean as the only model (k = 0), e_i = (z_i − μ_i)².
  */
 export function residualEnergy(
@@ -61,7 +74,7 @@ export function residualEnergy(
   frame: GreyFrame,
   options: ResidualEnergyOptions = {},
 ): ResidualEnergy {
-  const { out, outCoefficients, inverseNoiseVariance, robustSteps = 3, robustCutoff = 3 } = options;
+  const { out, outCoefficients, inverseNoiseVariance, robustSteps = 3, robustCutoff = 3, scratch } = options;
   const { width, height, components: k, mean, basis, eigenvalues, noise } = model;
   if (frame.width !== width || frame.height !== height) {
     throw new RangeError(`frame is ${frame.width}×${frame.height}, the model is ${width}×${height}`);
@@ -72,83 +85,429 @@ export function residualEnergy(
   const y = outCoefficients ?? new Float64Array(k);
   if (y.length !== k) throw new RangeError(`outCoefficients has length ${y.length}, expected ${k}`);
   const weight = inverseNoiseVariance ?? Float32Array.from(noise, (s) => 1 / (s * s));
+  const samples = Math.ceil(d / scaleStride);
+  if (scratch !== undefined && scratch.length < samples) {
+    throw new RangeError(`scratch has length ${scratch.length}, expected at least ${samples}`);
+  }
   const z = frame.data;
+  const pass: Pass = { z, mean, basis, k, weight, energy, dffs: 0, normalised: 0 };
 
-  // y = Bᵀ(z − μ), the pixel-major basis read as one stream; keep Bᵀ(z − μ) for the robust steps.
+  // y = Bᵀ(z − μ), the pixel-major basis read as one stream.
+  project(pass, y);
+  let outlierShare = 0;
+  let current = false; // whether pass.energy, dffs and normalised are those of the current y
+  if (k > 0 && robustSteps > 0) {
+    const sample = scratch ?? new Float32Array(samples);
+    const robust = robustProject(pass, y, robustSteps, robustCutoff, sample.length === samples ? sample : sample.subarray(0, samples));
+    outlierShare = robust.share;
+    current = robust.current;
+  }
+  // r = (z − μ) − B y.
+  if (!current) residualPass(pass, y, Infinity, undefined);
+  let difs = 0;
+  for (let j = 0; j < k; j++) if (eigenvalues[j] > 0) difs += (y[j] * y[j]) / eigenvalues[j];
+  return { energy, coefficients: y, dffs: pass.dffs, difs, normalisedEnergy: pass.normalised / d, outlierShare };
+}
+
+/*
+ * The passes are the plain per-pixel loops with the components unrolled: for k ≤ 8 an 8-wide
+ * kernel, for k ≤ 12 a 12-wide one, the coordinates held in local variables (those past k are
+ * 0, and the basis values they multiply, the next pixel's, change nothing: r − x·0 = r up to the
+ * sign of a zero, which r² drops). The last few pixels, whose unrolled reads would run past the
+ * end of the basis, and every pixel for k > 12, take the plain loops. Every residual still
+ * subtracts its components one by one in the order j = 0, 1, …, k − 1, and every coordinate and
+ * every sum still runs over the pixels in raster order, so the results are those of the plain
+ * loops, bit for bit.
+ */
+
+/** A frame against a model, with the outputs of the last full residual pass. */
+interface Pass {
+  readonly z: Float32Array;
+  readonly mean: Float32Array;
+  readonly basis: Float32Array;
+  readonly k: number;
+  readonly weight: Float32Array;
+  /** e_i = r_i² of the last full pass. */
+  readonly energy: Float32Array;
+  /** Σ e_i of the last full pass. */
+  dffs: number;
+  /** Σ e_i / σ_i² of the last full pass. */
+  normalised: number;
+}
+
+/** Width of the unrolled kernel for k components: 8, 12, or 0 for the plain loops. */
+function kernelWidth(k: number): number {
+  return k <= 8 ? 8 : k <= 12 ? 12 : 0;
+}
+
+/** Pixels 0 … end − 1 can run the kernel of the given width without reading past the basis. */
+function kernelEnd(d: number, k: number, width: number): number {
+  if (width === 0 || k === 0) return 0;
+  return Math.max(0, d - Math.ceil((width - k) / k));
+}
+
+/** y_j = coordinate j, or 0 past k. */
+function at(y: Float64Array, k: number, j: number): number {
+  return j < k ? y[j] : 0;
+}
+
+/** y = Bᵀ(z − μ). */
+function project(pass: Pass, y: Float64Array): void {
+  const { z, mean, basis, k } = pass;
+  const d = z.length;
   y.fill(0);
-  for (let i = 0, b = 0; i < d; i++, b += k) {
+  const width = kernelWidth(k);
+  const end = kernelEnd(d, k, width);
+  if (width === 8) project8(pass, y, end);
+  else if (width === 12) project12(pass, y, end);
+  for (let i = end, b = end * k; i < d; i++, b += k) {
     const c = z[i] - mean[i];
     for (let j = 0; j < k; j++) y[j] += basis[b + j] * c;
   }
-  let outlierShare = 0;
-  if (k > 0 && robustSteps > 0) outlierShare = robustProject(model, z, weight, y, robustSteps, robustCutoff, energy);
+}
 
-  // r = (z − μ) − B y.
-  let dffs = 0;
-  let normalised = 0;
-  for (let i = 0, b = 0; i < d; i++, b += k) {
+/**
+ * The full pass of r = (z − μ) − B y: e_i = r_i² into pass.energy, with dffs and the normalised
+ * sum; every pixel whose e_i / σ_i² (as a Float32) exceeds `limit` (or is NaN) is handed to
+ * `outliers`. Returns the number of pixels handed over.
+ */
+function residualPass(pass: Pass, y: Float64Array, limit: number, outliers: Outliers | undefined): number {
+  const { z, mean, basis, k, weight, energy } = pass;
+  const d = z.length;
+  const width = kernelWidth(k);
+  const end = kernelEnd(d, k, width);
+  pass.dffs = 0;
+  pass.normalised = 0;
+  let count = width === 8 ? residual8(pass, y, limit, outliers, end) : width === 12 ? residual12(pass, y, limit, outliers, end) : 0;
+  let dffs = pass.dffs;
+  let normalised = pass.normalised;
+  for (let i = end, b = end * k; i < d; i++, b += k) {
     let r = z[i] - mean[i];
     for (let j = 0; j < k; j++) r -= basis[b + j] * y[j];
     const e = r * r;
     energy[i] = e;
     dffs += e;
-    normalised += e * weight[i];
+    const v = e * weight[i];
+    normalised += v;
+    if (!(Math.fround(v) <= limit) && outliers !== undefined) {
+      outliers.add(i, z[i] - mean[i]);
+      count++;
+    }
   }
-  let difs = 0;
-  for (let j = 0; j < k; j++) if (eigenvalues[j] > 0) difs += (y[j] * y[j]) / eigenvalues[j];
-  return { energy, coefficients: y, dffs, difs, normalisedEnergy: normalised / d, outlierShare };
+  pass.dffs = dffs;
+  pass.normalised = normalised;
+  return count;
 }
 
-/** Refines y in place by robust steps; `work` (length d) holds the normalised residuals. Returns the last left-out share. */
-function robustProject(
-  model: Subspace,
-  z: Float32Array,
-  weight: Float32Array,
-  y: Float64Array,
-  steps: number,
-  cutoff: number,
-  work: Float32Array,
-): number {
-  const { components: k, mean, basis } = model;
-  const d = model.width * model.height;
-  const full = Float64Array.from(y); // Bᵀ(z − μ) over all pixels
-  const normal = new Float64Array(k * k);
-  const rhs = new Float64Array(k);
-  const sample = new Float32Array(Math.ceil(d / scaleStride));
-  let lastCount = -1;
-  let share = 0;
-  for (let step = 0; step < steps; step++) {
-    for (let i = 0, b = 0; i < d; i++, b += k) {
-      let r = z[i] - mean[i];
-      for (let j = 0; j < k; j++) r -= basis[b + j] * y[j];
-      work[i] = r * r * weight[i];
+/** (r/σ)² as Float32s at every scaleStride-th pixel (0, scaleStride, …) into sample. */
+function samplePass(pass: Pass, y: Float64Array, sample: Float32Array): void {
+  const { z, mean, basis, k, weight } = pass;
+  const d = z.length;
+  const width = kernelWidth(k);
+  const end = kernelEnd(d, k, width);
+  if (width === 8) sample8(pass, y, sample, end);
+  else if (width === 12) sample12(pass, y, sample, end);
+  const first = Math.ceil(end / scaleStride);
+  for (let i = first * scaleStride, b = i * k, s = first; i < d; i += scaleStride, b += k * scaleStride, s++) {
+    let r = z[i] - mean[i];
+    for (let j = 0; j < k; j++) r -= basis[b + j] * y[j];
+    sample[s] = r * r * weight[i];
+  }
+}
+
+/** y[j] += Σ B[i, j] · (z − μ)_i over the pixels i < end, 8 components unrolled (k ≤ 8). */
+function project8(pass: Pass, y: Float64Array, end: number): void {
+  const { z, mean, basis, k } = pass;
+  let y0 = 0, y1 = 0, y2 = 0, y3 = 0, y4 = 0, y5 = 0, y6 = 0, y7 = 0;
+  for (let i = 0, b = 0; i < end; i++, b += k) {
+    const c = z[i] - mean[i];
+    y0 += basis[b] * c;
+    y1 += basis[b + 1] * c;
+    y2 += basis[b + 2] * c;
+    y3 += basis[b + 3] * c;
+    y4 += basis[b + 4] * c;
+    y5 += basis[b + 5] * c;
+    y6 += basis[b + 6] * c;
+    y7 += basis[b + 7] * c;
+  }
+  if (k > 0) y[0] = y0;
+  if (k > 1) y[1] = y1;
+  if (k > 2) y[2] = y2;
+  if (k > 3) y[3] = y3;
+  if (k > 4) y[4] = y4;
+  if (k > 5) y[5] = y5;
+  if (k > 6) y[6] = y6;
+  if (k > 7) y[7] = y7;
+}
+
+/** y[j] += Σ B[i, j] · (z − μ)_i over the pixels i < end, 12 components unrolled (k ≤ 12). */
+function project12(pass: Pass, y: Float64Array, end: number): void {
+  const { z, mean, basis, k } = pass;
+  let y0 = 0, y1 = 0, y2 = 0, y3 = 0, y4 = 0, y5 = 0, y6 = 0, y7 = 0, y8 = 0, y9 = 0, y10 = 0, y11 = 0;
+  for (let i = 0, b = 0; i < end; i++, b += k) {
+    const c = z[i] - mean[i];
+    y0 += basis[b] * c;
+    y1 += basis[b + 1] * c;
+    y2 += basis[b + 2] * c;
+    y3 += basis[b + 3] * c;
+    y4 += basis[b + 4] * c;
+    y5 += basis[b + 5] * c;
+    y6 += basis[b + 6] * c;
+    y7 += basis[b + 7] * c;
+    y8 += basis[b + 8] * c;
+    y9 += basis[b + 9] * c;
+    y10 += basis[b + 10] * c;
+    y11 += basis[b + 11] * c;
+  }
+  if (k > 0) y[0] = y0;
+  if (k > 1) y[1] = y1;
+  if (k > 2) y[2] = y2;
+  if (k > 3) y[3] = y3;
+  if (k > 4) y[4] = y4;
+  if (k > 5) y[5] = y5;
+  if (k > 6) y[6] = y6;
+  if (k > 7) y[7] = y7;
+  if (k > 8) y[8] = y8;
+  if (k > 9) y[9] = y9;
+  if (k > 10) y[10] = y10;
+  if (k > 11) y[11] = y11;
+}
+
+/** The full pass over the pixels i < end, 8 components unrolled (k ≤ 8); see residualPass. */
+function residual8(pass: Pass, y: Float64Array, limit: number, outliers: Outliers | undefined, end: number): number {
+  const { z, mean, basis, k, weight, energy } = pass;
+  const y0 = at(y, k, 0), y1 = at(y, k, 1), y2 = at(y, k, 2), y3 = at(y, k, 3);
+  const y4 = at(y, k, 4), y5 = at(y, k, 5), y6 = at(y, k, 6), y7 = at(y, k, 7);
+  let dffs = pass.dffs;
+  let normalised = pass.normalised;
+  let count = 0;
+  for (let i = 0, b = 0; i < end; i++, b += k) {
+    let r = z[i] - mean[i];
+    r -= basis[b] * y0;
+    r -= basis[b + 1] * y1;
+    r -= basis[b + 2] * y2;
+    r -= basis[b + 3] * y3;
+    r -= basis[b + 4] * y4;
+    r -= basis[b + 5] * y5;
+    r -= basis[b + 6] * y6;
+    r -= basis[b + 7] * y7;
+    const e = r * r;
+    energy[i] = e;
+    dffs += e;
+    const v = e * weight[i];
+    normalised += v;
+    if (!(Math.fround(v) <= limit) && outliers !== undefined) {
+      outliers.add(i, z[i] - mean[i]);
+      count++;
     }
-    for (let i = 0, s = 0; i < d; i += scaleStride, s++) sample[s] = work[i];
-    sample.sort();
-    const scale = Math.max(1, sample[sample.length >> 1] / chiSquare1Median);
-    const limit = cutoff * cutoff * scale;
+  }
+  pass.dffs = dffs;
+  pass.normalised = normalised;
+  return count;
+}
+
+/** The full pass over the pixels i < end, 12 components unrolled (k ≤ 12); see residualPass. */
+function residual12(pass: Pass, y: Float64Array, limit: number, outliers: Outliers | undefined, end: number): number {
+  const { z, mean, basis, k, weight, energy } = pass;
+  const y0 = at(y, k, 0), y1 = at(y, k, 1), y2 = at(y, k, 2), y3 = at(y, k, 3);
+  const y4 = at(y, k, 4), y5 = at(y, k, 5), y6 = at(y, k, 6), y7 = at(y, k, 7);
+  const y8 = at(y, k, 8), y9 = at(y, k, 9), y10 = at(y, k, 10), y11 = at(y, k, 11);
+  let dffs = pass.dffs;
+  let normalised = pass.normalised;
+  let count = 0;
+  for (let i = 0, b = 0; i < end; i++, b += k) {
+    let r = z[i] - mean[i];
+    r -= basis[b] * y0;
+    r -= basis[b + 1] * y1;
+    r -= basis[b + 2] * y2;
+    r -= basis[b + 3] * y3;
+    r -= basis[b + 4] * y4;
+    r -= basis[b + 5] * y5;
+    r -= basis[b + 6] * y6;
+    r -= basis[b + 7] * y7;
+    r -= basis[b + 8] * y8;
+    r -= basis[b + 9] * y9;
+    r -= basis[b + 10] * y10;
+    r -= basis[b + 11] * y11;
+    const e = r * r;
+    energy[i] = e;
+    dffs += e;
+    const v = e * weight[i];
+    normalised += v;
+    if (!(Math.fround(v) <= limit) && outliers !== undefined) {
+      outliers.add(i, z[i] - mean[i]);
+      count++;
+    }
+  }
+  pass.dffs = dffs;
+  pass.normalised = normalised;
+  return count;
+}
+
+/** The sample pass over the sampled pixels s · scaleStride < end, 8 components unrolled (k ≤ 8); see samplePass. */
+function sample8(pass: Pass, y: Float64Array, sample: Float32Array, end: number): void {
+  const { z, mean, basis, k, weight } = pass;
+  const y0 = at(y, k, 0), y1 = at(y, k, 1), y2 = at(y, k, 2), y3 = at(y, k, 3);
+  const y4 = at(y, k, 4), y5 = at(y, k, 5), y6 = at(y, k, 6), y7 = at(y, k, 7);
+  const stride = k * scaleStride;
+  for (let i = 0, b = 0, s = 0; i < end; i += scaleStride, b += stride, s++) {
+    let r = z[i] - mean[i];
+    r -= basis[b] * y0;
+    r -= basis[b + 1] * y1;
+    r -= basis[b + 2] * y2;
+    r -= basis[b + 3] * y3;
+    r -= basis[b + 4] * y4;
+    r -= basis[b + 5] * y5;
+    r -= basis[b + 6] * y6;
+    r -= basis[b + 7] * y7;
+    sample[s] = r * r * weight[i];
+  }
+}
+
+/** The sample pass over the sampled pixels s · scaleStride < end, 12 components unrolled (k ≤ 12); see samplePass. */
+function sample12(pass: Pass, y: Float64Array, sample: Float32Array, end: number): void {
+  const { z, mean, basis, k, weight } = pass;
+  const y0 = at(y, k, 0), y1 = at(y, k, 1), y2 = at(y, k, 2), y3 = at(y, k, 3);
+  const y4 = at(y, k, 4), y5 = at(y, k, 5), y6 = at(y, k, 6), y7 = at(y, k, 7);
+  const y8 = at(y, k, 8), y9 = at(y, k, 9), y10 = at(y, k, 10), y11 = at(y, k, 11);
+  const stride = k * scaleStride;
+  for (let i = 0, b = 0, s = 0; i < end; i += scaleStride, b += stride, s++) {
+    let r = z[i] - mean[i];
+    r -= basis[b] * y0;
+    r -= basis[b + 1] * y1;
+    r -= basis[b + 2] * y2;
+    r -= basis[b + 3] * y3;
+    r -= basis[b + 4] * y4;
+    r -= basis[b + 5] * y5;
+    r -= basis[b + 6] * y6;
+    r -= basis[b + 7] * y7;
+    r -= basis[b + 8] * y8;
+    r -= basis[b + 9] * y9;
+    r -= basis[b + 10] * y10;
+    r -= basis[b + 11] * y11;
+    sample[s] = r * r * weight[i];
+  }
+}
+
+/**
+ * The left-out pixels of one robust step, gathered in runs of `outlierRun` (their basis rows,
+ * then z − μ) and subtracted from the normal equations: normal = I − B_Oᵀ B_O and
+ * rhs = Bᵀ(z − μ) − B_Oᵀ(z − μ)_O.
+ */
+class Outliers {
+  private run = 0;
+  private readonly gathered: Float64Array;
+
+  constructor(
+    private readonly basis: Float32Array,
+    private readonly k: number,
+    readonly normal: Float64Array,
+    readonly rhs: Float64Array,
+  ) {
+    this.gathered = new Float64Array(outlierRun * (k + 1));
+  }
+
+  /** Starts a step: normal = I, rhs = full. */
+  reset(full: Float64Array): void {
+    const { k, normal, rhs } = this;
     normal.fill(0);
     for (let j = 0; j < k; j++) normal[j * k + j] = 1;
     rhs.set(full);
-    let count = 0;
-    for (let i = 0, b = 0; i < d; i++, b += k) {
-      if (work[i] <= limit) continue;
-      count++;
-      const c = z[i] - mean[i];
-      for (let p = 0; p < k; p++) {
-        const bp = basis[b + p];
-        rhs[p] -= bp * c;
-        for (let q = 0; q <= p; q++) normal[p * k + q] -= bp * basis[b + q];
-      }
-    }
+    this.run = 0;
+  }
+
+  add(i: number, c: number): void {
+    const { k, basis, gathered } = this;
+    const g = this.run * (k + 1);
+    for (let j = 0, b = i * k; j < k; j++, b++) gathered[g + j] = basis[b];
+    gathered[g + k] = c;
+    if (++this.run === outlierRun) this.flush();
+  }
+
+  /** Subtracts the gathered run. */
+  flush(): void {
+    if (this.run > 0) subtractOuter(this.gathered, this.run, this.k, this.normal, this.rhs);
+    this.run = 0;
+  }
+}
+
+/**
+ * Refines y in place by robust steps; `sample` (length ⌈d / scaleStride⌉) holds the noise-scale
+ * sample. Returns the last left-out share, and whether the last full pass was made with the
+ * final y (then energy, dffs and the normalised sum in `pass` are final).
+ */
+function robustProject(
+  pass: Pass,
+  y: Float64Array,
+  steps: number,
+  cutoff: number,
+  sample: Float32Array,
+): { share: number; current: boolean } {
+  const { basis, k } = pass;
+  const d = pass.z.length;
+  const full = Float64Array.from(y); // Bᵀ(z − μ) over all pixels
+  const outliers = new Outliers(basis, k, new Float64Array(k * k), new Float64Array(k));
+  let lastCount = -1;
+  let share = 0;
+  for (let step = 0; step < steps; step++) {
+    // The noise scale from the sampled pixels' (r/σ)² (as Float32s), their median taken as the
+    // sorted sample's element ⌊n/2⌋ (the upper middle for an even count).
+    samplePass(pass, y, sample);
+    const scale = Math.max(1, quickselect(sample, sample.length >> 1, { scratch: sample }) / chiSquare1Median);
+    const limit = cutoff * cutoff * scale;
+    outliers.reset(full);
+    const count = residualPass(pass, y, limit, outliers);
+    outliers.flush();
     share = count / d;
     // Nothing worth leaving out, or too little left to trust.
-    if (share < 0.001 || share > 0.8) break;
-    if (!solveSymmetric(normal, rhs, k, y)) break;
+    if (share < 0.001 || share > 0.8) return { share, current: true };
+    if (!solveSymmetric(outliers.normal, outliers.rhs, k, y)) return { share, current: true };
     if (count === lastCount) break;
     lastCount = count;
   }
-  return share;
+  return { share, current: false };
+}
+
+/** Left-out pixels gathered before their products are subtracted from the normal equations. */
+const outlierRun = 64;
+
+/**
+ * normal[p·k + q] −= Σ_o g[o, p] · g[o, q] for q ≤ p, and rhs[p] −= Σ_o g[o, p] · g[o, k], over
+ * the `m` gathered rows g[o, ·] (stride k + 1), each sum taken in row order as the per-pixel
+ * loop would; four entries at a time share the pass over the rows.
+ */
+function subtractOuter(gathered: Float64Array, m: number, k: number, normal: Float64Array, rhs: Float64Array): void {
+  const stride = k + 1;
+  for (let p = 0; p < k; p++) {
+    const row = p * k;
+    let q = 0;
+    for (; q + 3 <= p; q += 4) {
+      let a0 = normal[row + q], a1 = normal[row + q + 1], a2 = normal[row + q + 2], a3 = normal[row + q + 3];
+      for (let o = 0, g = 0; o < m; o++, g += stride) {
+        const bp = gathered[g + p];
+        a0 -= bp * gathered[g + q];
+        a1 -= bp * gathered[g + q + 1];
+        a2 -= bp * gathered[g + q + 2];
+        a3 -= bp * gathered[g + q + 3];
+      }
+      normal[row + q] = a0, normal[row + q + 1] = a1, normal[row + q + 2] = a2, normal[row + q + 3] = a3;
+    }
+    // The rest of the row (at most 3 entries up to the diagonal) together with rhs[p].
+    let r = rhs[p];
+    let a0 = q <= p ? normal[row + q] : 0, a1 = q + 1 <= p ? normal[row + q + 1] : 0, a2 = q + 2 <= p ? normal[row + q + 2] : 0;
+    const left = p - q + 1;
+    for (let o = 0, g = 0; o < m; o++, g += stride) {
+      const bp = gathered[g + p];
+      r -= bp * gathered[g + k];
+      if (left > 0) a0 -= bp * gathered[g + q];
+      if (left > 1) a1 -= bp * gathered[g + q + 1];
+      if (left > 2) a2 -= bp * gathered[g + q + 2];
+    }
+    rhs[p] = r;
+    if (left > 0) normal[row + q] = a0;
+    if (left > 1) normal[row + q + 1] = a1;
+    if (left > 2) normal[row + q + 2] = a2;
+  }
 }
 
 /**

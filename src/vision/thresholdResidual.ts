@@ -35,6 +35,10 @@ export interface ThresholdResidualOptions {
  * border the mean is over the pixels inside the image. A threshold of 3 noise units then asks for
  * a local mean of (r/σ)² above 9.
  *
+ * Both passes read memory in raster order: the vertical running sums are kept one per column
+ * and advanced a row at a time. Memory: besides `out` and `scratch` (allocated when not given),
+ * each call allocates one row of `width` Float64 column sums.
+ *
  * @param energy e_i = r_i², row-major (see residualEnergy).
  * @param inverseNoiseVariance 1 / σ_i² per pixel.
  */
@@ -60,10 +64,10 @@ export function thresholdResidual(
   const m = mask.data;
 
   // Horizontal running sums of the normalised energy.
-  for (let y = 0; y < height; y++) {
-    const row = y * width;
+  const lead = Math.min(radius, width);
+  for (let row = 0; row < d; row += width) {
     let sum = 0;
-    for (let x = 0; x < Math.min(radius, width); x++) sum += energy[row + x] * inverseNoiseVariance[row + x];
+    for (let x = 0; x < lead; x++) sum += energy[row + x] * inverseNoiseVariance[row + x];
     for (let x = 0; x < width; x++) {
       const add = x + radius;
       if (add < width) sum += energy[row + add] * inverseNoiseVariance[row + add];
@@ -72,21 +76,25 @@ export function thresholdResidual(
       rows[row + x] = sum;
     }
   }
-  // Vertical running sums, divided by the number of in-image pixels in the window.
+  // Vertical running sums, one per column, divided by the number of in-image pixels in the window.
   const share2 = pixelShare * pixelShare;
+  const map = typeof threshold === 'number' ? undefined : threshold;
   const single = typeof threshold === 'number' ? threshold * threshold * noiseScale : 0;
-  for (let x = 0; x < width; x++) {
-    let sum = 0;
-    for (let y = 0; y < Math.min(radius, height); y++) sum += rows[y * width + x];
-    const nx = Math.min(x + radius, width - 1) - Math.max(x - radius, 0) + 1;
-    for (let y = 0; y < height; y++) {
-      const add = y + radius;
-      if (add < height) sum += rows[add * width + x];
-      const drop = y - radius - 1;
-      if (drop >= 0) sum -= rows[drop * width + x];
-      const ny = Math.min(y + radius, height - 1) - Math.max(y - radius, 0) + 1;
-      const i = y * width + x;
-      const t = typeof threshold === 'number' ? single : threshold[i] * threshold[i] * noiseScale;
+  const columns = new Float64Array(width);
+  for (let y = 0; y < Math.min(radius, height); y++) {
+    for (let x = 0, i = y * width; x < width; x++, i++) columns[x] += rows[i];
+  }
+  for (let y = 0; y < height; y++) {
+    const add = y + radius < height ? (y + radius) * width : -1;
+    const drop = y - radius - 1 >= 0 ? (y - radius - 1) * width : -1;
+    const ny = Math.min(y + radius, height - 1) - Math.max(y - radius, 0) + 1;
+    for (let x = 0, i = y * width; x < width; x++, i++) {
+      let sum = columns[x];
+      if (add >= 0) sum += rows[add + x];
+      if (drop >= 0) sum -= rows[drop + x];
+      columns[x] = sum;
+      const nx = Math.min(x + radius, width - 1) - Math.max(x - radius, 0) + 1;
+      const t = map === undefined ? single : map[i] * map[i] * noiseScale;
       m[i] = sum / (nx * ny) > t && (share2 === 0 || energy[i] * inverseNoiseVariance[i] > t * share2) ? 1 : 0;
     }
   }
