@@ -59,9 +59,10 @@ export function createMaskCounter(
         mask = closed;
       }
       last = mask;
-      let foreground = 0;
-      for (let i = 0; i < d; i++) foreground += mask.data[i];
       const components = labelComponents(mask, { connectivity, out: labels, scratch: labelScratch });
+      // Every set pixel of the mask lies in exactly one blob.
+      let foreground = 0;
+      for (const blob of components.blobs) foreground += blob.area;
       return { ...tallyZones(components.blobs, mask, prepared), blobs: components.blobs, foregroundShare: foreground / d };
     },
     lastMask: () => last,

@@ -1,6 +1,7 @@
-import { outputMask, type Mask } from '../frames/frame.ts';
+import type { Mask } from '../frames/frame.ts';
 import type { ElementShape } from './erode.ts';
 import { morphologyBits } from './morphologyBits.ts';
+import { morphologyInput } from './morphologyInput.ts';
 
 export interface CloseMaskOptions {
   /** Half-size of the structuring element in pixels, integer ≥ 0 (inclusive); 1 → 3×3; 0 copies the mask. Default 1. */
@@ -36,35 +37,6 @@ export interface CloseMaskOptions {
 export function closeMask(mask: Mask, options: CloseMaskOptions = {}): Mask {
   const { radius = 1, shape = 'square', out, scratch } = options;
 
-  const { width, height, data } = mask;
-  if (!Number.isInteger(width) || width < 0 || !Number.isInteger(height) || height < 0) {
-    throw new RangeError(`mask width and height must be non-negative integers, got ${width}×${height}`);
-  }
-  const n = width * height;
-  if (!(data instanceof Uint8Array) || data.length !== n) {
-    throw new RangeError(`mask.data must be a Uint8Array of length ${n} (${width}×${height}), got length ${data?.length}`);
-  }
-  if (!Number.isInteger(radius) || radius < 0) {
-    throw new RangeError(`options.radius must be an integer ≥ 0 (pixels), got ${String(radius)}`);
-  }
-  if (shape !== 'square' && shape !== 'cross') {
-    throw new RangeError(`options.shape must be 'square' or 'cross', got ${String(shape)}`);
-  }
-  const result = outputMask(width, height, out);
-  if (overlaps(result.data, data)) throw new RangeError('options.out must not share memory with the input mask');
-  if (scratch !== undefined) {
-    if (!(scratch instanceof Uint8Array) || scratch.length < 2 * n) {
-      throw new RangeError(`options.scratch must be a Uint8Array of length at least ${2 * n} (2 × ${width}×${height}), got length ${scratch?.length}`);
-    }
-    if (overlaps(scratch, data) || overlaps(scratch, result.data)) {
-      throw new RangeError('options.scratch must not share memory with the input mask or options.out');
-    }
-  }
+  const result = morphologyInput(mask, { radius, shape, out, scratch }, 2);
   return morphologyBits(mask, { steps: ['dilate', 'erode'], radius, shape, out: result, scratch });
-}
-
-/** True when two byte arrays share at least one byte of memory. */
-function overlaps(a: Uint8Array, b: Uint8Array): boolean {
-  if (a.buffer !== b.buffer) return false;
-  return a.byteOffset < b.byteOffset + b.byteLength && b.byteOffset < a.byteOffset + a.byteLength;
 }
