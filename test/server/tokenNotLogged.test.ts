@@ -16,7 +16,7 @@ describe('the admin key', () => {
       expect(key.length).toBeGreaterThan(20);
       const base = `http://127.0.0.1:${service.port}`;
       const zonesUrl = `${base}/api/cameras/reading-room/zones`;
-      const zones = (await (await fetch(zonesUrl)).json()).zones;
+      const zones = ((await (await fetch(zonesUrl)).json()) as { zones: unknown[] }).zones;
       // A good change, a bad change, wrong keys (some of them the key with a character changed) and a burst of failures.
       await fetch(zonesUrl, { method: 'PUT', headers: { Authorization: `Bearer ${key}`, 'Content-Type': 'application/json' }, body: JSON.stringify({ zones }) });
       await fetch(zonesUrl, { method: 'PUT', headers: { Authorization: `Bearer ${key}`, 'Content-Type': 'application/json' }, body: '{"zones": [{"id": "x"}]}' });
