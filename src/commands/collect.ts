@@ -51,7 +51,10 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
     throw error;
   }
   const prune = () => {
-    const { deleted } = store.applyRetention({ sampleDays: config.storage.sampleRetentionDays });
+    const { deleted } = store.applyRetention({
+      sampleDays: config.storage.sampleRetentionDays,
+      ...(config.storage.rollupRetentionDays !== undefined && { rollupDays: config.storage.rollupRetentionDays }),
+    });
     if (deleted > 0) log(`retention: deleted ${deleted} samples older than ${config.storage.sampleRetentionDays} days`);
   };
   let server: Server | undefined;

@@ -51,6 +51,11 @@ export interface ResiduumConfig {
 
 /** Reads and validates a configuration file (YAML; JSON is YAML too). */
 export function loadConfig(file: string): ResiduumConfig {
+  return validateConfig(readConfigDocument(file), file);
+}
+
+/** Reads a YAML (or JSON) configuration file; a missing or unparsable file is a ConfigError naming it. */
+export function readConfigDocument(file: string): unknown {
   let text: string;
   try {
     text = readFileSync(file, 'utf8');
@@ -58,27 +63,34 @@ export function loadConfig(file: string): ResiduumConfig {
     const code = (error as NodeJS.ErrnoException).code;
     throw new ConfigError(`${file}: ${code === 'ENOENT' ? 'no such configuration file' : (error as Error).message}`);
   }
-  let doc: unknown;
   try {
-    doc = parseYaml(text);
+    return parseYaml(text);
   } catch (error) {
     throw new ConfigError(`${file}: not valid YAML (${(error as Error).message.split('\n')[0]})`);
   }
-  return validateConfig(doc, file);
 }
 
-type Fail = (path: string, message: string) => never;
+export type Fail = (path: string, message: string) => never;
 
-/**
- * Validates a parsed configuration. Unknown keys are errors (a misspelt option must not be
- * silently ignored); every message names the file and the field path, e.g.
- * `demo.yaml: cameras[0].source.kind must be one of drop-folder, snapshot, mjpeg, ffmpeg, synthetic, got "usb"`.
- */
-export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
-  const fail: Fail = (path, message) => {
+/** The `fail` of a file's validation: throws a ConfigError starting with the file name. */
+export function configFail(file: string): Fail {
+  return (path, message) => {
     throw new ConfigError(`${file}: ${path} ${message}`);
   };
-  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'cameras', 'mqtt']);
+}
+
+/** The sections every configuration has: site, storage and server (defaults filled in). */
+export interface CommonSections {
+  readonly site: ResiduumConfig['site'];
+  readonly storage: ResiduumConfig['storage'];
+  readonly server: ResiduumConfig['server'];
+}
+
+/**
+ * Validates `site`, `storage` and `server` of a parsed configuration root (the counting service's
+ * and the collector's alike).
+ */
+export function validateCommonSections(root: Record<string, unknown>, fail: Fail, defaultSiteName: string): CommonSections {
   const site = record(root.site ?? {}, 'site', fail, ['name', 'timeZone']);
   const timeZone = site.timeZone ?? Intl.DateTimeFormat().resolvedOptions().timeZone;
   if (typeof timeZone !== 'string' || !isTimeZone(timeZone)) fail('site.timeZone', `must be an IANA time zone such as Europe/Berlin, got ${show(timeZone)}`);
@@ -91,6 +103,22 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   const server = record(root.server ?? {}, 'server', fail, ['host', 'port', 'viewToken']);
   const host = server.host ?? '127.0.0.1';
   if (typeof host !== 'string' || host === '') fail('server.host', `must be a host name or address, got ${show(host)}`);
+  return {
+    site: { name: text(site.name ?? defaultSiteName, 'site.name', fail), timeZone: timeZone as string },
+    storage: { sampleRetentionDays, ...(rollupRetentionDays !== undefined && { rollupRetentionDays }) },
+    server: { host: host as string, port: int(server.port ?? 8080, 'server.port', fail, 0, 65535), viewToken: bool(server.viewToken, 'server.viewToken', fail) ?? false },
+  };
+}
+
+/**
+ * Validates a parsed configuration. Unknown keys are errors (a misspelt option must not be
+ * silently ignored); every message names the file and the field path, e.g.
+ * `demo.yaml: cameras[0].source.kind must be one of drop-folder, snapshot, mjpeg, ffmpeg, synthetic, got "usb"`.
+ */
+export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
+  const fail = configFail(file);
+  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'cameras', 'mqtt']);
+  const common = validateCommonSections(root, fail, 'Residuum site');
   const cameras = root.cameras;
   if (!Array.isArray(cameras) || cameras.length === 0) fail('cameras', 'must be a list of at least one camera');
   const base = dirname(resolve(file));
@@ -103,9 +131,7 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   });
   return {
     file,
-    site: { name: text(site.name ?? 'Residuum site', 'site.name', fail), timeZone: timeZone as string },
-    storage: { sampleRetentionDays, ...(rollupRetentionDays !== undefined && { rollupRetentionDays }) },
-    server: { host: host as string, port: int(server.port ?? 8080, 'server.port', fail, 0, 65535), viewToken: bool(server.viewToken, 'server.viewToken', fail) ?? false },
+    ...common,
     cameras: parsed,
     ...(root.mqtt !== undefined && { mqtt: validateMqttSettings(root.mqtt, { file, base }) }),
   };
@@ -207,13 +233,14 @@ function validateSource(
   }
 }
 
-function record(v: unknown, at: string, fail: Fail, keys: string[]): Record<string, unknown> {
+/** A mapping with only the given keys; the message names the unknown key and lists the known ones. */
+export function record(v: unknown, at: string, fail: Fail, keys: string[]): Record<string, unknown> {
   if (typeof v !== 'object' || v === null || Array.isArray(v)) return fail(at, `must be a mapping (key: value), got ${show(v)}`);
   for (const key of Object.keys(v)) if (!keys.includes(key)) fail(`${at === 'configuration' ? '' : at + '.'}${key}`, `is not a known setting here (known: ${keys.join(', ')})`);
   return v as Record<string, unknown>;
 }
 
-function int(v: unknown, at: string, fail: Fail, min: number, max: number): number {
+export function int(v: unknown, at: string, fail: Fail, min: number, max: number): number {
   if (typeof v !== 'number' || !Number.isInteger(v) || v < min || v > max) fail(at, `must be a whole number from ${min} to ${max}, got ${show(v)}`);
   return v as number;
 }
