@@ -4,7 +4,7 @@ import { fileURLToPath } from 'node:url';
 import { loadConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { tokenNotice } from '../server/tokens.ts';
 import { numberOption, parseOptions } from './args.ts';
-import { logLine, startService } from './run.ts';
+import { logLine, runUntilSignal, startService } from './run.ts';
 
 /** The demo's configuration: two synthetic cameras (invented scenes; nobody real). */
 export const demoConfigFile = fileURLToPath(new URL('../../config/demo.yaml', import.meta.url));
@@ -41,13 +41,7 @@ export async function demoCommand(argv: string[], io = { out: process.stdout }):
   // Once, to standard output, never through the log.
   io.out.write(tokenNotice(service.newTokens));
   io.out.write(`\nDashboard: http://${config.server.host}:${service.port}/\nStop with Ctrl+C.\n\n`);
-  await new Promise<void>((done) => {
-    const stop = () => done();
-    process.once('SIGINT', stop);
-    process.once('SIGTERM', stop);
-  });
-  logLine('stopping');
-  await service.stop();
+  await runUntilSignal(service);
   return 0;
 }
 

@@ -2,6 +2,7 @@ import { createWriteStream, existsSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { once } from 'node:events';
 import { hourlyRows, writeHourlyCsv } from '../outputs/hourlyCsv.ts';
+import Database from 'better-sqlite3';
 import { openStore } from '../store/index.ts';
 import { parseOptions, requireOption, UsageError } from './args.ts';
 
@@ -34,6 +35,7 @@ export async function exportCommand(argv: string[], io = { out: process.stdout }
   const to = requireOption(v.to, 'to', 'last local date (YYYY-MM-DD, inclusive) or ISO 8601 time');
   const file = v.db ?? join(resolve(v.data ?? 'data'), 'residuum.db');
   if (!existsSync(file)) throw new UsageError(`${file}: no database there (run residuum run first, or pass --data/--db)`);
+  assertResiduumDatabase(file);
   const store = openStore(file);
   try {
     const rows = hourlyRows(store, {
@@ -55,4 +57,23 @@ export async function exportCommand(argv: string[], io = { out: process.stdout }
     store.close();
   }
   return 0;
+}
+
+/**
+ * Opening a store migrates it, so a file given by mistake would get Residuum's tables added. Look
+ * first, read-only: a Residuum database has a schema version and a samples table.
+ */
+function assertResiduumDatabase(file: string): void {
+  let db: Database.Database | undefined;
+  try {
+    db = new Database(file, { readonly: true, fileMustExist: true });
+    const version = db.pragma('user_version', { simple: true }) as number;
+    const samples = db.prepare("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = 'samples'").get();
+    if (!(version >= 1 && samples)) throw new RangeError(`${file}: not a Residuum database (no schema version or samples table); nothing was changed`);
+  } catch (error) {
+    if (error instanceof RangeError) throw error;
+    throw new RangeError(`${file}: not a readable SQLite database (${(error as Error).message}); nothing was changed`);
+  } finally {
+    db?.close();
+  }
 }

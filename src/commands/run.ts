@@ -54,6 +54,12 @@ export async function runCommand(argv: string[]): Promise<number> {
   logLine(`dashboard at http://${config.server.host}:${service.port}/`);
   // Straight to stdout, once, never through the log function.
   process.stdout.write(tokenNotice(service.newTokens));
+  await runUntilSignal(service);
+  return 0;
+}
+
+/** Keeps a started service running until SIGINT or SIGTERM, then stops it cleanly. */
+export async function runUntilSignal(service: RunningService): Promise<void> {
   await new Promise<void>((done) => {
     const stop = () => done();
     process.once('SIGINT', stop);
@@ -61,7 +67,6 @@ export async function runCommand(argv: string[]): Promise<number> {
   });
   logLine('stopping');
   await service.stop();
-  return 0;
 }
 
 export function logLine(line: string): void {

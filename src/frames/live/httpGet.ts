@@ -5,6 +5,7 @@
  */
 import http, { type IncomingMessage } from 'node:http';
 import https from 'node:https';
+import { checkText } from './checkOptions.ts';
 
 export interface HttpGetOptions {
   /** User name for HTTP Basic authentication (RFC 7617). Default: the URL's, if any; else none. */
@@ -84,4 +85,22 @@ export function requestFailure(error: unknown): string {
   const code = (error as NodeJS.ErrnoException | undefined)?.code;
   const message = error instanceof Error ? error.message : String(error);
   return code !== undefined && !message.includes(code) ? `${message} (${code})` : message;
+}
+
+/**
+ * Checks a camera URL and the credentials that go with it; returns the parsed URL. Messages name
+ * the field and show the URL without its secrets (redactUrl).
+ */
+export function checkCameraUrl(url: string, username: string | undefined, password: string | undefined): URL {
+  if (username !== undefined) checkText(username, 'username');
+  if (password !== undefined && typeof password !== 'string') throw new TypeError('password must be a string');
+  const name = redactUrl(url);
+  let target: URL;
+  try {
+    target = new URL(url);
+  } catch {
+    throw new RangeError(`url must be an http: or https: URL, got ${name}`);
+  }
+  if (target.protocol !== 'http:' && target.protocol !== 'https:') throw new RangeError(`url must be an http: or https: URL, got ${name}`);
+  return target;
 }

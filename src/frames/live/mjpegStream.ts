@@ -10,7 +10,7 @@ import type { CameraHandlers, CameraSource, SourceState, StatusDetail } from './
 import { checkSize, checkText, checkWhole } from './checkOptions.ts';
 import { systemClock, type Clock } from './clock.ts';
 import { decodeLiveFrame } from './decodeLiveFrame.ts';
-import { httpGet, redactUrl, requestFailure } from './httpGet.ts';
+import { checkCameraUrl, httpGet, redactUrl, requestFailure } from './httpGet.ts';
 import { multipartBoundary, parseMultipart, type MultipartEvent } from './parseMultipart.ts';
 
 export interface MjpegStreamOptions {
@@ -75,16 +75,8 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
   checkWhole(stallMs, 'stallMs', 1);
   checkWhole(maxPartBytes, 'maxPartBytes', 1);
   checkWhole(badFramesBeforeOffline, 'badFramesBeforeOffline', 1);
-  if (username !== undefined) checkText(username, 'username');
-  if (password !== undefined && typeof password !== 'string') throw new TypeError('password must be a string');
+  checkCameraUrl(url, username, password);
   const name = redactUrl(url);
-  let protocol: string;
-  try {
-    protocol = new URL(url).protocol;
-  } catch {
-    throw new RangeError(`url must be an http: or https: URL, got ${name}`);
-  }
-  if (protocol !== 'http:' && protocol !== 'https:') throw new RangeError(`url must be an http: or https: URL, got ${name}`);
   const retry = createRetryScheduler({ ...backoff, clock, random });
   const streak = badFrameStreak(badFramesBeforeOffline);
 

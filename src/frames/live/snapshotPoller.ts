@@ -13,7 +13,7 @@ import type { CameraHandlers, CameraSource, SourceState, StatusDetail } from './
 import { checkSize, checkText, checkWhole } from './checkOptions.ts';
 import { systemClock, type Clock } from './clock.ts';
 import { decodeLiveFrame } from './decodeLiveFrame.ts';
-import { httpGet, redactUrl, requestFailure } from './httpGet.ts';
+import { checkCameraUrl, httpGet, redactUrl, requestFailure } from './httpGet.ts';
 
 export interface SnapshotPollerOptions {
   /** The camera id (for the caller; not sent anywhere). Required. */
@@ -92,18 +92,8 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
   checkWhole(timeoutMs, 'timeoutMs', 1);
   checkWhole(maxBytes, 'maxBytes', 1);
   checkWhole(failuresBeforeOffline, 'failuresBeforeOffline', 1);
-  if (username !== undefined) checkText(username, 'username');
-  if (password !== undefined && typeof password !== 'string') throw new TypeError('password must be a string');
+  const target = checkCameraUrl(url, username, password);
   const name = redactUrl(url);
-  let target: URL;
-  try {
-    target = new URL(url);
-  } catch {
-    throw new RangeError(`url must be an http: or https: URL, got ${name}`);
-  }
-  if (target.protocol !== 'http:' && target.protocol !== 'https:') {
-    throw new RangeError(`url must be an http: or https: URL, got ${name}`);
-  }
   const retry = createRetryScheduler({ ...backoff, clock, random });
   const agent = new (target.protocol === 'https:' ? https.Agent : http.Agent)({ keepAlive: true, maxSockets: 1 });
 
