@@ -3,10 +3,10 @@ import { createMask } from '../frames/frame.ts';
 import type { Blob } from '../vision/labelComponents.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 import { frameNoiseScale } from '../vision/frameNoiseScale.ts';
-import { residualEnergy } from '../vision/residualEnergy.ts';
+import { residualEnergy, sampleCoefficientPixels } from '../vision/residualEnergy.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import type { FrameTally } from '../vision/tallyZones.ts';
-import { createMaskCounter, type MaskCounterOptions } from './createMaskCounter.ts';
+import { COUNTER_STAGES, CounterStage, createMaskCounter, type MaskCounterOptions } from './createMaskCounter.ts';
 import { thresholdResidual } from '../vision/thresholdResidual.ts';
 import type { Zone } from './zone.ts';
 
@@ -21,6 +21,18 @@ export interface CounterOptions extends MaskCounterOptions {
    * default true. The scale is never below 1: a quiet frame keeps the learned thresholds.
    */
   adaptToFrameNoise?: boolean;
+  /**
+   * Solve the subspace coordinates on every n-th pixel (see sampleCoefficientPixels), a whole
+   * number ≥ 1; the residual is still computed at every pixel. Default 3: a third of the cost of
+   * the robust projection, with coordinates that differ from the all-pixel ones by far less than
+   * the noise. 1 uses every pixel.
+   */
+  coefficientStride?: number;
+  /**
+   * Read the clock around every stage and add the times to the counter's `stageTimes`; default
+   * false (then `stageTimes` stays 0).
+   */
+  timeStages?: boolean;
 }
 
 /** Everything counted in one frame. */
@@ -48,6 +60,12 @@ export interface Counter {
   count(frame: GreyFrame): FrameCount;
   /** The foreground mask of the last counted frame (a view of an internal buffer, overwritten by the next count). */
   lastMask(): Mask;
+  /**
+   * Milliseconds spent in each stage (indexed by CounterStage, named by COUNTER_STAGES), summed
+   * over every count since the counter was made or the caller last zeroed it; only with the
+   * `timeStages` option.
+   */
+  readonly stageTimes: Float64Array;
 }
 
 /**
@@ -56,10 +74,12 @@ export interface Counter {
  * buffers are allocated once here and reused for every frame.
  */
 export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): Counter {
-  const { smoothRadius = 1, adaptToFrameNoise = true } = options;
+  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 3, timeStages = false } = options;
   const { width, height } = model;
   const d = width * height;
-  const stages = createMaskCounter(model, zones.length > 0 ? zones : [wholeFrameZone], options);
+  const stageTimes = new Float64Array(COUNTER_STAGES.length);
+  const timed = timeStages ? stageTimes : undefined;
+  const stages = createMaskCounter(model, zones.length > 0 ? zones : [wholeFrameZone], { ...options, stageTimes: timed });
   const prepared = stages.zones;
 
   const inverseNoiseVariance = new Float32Array(d);
@@ -75,14 +95,18 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
   const scratch = new Float32Array(d);
   const sampleScratch = new Float32Array(Math.ceil(d / 7));
   const raw = createMask(width, height);
+  const coefficientSample = coefficientStride > 1 ? sampleCoefficientPixels(model, coefficientStride) : undefined;
 
   return {
     width,
     height,
     zones: prepared,
     count(frame) {
-      const residual = residualEnergy(model, frame, { out: energy, outCoefficients: coefficients, inverseNoiseVariance, scratch: sampleScratch });
+      const t0 = timed === undefined ? 0 : performance.now();
+      const residual = residualEnergy(model, frame, { out: energy, outCoefficients: coefficients, inverseNoiseVariance, scratch: sampleScratch, coefficientSample });
+      const t1 = timed === undefined ? 0 : performance.now();
       const noiseScale = frameNoiseScale(energy, inverseNoiseVariance, { scratch: sampleScratch });
+      const t2 = timed === undefined ? 0 : performance.now();
       thresholdResidual(energy, inverseNoiseVariance, model, {
         threshold: thresholds,
         noiseScale: adaptToFrameNoise ? Math.max(1, noiseScale) : 1,
@@ -90,6 +114,12 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
         out: raw,
         scratch,
       });
+      if (timed !== undefined) {
+        const t3 = performance.now();
+        timed[CounterStage.residual] += t1 - t0;
+        timed[CounterStage.noiseScale] += t2 - t1;
+        timed[CounterStage.threshold] += t3 - t2;
+      }
       return {
         ...stages.count(raw),
         dffs: residual.dffs,
@@ -99,5 +129,6 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
       };
     },
     lastMask: () => stages.lastMask(),
+    stageTimes,
   };
 }

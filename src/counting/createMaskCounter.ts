@@ -13,7 +13,27 @@ export interface MaskCounterOptions extends PrepareZonesOptions {
   closeRadius?: number;
   /** Pixel connectivity of blobs: 4 or 8; default 8. */
   connectivity?: 4 | 8;
+  /**
+   * Where to add each stage's time of every call, milliseconds: entries
+   * CounterStage.morphology, .labelling and .zones (the array is the counter's `stageTimes`);
+   * default none (no clock is read).
+   */
+  stageTimes?: Float64Array;
 }
+
+/** The stages of a counted frame, as indices into a counter's stage times. */
+export const CounterStage = {
+  residual: 0,
+  noiseScale: 1,
+  threshold: 2,
+  morphology: 3,
+  labelling: 4,
+  zones: 5,
+} as const;
+export type CounterStage = (typeof CounterStage)[keyof typeof CounterStage];
+
+/** Stage names in index order, as they appear in metrics and the benchmark. */
+export const COUNTER_STAGES = ['residual', 'noise_scale', 'threshold', 'morphology', 'labelling', 'zones'] as const;
 
 export interface MaskTally extends FrameTally {
   readonly blobs: readonly Blob[];
@@ -38,7 +58,7 @@ export function createMaskCounter(
   zones: readonly Zone[],
   options: MaskCounterOptions = {},
 ): MaskCounter {
-  const { openRadius = 1, closeRadius = 2, connectivity = 8 } = options;
+  const { openRadius = 1, closeRadius = 2, connectivity = 8, stageTimes } = options;
   const { width, height } = size;
   const d = width * height;
   const prepared = prepareZones(zones, size, options);
@@ -51,6 +71,7 @@ export function createMaskCounter(
   return {
     zones: prepared,
     count(raw) {
+      const t0 = stageTimes === undefined ? 0 : performance.now();
       let mask: Mask = raw;
       if (openRadius > 0) mask = openMask(mask, { radius: openRadius, out: opened, scratch: morphScratch });
       if (closeRadius > 0) mask = closeMask(mask, { radius: closeRadius, out: mask === raw ? opened : closed, scratch: morphScratch });
@@ -59,11 +80,20 @@ export function createMaskCounter(
         mask = closed;
       }
       last = mask;
+      const t1 = stageTimes === undefined ? 0 : performance.now();
       const components = labelComponents(mask, { connectivity, out: labels, scratch: labelScratch });
       // Every set pixel of the mask lies in exactly one blob.
       let foreground = 0;
       for (const blob of components.blobs) foreground += blob.area;
-      return { ...tallyZones(components.blobs, mask, prepared), blobs: components.blobs, foregroundShare: foreground / d };
+      const t2 = stageTimes === undefined ? 0 : performance.now();
+      const tally = tallyZones(components.blobs, mask, prepared);
+      if (stageTimes !== undefined) {
+        const t3 = performance.now();
+        stageTimes[CounterStage.morphology] += t1 - t0;
+        stageTimes[CounterStage.labelling] += t2 - t1;
+        stageTimes[CounterStage.zones] += t3 - t2;
+      }
+      return { ...tally, blobs: components.blobs, foregroundShare: foreground / d };
     },
     lastMask: () => last,
   };

@@ -38,6 +38,70 @@ export interface ResidualEnergyOptions {
    * (inclusive), reused instead of allocating; its contents on return are unspecified.
    */
   scratch?: Float32Array;
+  /**
+   * Solve the coordinates y from this pixel sample instead of from every pixel (see
+   * sampleCoefficientPixels); the residual is still computed at every pixel. Default: every pixel.
+   */
+  coefficientSample?: CoefficientSample;
+}
+
+/**
+ * A fixed sample of a model's pixels to solve the coordinates y on: every `stride`-th pixel in
+ * raster order, with their basis rows and Gram matrix B_Sᵀ B_S precomputed. Built once per model
+ * by sampleCoefficientPixels; the mean and noise are read from the model on every frame, so a
+ * mean updated in place is followed (a changed basis needs a new sample).
+ */
+export interface CoefficientSample {
+  /** The basis it was built from (checked on use). */
+  readonly basis: Float32Array;
+  /** Every stride-th pixel, a whole number ≥ 1. */
+  readonly stride: number;
+  /** The sampled pixels' indices, increasing. */
+  readonly pixels: Int32Array;
+  /** Their basis rows, pixel-major like Subspace.basis. */
+  readonly sampledBasis: Float32Array;
+  /** B_Sᵀ B_S, k×k row-major (lower triangle used). */
+  readonly gram: Float64Array;
+  /** Work buffers for z − μ… of the sample, reused frame after frame. */
+  readonly z: Float32Array;
+  readonly mean: Float32Array;
+  readonly weight: Float32Array;
+  readonly energy: Float32Array;
+  readonly noiseSample: Float32Array;
+}
+
+/**
+ * The pixel sample for residualEnergy's `coefficientSample`: every `stride`-th pixel in raster
+ * order (stride a whole number ≥ 1). With a width that is not a multiple of the stride the sample
+ * is a slanted lattice that covers the frame evenly; the k coordinates are then least-squares
+ * fits on d / stride pixels instead of d, which for k ≪ d / stride changes them by far less than
+ * the noise (their variance grows by the factor stride).
+ */
+export function sampleCoefficientPixels(model: Subspace, stride: number): CoefficientSample {
+  if (!(Number.isInteger(stride) && stride >= 1)) throw new RangeError(`stride must be a whole number ≥ 1, got ${stride}`);
+  const { width, height, components: k, basis } = model;
+  const d = width * height;
+  const n = Math.ceil(d / stride);
+  const pixels = new Int32Array(n);
+  const sampledBasis = new Float32Array(n * k);
+  for (let s = 0, i = 0; s < n; s++, i += stride) {
+    pixels[s] = i;
+    sampledBasis.set(basis.subarray(i * k, i * k + k), s * k);
+  }
+  const gram = new Float64Array(k * k);
+  for (let s = 0; s < n; s++) {
+    const b = s * k;
+    for (let p = 0; p < k; p++) {
+      const bp = sampledBasis[b + p];
+      for (let q = 0; q <= p; q++) gram[p * k + q] += bp * sampledBasis[b + q];
+    }
+  }
+  const buffer = () => new Float32Array(n);
+  return {
+    basis, stride, pixels, sampledBasis, gram,
+    z: buffer(), mean: buffer(), weight: buffer(), energy: buffer(),
+    noiseSample: new Float32Array(Math.ceil(n / scaleStride)),
+  };
 }
 
 /** Pixels sampled for the robust noise scale: every 7th. */
@@ -74,7 +138,7 @@ export function residualEnergy(
   frame: GreyFrame,
   options: ResidualEnergyOptions = {},
 ): ResidualEnergy {
-  const { out, outCoefficients, inverseNoiseVariance, robustSteps = 3, robustCutoff = 3, scratch } = options;
+  const { out, outCoefficients, inverseNoiseVariance, robustSteps = 3, robustCutoff = 3, scratch, coefficientSample } = options;
   const { width, height, components: k, mean, basis, eigenvalues, noise } = model;
   if (frame.width !== width || frame.height !== height) {
     throw new RangeError(`frame is ${frame.width}×${frame.height}, the model is ${width}×${height}`);
@@ -91,16 +155,19 @@ export function residualEnergy(
   }
   const z = frame.data;
   const pass: Pass = { z, mean, basis, k, weight, energy, dffs: 0, normalised: 0 };
-
-  // y = Bᵀ(z − μ), the pixel-major basis read as one stream.
-  project(pass, y);
   let outlierShare = 0;
   let current = false; // whether pass.energy, dffs and normalised are those of the current y
-  if (k > 0 && robustSteps > 0) {
-    const sample = scratch ?? new Float32Array(samples);
-    const robust = robustProject(pass, y, robustSteps, robustCutoff, sample.length === samples ? sample : sample.subarray(0, samples));
-    outlierShare = robust.share;
-    current = robust.current;
+  if (coefficientSample !== undefined && k > 0) {
+    outlierShare = sampledCoefficients(pass, coefficientSample, y, robustSteps, robustCutoff);
+  } else {
+    // y = Bᵀ(z − μ), the pixel-major basis read as one stream.
+    project(pass, y);
+    if (k > 0 && robustSteps > 0) {
+      const sample = scratch ?? new Float32Array(samples);
+      const robust = robustProject(pass, y, robustSteps, robustCutoff, sample.length === samples ? sample : sample.subarray(0, samples), undefined);
+      outlierShare = robust.share;
+      current = robust.current;
+    }
   }
   // r = (z − μ) − B y.
   if (!current) residualPass(pass, y, Infinity, undefined);
@@ -144,6 +211,30 @@ function kernelWidth(k: number): number {
 function kernelEnd(d: number, k: number, width: number): number {
   if (width === 0 || k === 0) return 0;
   return Math.max(0, d - Math.ceil((width - k) / k));
+}
+
+/**
+ * y from the pixel sample: the least-squares coordinates y = (B_Sᵀ B_S)⁻¹ B_Sᵀ (z − μ)_S, then the
+ * robust steps on the sample as on the full frame. Returns the last left-out share of the sample.
+ */
+function sampledCoefficients(pass: Pass, sample: CoefficientSample, y: Float64Array, steps: number, cutoff: number): number {
+  const { k } = pass;
+  if (sample.basis !== pass.basis || sample.sampledBasis.length !== sample.pixels.length * k) {
+    throw new RangeError('coefficientSample was built for another model');
+  }
+  const { pixels, z, mean, weight } = sample;
+  for (let s = 0; s < pixels.length; s++) {
+    const i = pixels[s];
+    z[s] = pass.z[i];
+    mean[s] = pass.mean[i];
+    weight[s] = pass.weight[i];
+  }
+  const sub: Pass = { z, mean, basis: sample.sampledBasis, k, weight, energy: sample.energy, dffs: 0, normalised: 0 };
+  const rhs = new Float64Array(k);
+  project(sub, rhs);
+  if (!solveSymmetric(sample.gram, rhs, k, y)) y.fill(0);
+  if (steps <= 0) return 0;
+  return robustProject(sub, y, steps, cutoff, sample.noiseSample, sample.gram).share;
 }
 
 /** y_j = coordinate j, or 0 past k. */
@@ -403,15 +494,20 @@ class Outliers {
     private readonly k: number,
     readonly normal: Float64Array,
     readonly rhs: Float64Array,
+    /** BᵀB when it is not the identity (a pixel sample). */
+    private readonly gram?: Float64Array,
   ) {
     this.gathered = new Float64Array(outlierRun * (k + 1));
   }
 
-  /** Starts a step: normal = I, rhs = full. */
+  /** Starts a step: normal = BᵀB (I for the full orthonormal basis), rhs = full. */
   reset(full: Float64Array): void {
-    const { k, normal, rhs } = this;
-    normal.fill(0);
-    for (let j = 0; j < k; j++) normal[j * k + j] = 1;
+    const { k, normal, rhs, gram } = this;
+    if (gram !== undefined) normal.set(gram);
+    else {
+      normal.fill(0);
+      for (let j = 0; j < k; j++) normal[j * k + j] = 1;
+    }
     rhs.set(full);
     this.run = 0;
   }
@@ -442,11 +538,13 @@ function robustProject(
   steps: number,
   cutoff: number,
   sample: Float32Array,
+  gram: Float64Array | undefined,
 ): { share: number; current: boolean } {
   const { basis, k } = pass;
   const d = pass.z.length;
-  const full = Float64Array.from(y); // Bᵀ(z − μ) over all pixels
-  const outliers = new Outliers(basis, k, new Float64Array(k * k), new Float64Array(k));
+  // Bᵀ(z − μ) over all pixels: y itself when BᵀB = I, else G y.
+  const full = gram === undefined ? Float64Array.from(y) : symmetricTimes(gram, y, k);
+  const outliers = new Outliers(basis, k, new Float64Array(k * k), new Float64Array(k), gram);
   let lastCount = -1;
   let share = 0;
   for (let step = 0; step < steps; step++) {
@@ -508,6 +606,17 @@ function subtractOuter(gathered: Float64Array, m: number, k: number, normal: Flo
     if (left > 1) normal[row + q + 1] = a1;
     if (left > 2) normal[row + q + 2] = a2;
   }
+}
+
+/** A y for symmetric A (lower triangle given, row-major k×k). */
+function symmetricTimes(a: Float64Array, y: Float64Array, k: number): Float64Array {
+  const out = new Float64Array(k);
+  for (let p = 0; p < k; p++) {
+    let sum = 0;
+    for (let q = 0; q < k; q++) sum += (q <= p ? a[p * k + q] : a[q * k + p]) * y[q];
+    out[p] = sum;
+  }
+  return out;
 }
 
 /**

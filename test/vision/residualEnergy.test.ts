@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { Matrix } from 'ml-matrix';
+import { Matrix, solve } from 'ml-matrix';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
-import { residualEnergy } from '../../src/vision/residualEnergy.ts';
+import { residualEnergy, sampleCoefficientPixels } from '../../src/vision/residualEnergy.ts';
 import { mulberry } from '../helpers/random.ts';
 
 describe('residualEnergy', () => {
@@ -82,5 +82,45 @@ describe('residualEnergy', () => {
     expect(residualEnergy(model, { width, height, data: z }, { out }).energy).toBe(out);
     expect(() => residualEnergy(model, { width: height, height: width, data: z })).toThrow(/8×12/);
     expect(() => residualEnergy(model, { width, height, data: z }, { out: new Float32Array(3) })).toThrow(/length 3/);
+  });
+
+  it('solves the coordinates on a pixel sample by least squares, and still gives every pixel its residual', () => {
+    const z = Float32Array.from({ length: d }, () => rand() * 255);
+    const sample = sampleCoefficientPixels(model, 3);
+    expect(Array.from(sample.pixels.slice(0, 4))).toEqual([0, 3, 6, 9]);
+    const result = residualEnergy(model, { width, height, data: z }, { robustSteps: 0, coefficientSample: sample });
+    // check: ml-matrix solve of the normal equations on the sampled rows (an independent route)
+    const k = model.components;
+    const rows = Array.from(sample.pixels);
+    const Bs = new Matrix(rows.map((i) => Array.from(model.basis.subarray(i * k, i * k + k))));
+    const cs = Matrix.columnVector(rows.map((i) => z[i] - model.mean[i]));
+    const y = solve(Bs.transpose().mmul(Bs), Bs.transpose().mmul(cs));
+    for (let j = 0; j < k; j++) expect(result.coefficients[j]).toBeCloseTo(y.get(j, 0), 3);
+    for (let i = 0; i < d; i++) {
+      let r = z[i] - model.mean[i];
+      for (let j = 0; j < k; j++) r -= model.basis[i * k + j] * y.get(j, 0);
+      expect(result.energy[i]).toBeCloseTo(r * r, 1);
+    }
+  });
+
+  it('gives the same robust coordinates from a pixel sample as from every pixel, up to noise', () => {
+    // The gain scene of the robust test, at a size where a third of the pixels is still many.
+    const w = 64;
+    const h = 48;
+    const n = w * h;
+    const base = Float32Array.from({ length: n }, (_, i) => 60 + (i % w) + 20 * Math.sin(i / 17));
+    const noise = mulberry(11);
+    const learn = Array.from({ length: 30 }, (_, t) => Float32Array.from(base, (v) => v * (0.8 + 0.4 * (t / 29)) + 4 * (noise() - 0.5)));
+    const gainModel = fitSubspace(learn, { width: w, height: h }, { components: 2 });
+    const z = Float32Array.from(base, (v) => v * 1.1 + 4 * (noise() - 0.5));
+    for (let y = 8; y < 30; y++) for (let x = 10; x < 30; x++) z[y * w + x] = 250;
+    const all = residualEnergy(gainModel, { width: w, height: h, data: z });
+    const sampled = residualEnergy(gainModel, { width: w, height: h, data: z }, { coefficientSample: sampleCoefficientPixels(gainModel, 3) });
+    // The gain coordinate is about √Σμ² · 0.1 ≈ hundreds of grey levels; noise moves it by well under one.
+    expect(Math.abs(all.coefficients[0])).toBeGreaterThan(100);
+    expect(Math.abs(sampled.coefficients[0] - all.coefficients[0])).toBeLessThan(1);
+    expect(sampled.outlierShare).toBeGreaterThan(0.1);
+    expect(Math.abs(sampled.dffs - all.dffs) / all.dffs).toBeLessThan(0.01);
+    expect(() => residualEnergy(model, { width, height, data: z.subarray(0, d) }, { coefficientSample: sampleCoefficientPixels(gainModel, 3) })).toThrow(/another model/);
   });
 });
