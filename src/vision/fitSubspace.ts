@@ -1,5 +1,6 @@
 import type { Subspace } from './subspace.ts';
 import { dilate } from './dilate.ts';
+import { gramMatrixSimd } from './gramKernel.ts';
 import { symmetricEigen } from './symmetricEigen.ts';
 
 export interface FitSubspaceOptions {
@@ -383,10 +384,13 @@ function meanOf(frames: readonly Float32Array[], d: number): Float32Array {
 }
 
 /**
- * G = XᵀX: blocks of 4×4 frame pairs over pixel tiles, so each loaded pixel value serves four
+ * G = XᵀX, by the WebAssembly SIMD kernel where it runs (see gramMatrixSimd), else here in JS:
+ * blocks of 4×4 frame pairs over pixel tiles, so each loaded pixel value serves four
  * products and a tile of every frame stays in cache while all pairs use it.
  */
 function gramMatrix(centred: readonly Float32Array[], d: number): Float64Array {
+  const simd = gramMatrixSimd(centred, d);
+  if (simd !== undefined) return simd;
   const n = centred.length;
   const gram = new Float64Array(n * n);
   const zero = new Float32Array(d);
