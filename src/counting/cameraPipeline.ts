@@ -7,6 +7,7 @@ import type { Store } from '../store/index.ts';
 import { QualityFlag, type Sample } from '../store/samples.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { createCounter, type Counter } from './createCounter.ts';
+import { createPersonSizeReservoir, type PersonSizeSuggestion } from './createPersonSizeReservoir.ts';
 import { slidingWindow, type SlidingWindow } from './smoothCounts.ts';
 import type { Zone } from './zone.ts';
 
@@ -34,6 +35,8 @@ export interface CameraLive {
   readonly lastFrameAt?: number;
   readonly reason?: string;
   readonly zones: readonly ZoneLive[];
+  /** The person size learned from blobs of people seen alone (numbers only; see createPersonSizeReservoir). */
+  readonly personSize?: PersonSizeSuggestion;
 }
 
 export interface CameraPipelineOptions {
@@ -130,8 +133,11 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   let zones = camera.zones;
   let counter: Counter | undefined = model ? createCounter(model, zones, { threshold: camera.threshold }) : undefined;
   let accumulators = makeAccumulators(zones);
+  const personSizes = createPersonSizeReservoir({ width, height });
   let state: CameraLive['state'] = 'connecting';
   let reason: string | undefined;
+  /** Offline since the last `online`: the `connecting` of each retry does not end the outage. */
+  let outage = false;
   let lastFrameAt: number | undefined;
   let intervalStart: number | undefined;
   let quality = 0;
@@ -257,6 +263,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       log(`camera ${camera.id}: view ${changed ? 'changed (counts marked unreliable)' : 'restored'}`);
     }
     if (changed) quality |= QualityFlag.viewChanged;
+    else personSizes.observe(result, counter.zones);
     for (const a of accumulators) {
       const z = result.zones[a.zone.id];
       a.smoothedCount = a.count.push(z.count);
@@ -302,6 +309,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       if (state === 'stopped') return;
       model = learned;
       counter = createCounter(model, zones, { threshold: camera.threshold });
+      // A new empty scene may mean the camera moved: sizes seen before no longer apply.
+      personSizes.clear();
       onModel?.(model);
       learnState = {
         ...learnState,
@@ -336,13 +345,23 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     reason = detail.reason;
     if (next === 'offline') {
       dropInterval();
-      if (was !== 'offline') {
+      if (was !== 'offline' && !outage) {
         event('offline', { reason: detail.reason ?? null }, undefined, detail.at);
         log(`camera ${camera.id}: offline${detail.reason ? ` (${detail.reason})` : ''}`);
       }
-    } else if (next === 'online' && was === 'offline') {
+      outage = true;
+    } else if (next === 'online' && (was === 'offline' || outage)) {
+      outage = false;
       event('online', {}, undefined, detail.at);
       log(`camera ${camera.id}: online`);
+    }
+    const { previousSourceSize: from, sourceSize: to } = detail;
+    if (next === 'online' && from !== undefined && to !== undefined) {
+      // The camera's resolution changed, same aspect ratio (see cameraSource.ts): the frames are
+      // now resized from another size, so the model may fit less well. Once per change; counting goes on.
+      event('view-changed', { reason: 'source size changed', from: { width: from.width, height: from.height }, to: { width: to.width, height: to.height } }, undefined, detail.at);
+      log(`camera ${camera.id}: view changed (${detail.reason ?? 'source size changed'}; counts marked unreliable)`);
+      quality |= QualityFlag.viewChanged;
     }
     if (counter || next !== 'online') state = next;
     publish();
@@ -370,6 +389,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
           fill: Math.round(a.smoothedFill * 10000) / 10000,
           ...(a.zone.capacity !== undefined && { capacity: a.zone.capacity }),
         })),
+        personSize: personSizes.suggestion(),
       };
     },
     model: () => model,

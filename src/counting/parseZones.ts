@@ -1,5 +1,5 @@
 import { parse as parseYaml } from 'yaml';
-import { AnchorPoint, ZoneKind, type NormalisedPoint, type Zone } from './zone.ts';
+import { AnchorPoint, ZoneKind, type NormalisedPoint, type PerspectiveReference, type Zone } from './zone.ts';
 
 /** A zones file or configuration section that does not validate; the message names the field. */
 export class ZoneError extends Error {
@@ -20,7 +20,7 @@ const idPattern = /^[A-Za-z0-9][A-Za-z0-9_-]{0,63}$/;
  *     personArea: 0.009     # optional, fraction of the frame area
  *     perspective:          # optional, instead of personArea: reference people (foot y, area)
  *       - { y: 0.55, area: 0.005 }
- *       - { y: 0.95, area: 0.014 }
+ *       - { y: 0.95, area: 0.014, x: 0.4, height: 0.24 }   # a box: foot x and box height too
  *     minBlobArea: 0.002    # optional, fraction of the frame area
  *     threshold: 3          # optional, noise units
  *     anchor: foot          # optional: foot | centroid
@@ -90,16 +90,17 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
   if (capacity !== undefined && (typeof capacity !== 'number' || !Number.isInteger(capacity) || capacity < 0)) {
     fail('capacity', `must be a whole number ≥ 0, got ${show(capacity)}`);
   }
-  let perspective: { y: number; area: number }[] | undefined;
+  let perspective: PerspectiveReference[] | undefined;
   if (z.perspective !== undefined) {
-    if (!Array.isArray(z.perspective) || z.perspective.length < 2) fail('perspective', 'must be a list of at least 2 reference people {y, area}');
-    perspective = (z.perspective as unknown[]).map((r, i) => {
-      if (!isRecord(r)) return fail(`perspective[${i}]`, 'must be {y, area}');
-      if (typeof r.y !== 'number' || !(r.y >= 0 && r.y <= 1)) fail(`perspective[${i}].y`, `must be the foot row in 0..1, got ${show(r.y)}`);
-      if (typeof r.area !== 'number' || !(r.area > 0 && r.area <= 1)) fail(`perspective[${i}].area`, `must be a fraction of the frame area in (0, 1], got ${show(r.area)}`);
-      return { y: r.y as number, area: r.area as number };
-    });
+    if (!Array.isArray(z.perspective) || z.perspective.length < 2) fail('perspective', 'must be a list of at least 2 reference people {y, area} or boxes {x, y, area, height}');
+    const list = z.perspective as unknown[];
+    if (list.length > 100) fail('perspective', `has ${list.length} reference people; at most 100`);
+    perspective = list.map((r, i) => validateReference(r, (field, message) => fail(`perspective[${i}]${field}`, message)));
     if (new Set(perspective.map((r) => r.y)).size < 2) fail('perspective', 'needs reference people at two or more different heights (y)');
+    const rows = perspective.map((r) => r.y);
+    if (Math.max(...rows) - Math.min(...rows) < MIN_REFERENCE_SPREAD) {
+      fail('perspective', `needs reference people whose feet are at least ${MIN_REFERENCE_SPREAD} of the frame height apart (y), got ${show(Math.max(...rows) - Math.min(...rows))}`);
+    }
   }
   const zone: Zone = {
     id: z.id as string,
@@ -114,6 +115,34 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
     ...(capacity !== undefined && { capacity: capacity as number }),
   };
   return zone;
+}
+
+/** Smallest spread of the reference people's foot rows (normalised, inclusive): closer rows give a wild slope. */
+const MIN_REFERENCE_SPREAD = 0.02;
+/** Rounding allowance when checking that a reference box lies in the frame (normalised). */
+const BOX_SLACK = 1e-6;
+
+/**
+ * Checks one perspective reference: `{y, area}`, or a box `{x, y, area, height}` (foot point at
+ * the bottom centre, width area / height) that must lie inside the frame.
+ */
+function validateReference(raw: unknown, fail: (field: string, message: string) => never): PerspectiveReference {
+  if (!isRecord(raw)) return fail('', 'must be {y, area} or a box {x, y, area, height}');
+  for (const key of Object.keys(raw)) if (!['x', 'y', 'area', 'height'].includes(key)) fail(`.${key}`, 'is not a reference field (known: x, y, area, height)');
+  const { x, y, area, height } = raw;
+  if (typeof y !== 'number' || !(y >= 0 && y <= 1)) fail('.y', `must be the foot row in 0..1, got ${show(y)}`);
+  if (typeof area !== 'number' || !(area > 0 && area <= 1)) fail('.area', `must be a fraction of the frame area in (0, 1], got ${show(area)}`);
+  if ((x === undefined) !== (height === undefined)) fail('', 'needs both x and height (a box) or neither');
+  if (x === undefined) return { y: y as number, area: area as number };
+  if (typeof x !== 'number' || !(x >= 0 && x <= 1)) fail('.x', `must be the foot point's x in 0..1, got ${show(x)}`);
+  if (typeof height !== 'number' || !(height > 0 && height <= 1)) fail('.height', `must be the box height as a fraction of the frame height in (0, 1], got ${show(height)}`);
+  const [fx, fy, a, h] = [x as number, y as number, area as number, height as number];
+  const width = a / h;
+  if (fy - h < -BOX_SLACK) fail('', `is a box reaching above the top of the frame (y − height = ${show(fy - h)})`);
+  if (fx - width / 2 < -BOX_SLACK || fx + width / 2 > 1 + BOX_SLACK) {
+    fail('', `is a box reaching past the ${fx - width / 2 < -BOX_SLACK ? 'left' : 'right'} edge of the frame (x ${show(fx)} ± width/2 ${show(width / 2)}, width = area / height)`);
+  }
+  return { x: fx, y: fy, area: a, height: h };
 }
 
 /** Checks a polygon: ≥ 3 vertices, each [x, y] with finite numbers in 0..1, simple, non-zero area. */

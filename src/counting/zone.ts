@@ -21,6 +21,22 @@ export type AnchorPoint = (typeof AnchorPoint)[keyof typeof AnchorPoint];
 /** A point [x, y] in normalised image coordinates (0..1 inclusive). */
 export type NormalisedPoint = readonly [number, number];
 
+/**
+ * A reference person: where their feet were and the area they covered. Drawn as a box in the
+ * dashboard, it also has the foot point's x and the box height; the box is then `area / height`
+ * wide, centred on x, with its bottom edge at y.
+ */
+export interface PerspectiveReference {
+  /** Foot row, normalised (0 top .. 1 bottom, inclusive). */
+  readonly y: number;
+  /** Area of one person there, fraction of the frame area, in (0, 1]. */
+  readonly area: number;
+  /** Box only: foot point's x, normalised (0 left .. 1 right, inclusive). */
+  readonly x?: number;
+  /** Box only: the box height, fraction of the frame height, in (0, 1]. */
+  readonly height?: number;
+}
+
 export interface Zone {
   /** Stable identifier: letters, digits, `-` and `_`; used in output keys and the database. */
   readonly id: string;
@@ -42,7 +58,13 @@ export interface Zone {
    * area they covered (fraction of the frame). The expected person area then follows the foot
    * point's y (see fitPersonArea) instead of the single `personArea`.
    */
-  readonly perspective?: readonly { readonly y: number; readonly area: number }[];
+  readonly perspective?: readonly PerspectiveReference[];
   /** Capacity in people (rooms); informational for the counting engine. */
   readonly capacity?: number;
+  /**
+   * Seconds a changed but static object (a box put down, a chair moved) must stay before it
+   * becomes background, > 0; absent (the default, and right for rooms, where people sit still
+   * for long): never. See createDriftingCounter.
+   */
+  readonly absorbSeconds?: number;
 }

@@ -19,6 +19,7 @@ import { healthRoutes } from './routes/health.ts';
 import { historyRoutes } from './routes/history.ts';
 import { learnRoutes } from './routes/learn.ts';
 import { liveRoutes } from './routes/live.ts';
+import { personSizeRoutes } from './routes/personSize.ts';
 import { settingsRoutes } from './routes/settings.ts';
 import type { ServiceControl } from './serviceControl.ts';
 import type { Metrics } from '../outputs/metrics.ts';
@@ -133,6 +134,7 @@ export function createApp(deps: AppDeps): express.Express {
   api.use(exportRoutes(ctx));
   api.use(cameraRoutes(ctx));
   api.use(learnRoutes(ctx));
+  api.use(personSizeRoutes(ctx));
   api.use(settingsRoutes(ctx));
   api.use(capacityRoutes(ctx));
   api.use((_req, _res, next) => next(new HttpError(404, 'no such API route')));

@@ -14,7 +14,7 @@ import { checkEpochMs, checkId, checkInt, checkNumber, checkOneOf, checkText } f
  */
 
 /** Field order of the stored settings JSON (and of history rows for one change). */
-const ZONE_FIELDS = ['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'anchor', 'capacity'] as const;
+const ZONE_FIELDS = ['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'perspective', 'anchor', 'capacity'] as const;
 
 export interface ZoneRecord {
   readonly camera: string;
@@ -79,6 +79,16 @@ export function normaliseZone(zone: Zone, field = 'zone'): Zone {
   if (zone.threshold !== undefined) checkNumber(zone.threshold, `${field}.threshold`, 0, 1e6);
   if (zone.minBlobArea !== undefined) checkNumber(zone.minBlobArea, `${field}.minBlobArea`, 0, 1);
   if (zone.personArea !== undefined) checkNumber(zone.personArea, `${field}.personArea`, 0, 1);
+  if (zone.perspective !== undefined) {
+    if (!Array.isArray(zone.perspective) || zone.perspective.length < 2) throw new RangeError(`${field}.perspective: expected an array of at least 2 reference people`);
+    zone.perspective.forEach((r, i) => {
+      if (typeof r !== 'object' || r === null) throw new TypeError(`${field}.perspective[${i}]: expected {y, area} or {x, y, area, height}`);
+      checkNumber(r.y, `${field}.perspective[${i}].y`, 0, 1);
+      checkNumber(r.area, `${field}.perspective[${i}].area`, 0, 1);
+      if (r.x !== undefined) checkNumber(r.x, `${field}.perspective[${i}].x`, 0, 1);
+      if (r.height !== undefined) checkNumber(r.height, `${field}.perspective[${i}].height`, 0, 1);
+    });
+  }
   if (zone.anchor !== undefined) checkOneOf(zone.anchor, `${field}.anchor`, AnchorPoint);
   if (zone.capacity !== undefined) checkInt(zone.capacity, `${field}.capacity`, 0, 1_000_000);
   const out: Record<string, unknown> = {};

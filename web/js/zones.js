@@ -1,6 +1,7 @@
 // "Zones": draw, move and delete zone polygons over the learned empty scene, set each zone's
-// figures, preview the coarse foreground mask, learn the empty scene again, and see the history
-// of changes. Coordinates are normalised like the server's: x 0..1 from the left, y 0..1 from the top.
+// figures, place reference people (boxes whose size the expected person follows with the distance),
+// preview the coarse foreground mask, learn the empty scene again, and see the history of changes.
+// Coordinates are normalised like the server's: x 0..1 from the left, y 0..1 from the top.
 import { api, apiBlob, explain } from './api.js';
 import { $, $$, h, replace } from './dom.js';
 import { dateTime, percent } from './format.js';
@@ -11,7 +12,18 @@ const HINTS = {
   select: 'Click a zone to select it; drag the zone or its corners to move them. Double-click an edge to add a corner, a corner to remove it.',
   draw: 'Click to place corners; click the first corner again (or press Enter) to close the zone. Esc cancels.',
   person: 'Drag a box around where one person would stand or sit in the selected zone: its share of the frame becomes “one person covers”.',
+  refs: 'Drag a box around where one person would stand, feet on its bottom edge. Drag a box to move it, a corner to resize it; Delete removes the selected box, arrow keys move it. Place two or more, near and far: the dashed outline then shows the size expected where the pointer is.',
 };
+/** Smallest reference box, share of the frame's width and height: a click is not a box. */
+const MIN_BOX = 0.005;
+/** Reference people's feet must span at least this share of the frame height (as the server checks). */
+const MIN_REF_SPREAD = 0.02;
+/** Height ÷ width in pixels of a standing person, for references given without a box (common practice). */
+const PERSON_ASPECT_PX = 2.5;
+/** Smallest expected area, share of the frame (as the server's fit). */
+const MIN_AREA = 0.0002;
+/** The learned size fills boxes at these shares of the zone's rows. */
+const LEARNED_ROWS = [0.1, 0.5, 0.9];
 
 export function createZonesView(app) {
   const canvas = $('#zone-canvas');
@@ -32,6 +44,9 @@ export function createZonesView(app) {
   let cursor;
   let drag;
   let personBox;
+  let refSelected = -1;
+  let refDraft;
+  let guide;
   let background;
   let frame = { width: 4, height: 3 };
   let mask;
@@ -64,6 +79,9 @@ export function createZonesView(app) {
     selected = draft.length > 0 ? 0 : -1;
     drawing = [];
     personBox = undefined;
+    refSelected = -1;
+    refDraft = undefined;
+    guide = undefined;
     mask = undefined;
     errorEl.textContent = '';
     okEl.textContent = '';
@@ -195,6 +213,7 @@ export function createZonesView(app) {
         g.stroke();
       });
     }
+    drawReferences(P, dpr);
     if (personBox) {
       const [a, b] = personBox;
       const [x0, y0] = P([Math.min(a[0], b[0]), Math.min(a[1], b[1])]);
@@ -216,6 +235,283 @@ export function createZonesView(app) {
       g.fillStyle = '#a8382b';
       g.fillText(label, x0, ly);
     }
+  }
+
+  // ---- reference people ------------------------------------------------------------------
+
+  /** The selected zone when it is a room (reference people are for rooms), else undefined. */
+  const refZone = () => (draft[selected]?.kind === 'room' ? draft[selected] : undefined);
+  const refsOf = (z) => z?.perspective ?? [];
+  /** Height ÷ width of a standing person as shares of the frame's height and width. */
+  const defaultAspect = () => (PERSON_ASPECT_PX * frame.width) / frame.height;
+
+  /** A reference's box { x0, y0, x1, y1 }; one given without a box gets a standing person's shape in the zone's middle. */
+  function refRect(z, r) {
+    if (r.x !== undefined && r.height !== undefined) {
+      const w = r.area / r.height;
+      return { x0: r.x - w / 2, y0: r.y - r.height, x1: r.x + w / 2, y1: r.y };
+    }
+    const h = Math.min(r.y, Math.sqrt(r.area * defaultAspect()));
+    const w = Math.min(1, r.area / h);
+    const x = Math.min(1 - w / 2, Math.max(w / 2, middleAtRow(z.polygon, r.y)));
+    return { x0: x - w / 2, y0: r.y - h, x1: x + w / 2, y1: r.y };
+  }
+
+  /** The zones API's reference for a box: foot point (bottom centre), area and height, rounded. */
+  function refFromRect(rect) {
+    const x0 = round4(clamp01(Math.min(rect.x0, rect.x1)));
+    const x1 = round4(clamp01(Math.max(rect.x0, rect.x1)));
+    const y0 = round4(clamp01(Math.min(rect.y0, rect.y1)));
+    const y1 = round4(clamp01(Math.max(rect.y0, rect.y1)));
+    const w = round4(x1 - x0);
+    const h = round4(y1 - y0);
+    return { x: Math.round(((x0 + x1) / 2) * 100000) / 100000, y: y1, area: Number((w * h).toPrecision(8)), height: h };
+  }
+
+  /** √area fitted by least squares in the foot row (as the server's fitPersonArea); undefined without two rows far enough apart. */
+  function fitRefs(refs) {
+    if (refs.length < 2) return undefined;
+    const ys = refs.map((r) => r.y);
+    if (Math.max(...ys) - Math.min(...ys) < MIN_REF_SPREAD) return undefined;
+    const my = ys.reduce((a, b) => a + b, 0) / refs.length;
+    const ms = refs.reduce((a, r) => a + Math.sqrt(r.area), 0) / refs.length;
+    let sxy = 0;
+    let sxx = 0;
+    for (const r of refs) {
+      sxy += (r.y - my) * (Math.sqrt(r.area) - ms);
+      sxx += (r.y - my) ** 2;
+    }
+    const slope = sxy / sxx;
+    const intercept = ms - slope * my;
+    return { intercept, slope, areaAt: (y) => Math.max(MIN_AREA, Math.max(0, intercept + slope * y) ** 2) };
+  }
+
+  /** Median height ÷ width (shares of the frame) of the zone's boxes, or a standing person's. */
+  function refAspect(z) {
+    const aspects = refsOf(z)
+      .filter((r) => r.height !== undefined)
+      .map((r) => (r.height * r.height) / r.area)
+      .sort((a, b) => a - b);
+    if (aspects.length === 0) return defaultAspect();
+    const m = aspects.length >> 1;
+    return aspects.length % 2 ? aspects[m] : (aspects[m - 1] + aspects[m]) / 2;
+  }
+
+  /** The expected person's box with feet at p, or undefined without a fit. */
+  function expectedRect(z, p) {
+    const fit = fitRefs(refsOf(z));
+    if (!fit) return undefined;
+    const area = fit.areaAt(p[1]);
+    const h = Math.sqrt(area * refAspect(z));
+    const w = area / h;
+    return { area, rect: { x0: p[0] - w / 2, y0: p[1] - h, x1: p[0] + w / 2, y1: p[1] } };
+  }
+
+  function drawReferences(P, dpr) {
+    const z = refZone();
+    if (!z) return;
+    const colour = COLOURS[selected % COLOURS.length];
+    const editing = tool === 'refs';
+    const outline = (rect, style) => {
+      const [x0, y0] = P([rect.x0, rect.y0]);
+      const [x1, y1] = P([rect.x1, rect.y1]);
+      g.strokeRect(x0, y0, x1 - x0, y1 - y0);
+      return [x0, y0, x1, y1, style];
+    };
+    refsOf(z).forEach((r, i) => {
+      const active = editing && i === refSelected;
+      g.lineWidth = (active ? 3 : editing ? 2 : 1.5) * dpr;
+      g.strokeStyle = editing ? colour : hexAlpha(colour, 0.7);
+      g.setLineDash(editing ? [] : [4 * dpr, 3 * dpr]);
+      const [x0, y0, x1, y1] = outline(refRect(z, r));
+      g.setLineDash([]);
+      // The foot point: bottom centre.
+      g.beginPath();
+      g.arc((x0 + x1) / 2, y1, 3.5 * dpr, 0, Math.PI * 2);
+      g.fillStyle = colour;
+      g.fill();
+      if (editing) {
+        g.font = `600 ${11 * dpr}px system-ui, sans-serif`;
+        g.fillStyle = hexAlpha('#fffdf8', 0.9);
+        g.fillRect(x0, y0 - 15 * dpr, 14 * dpr, 14 * dpr);
+        g.fillStyle = colour;
+        g.fillText(String(i + 1), x0 + 3.5 * dpr, y0 - 4 * dpr);
+      }
+      if (active) {
+        for (const [cx, cy] of [[x0, y0], [x1, y0], [x0, y1], [x1, y1]]) {
+          g.fillStyle = '#fffdf8';
+          g.fillRect(cx - 4.5 * dpr, cy - 4.5 * dpr, 9 * dpr, 9 * dpr);
+          g.lineWidth = 1.5 * dpr;
+          g.strokeStyle = colour;
+          g.strokeRect(cx - 4.5 * dpr, cy - 4.5 * dpr, 9 * dpr, 9 * dpr);
+        }
+      }
+    });
+    if (editing && refDraft) {
+      g.setLineDash([5 * dpr, 3 * dpr]);
+      g.lineWidth = 2 * dpr;
+      g.strokeStyle = colour;
+      outline(normRect(refDraft));
+      g.setLineDash([]);
+    }
+    if (editing && guide && !drag) {
+      const expected = expectedRect(z, guide);
+      if (expected) {
+        g.setLineDash([4 * dpr, 4 * dpr]);
+        g.lineWidth = 1.5 * dpr;
+        g.strokeStyle = 'rgba(31, 41, 51, 0.45)';
+        const [x0, y0] = outline(expected.rect);
+        g.setLineDash([]);
+        g.font = `${11 * dpr}px system-ui, sans-serif`;
+        g.fillStyle = 'rgba(31, 41, 51, 0.6)';
+        g.fillText(`≈ ${(expected.area * 100).toFixed(2)} %`, x0, y0 - 4 * dpr);
+      }
+    }
+  }
+
+  /** Shows in words the size expected where the pointer is (the outline's figure, for screen readers too). */
+  function renderGuide() {
+    const el = $('#refs-guide');
+    const z = refZone();
+    el.hidden = tool !== 'refs' || !z;
+    if (el.hidden) return;
+    const expected = guide && expectedRect(z, guide);
+    if (expected) el.textContent = `Expected person with feet here (${percent(guide[1], 0)} down): ${(expected.area * 100).toFixed(2)} % of the frame.`;
+    else if (!fitRefs(refsOf(z))) el.textContent = 'The expected size shows once there are two boxes with their feet at different heights.';
+    else el.textContent = 'Point at the picture to see the size expected there.';
+  }
+
+  function hitRef(p) {
+    const z = refZone();
+    if (!z) return { index: -1 };
+    const refs = refsOf(z);
+    if (refSelected >= 0 && refSelected < refs.length) {
+      const r = refRect(z, refs[refSelected]);
+      const corners = [[r.x0, r.y0], [r.x1, r.y0], [r.x0, r.y1], [r.x1, r.y1]];
+      const k = corners.findIndex((c) => px(p, c) <= HIT_PX);
+      if (k >= 0) return { index: refSelected, corner: k, fixed: corners[3 - k] };
+    }
+    for (let i = refs.length - 1; i >= 0; i--) {
+      const r = refRect(z, refs[i]);
+      if (p[0] >= r.x0 && p[0] <= r.x1 && p[1] >= r.y0 && p[1] <= r.y1) return { index: i };
+    }
+    return { index: -1 };
+  }
+
+  function setRefs(z, refs) {
+    if (refs.length > 0) z.perspective = refs;
+    else delete z.perspective;
+    changed();
+    renderRefs();
+  }
+
+  function removeRef(index) {
+    const z = refZone();
+    if (!z || index < 0 || index >= refsOf(z).length) return;
+    setRefs(z, refsOf(z).filter((_, i) => i !== index));
+    refSelected = Math.min(index, refsOf(z).length - 1);
+    renderRefs();
+    draw();
+  }
+
+  function moveRef(index, dx, dy) {
+    const z = refZone();
+    const r = z && refsOf(z)[index];
+    if (!r) return;
+    const rect = refRect(z, r);
+    const mx = Math.min(1 - rect.x1, Math.max(-rect.x0, dx));
+    const my = Math.min(1 - rect.y1, Math.max(-rect.y0, dy));
+    z.perspective[index] = refFromRect({ x0: rect.x0 + mx, y0: rect.y0 + my, x1: rect.x1 + mx, y1: rect.y1 + my });
+  }
+
+  function renderRefs() {
+    const z = draft[selected];
+    const room = z?.kind === 'room';
+    $('#zf-refs').hidden = !room;
+    if (!room) return;
+    const refs = refsOf(z);
+    const fit = fitRefs(refs);
+    const ys = z.polygon.map((p) => p[1]);
+    let summary;
+    if (refs.length === 0) summary = 'None: one person covers the same share everywhere in this zone. Place two or more with “Reference people” (near and far) to let the expected size follow the distance.';
+    else if (refs.length === 1) summary = 'One box so far: place another where a person would stand nearer or farther away (lower or higher in the picture).';
+    else if (!fit) summary = `The boxes need their feet at different heights, at least ${percent(MIN_REF_SPREAD)} of the frame apart.`;
+    else summary = `Expected person: ${(fit.areaAt(Math.min(...ys)) * 100).toFixed(2)} % of the frame at the zone's top edge, ${(fit.areaAt(Math.max(...ys)) * 100).toFixed(2)} % at its bottom edge. This replaces “one person covers”.`;
+    $('#refs-summary').textContent = summary;
+    replace(
+      $('#refs-list'),
+      refs.map((r, i) =>
+        h(
+          'li',
+          {},
+          h(
+            'button',
+            {
+              type: 'button',
+              class: 'quiet ref',
+              'aria-pressed': String(i === refSelected),
+              dataset: { ref: i },
+              onclick: () => {
+                refSelected = i;
+                if (tool !== 'refs') setTool('refs');
+                renderRefs();
+                draw();
+              },
+            },
+            `${i + 1}. feet ${percent(r.y, 0)} down · ${(r.area * 100).toFixed(2)} % of the frame`,
+          ),
+          h('button', { type: 'button', class: 'quiet', 'aria-label': `Remove reference person ${i + 1}`, onclick: () => removeRef(i) }, 'Remove'),
+        ),
+      ),
+    );
+    $('#refs-clear').disabled = refs.length === 0;
+    renderGuide();
+  }
+
+  /** Fills the selected zone's references from the size the camera learned from people seen alone. */
+  async function useLearned() {
+    const z = refZone();
+    const note = $('#refs-learned-note');
+    if (!z || !camera) return;
+    note.textContent = '';
+    let learned;
+    try {
+      learned = await api(`/api/cameras/${encodeURIComponent(camera.id)}/person-size`);
+    } catch (e) {
+      note.textContent = explain(e);
+      return;
+    }
+    if (learned.state !== 'ready') {
+      note.textContent = `Not learned yet: ${learned.message}.`;
+      return;
+    }
+    const ys = z.polygon.map((p) => p[1]);
+    const top = Math.min(...ys);
+    const bottom = Math.max(...ys);
+    let lo = Math.max(top, learned.rows[0]);
+    let hi = Math.min(bottom, learned.rows[1]);
+    const outside = hi - lo < 0.05;
+    if (outside) [lo, hi] = [top, bottom];
+    const refs = [];
+    for (const share of LEARNED_ROWS) {
+      const y = lo + share * (hi - lo);
+      const root = learned.intercept + learned.slope * y;
+      if (!(root > 0)) continue;
+      const area = root * root;
+      const height = Math.sqrt(area * learned.aspect);
+      const width = area / height;
+      if (height > y || width > 1) continue;
+      const x = Math.min(1 - width / 2, Math.max(width / 2, middleAtRow(z.polygon, y)));
+      refs.push(refFromRect({ x0: x - width / 2, y0: y - height, x1: x + width / 2, y1: y }));
+    }
+    if (fitRefs(refs) === undefined) {
+      note.textContent = 'The learned size gives no boxes that fit in this zone.';
+      return;
+    }
+    refSelected = -1;
+    setRefs(z, refs);
+    draw();
+    note.textContent = `Filled from the size learned from ${learned.supporting} people seen alone${outside ? '; this zone lies outside the rows they were seen at, so the boxes follow the fitted line there' : ''}. Adjust the boxes if needed, then save.`;
   }
 
   function hitVertex(p) {
@@ -260,11 +556,30 @@ export function createZonesView(app) {
       draw();
       return;
     }
+    if (tool === 'refs') {
+      if (!refZone()) {
+        setHint(selected < 0 ? 'Select a room zone first (switch to “Select and move” and click one).' : 'Reference people are for room zones; this one is a shelf.');
+        return;
+      }
+      const hit = hitRef(p);
+      if (hit.corner !== undefined) drag = { kind: 'ref-corner', index: hit.index, fixed: hit.fixed };
+      else if (hit.index >= 0) drag = { kind: 'ref-move', index: hit.index, start: p, original: refsOf(refZone())[hit.index] };
+      else {
+        drag = { kind: 'ref-new' };
+        refDraft = [p, p];
+      }
+      refSelected = hit.index;
+      canvas.setPointerCapture(event.pointerId);
+      renderRefs();
+      draw();
+      return;
+    }
     const v = hitVertex(p);
     if (v >= 0) {
       drag = { kind: 'vertex', index: v };
     } else {
       const z = hitZone(p);
+      if (z !== selected) refSelected = -1;
       selected = z;
       if (z >= 0) drag = { kind: 'move', start: p, original: draft[z].polygon.map((q) => [...q]) };
       renderList();
@@ -281,9 +596,30 @@ export function createZonesView(app) {
       if (drawing.length > 0) draw();
       return;
     }
+    if (tool === 'refs' && !drag) {
+      guide = p;
+      renderGuide();
+      draw();
+      return;
+    }
     if (!drag) return;
     if (drag.kind === 'person') {
       personBox = [personBox[0], p];
+    } else if (drag.kind === 'ref-new') {
+      refDraft = [refDraft[0], p];
+    } else if (drag.kind === 'ref-corner') {
+      const z = refZone();
+      const [fx, fy] = drag.fixed;
+      // Keep the box at least MIN_BOX wide and tall, on the side of the fixed corner it was dragged to.
+      const x = Math.abs(p[0] - fx) >= MIN_BOX ? p[0] : fx + (p[0] >= fx ? MIN_BOX : -MIN_BOX);
+      const y = Math.abs(p[1] - fy) >= MIN_BOX ? p[1] : fy + (p[1] >= fy ? MIN_BOX : -MIN_BOX);
+      z.perspective[drag.index] = refFromRect({ x0: fx, y0: fy, x1: x, y1: y });
+      changed();
+    } else if (drag.kind === 'ref-move') {
+      const z = refZone();
+      z.perspective[drag.index] = drag.original;
+      moveRef(drag.index, p[0] - drag.start[0], p[1] - drag.start[1]);
+      changed();
     } else if (drag.kind === 'vertex') {
       draft[selected].polygon[drag.index] = round(p);
       changed();
@@ -299,6 +635,21 @@ export function createZonesView(app) {
   });
 
   const endDrag = () => {
+    if (drag?.kind === 'ref-new' && refDraft) {
+      const r = normRect(refDraft);
+      const z = refZone();
+      if (z && r.x1 - r.x0 >= MIN_BOX && r.y1 - r.y0 >= MIN_BOX) {
+        setRefs(z, [...refsOf(z), refFromRect(r)]);
+        refSelected = refsOf(z).length - 1;
+      }
+      refDraft = undefined;
+    }
+    if (drag?.kind === 'ref-corner' || drag?.kind === 'ref-move' || drag?.kind === 'ref-new') {
+      drag = undefined;
+      renderRefs();
+      draw();
+      return;
+    }
     if (drag?.kind === 'person' && personBox && selected >= 0) {
       const [a, b] = personBox;
       const share = Math.abs(a[0] - b[0]) * Math.abs(a[1] - b[1]);
@@ -313,6 +664,12 @@ export function createZonesView(app) {
   };
   canvas.addEventListener('pointerup', endDrag);
   canvas.addEventListener('pointercancel', endDrag);
+  canvas.addEventListener('pointerleave', () => {
+    if (!guide) return;
+    guide = undefined;
+    renderGuide();
+    draw();
+  });
 
   canvas.addEventListener('dblclick', (event) => {
     if (tool !== 'select' || selected < 0) return;
@@ -346,6 +703,22 @@ export function createZonesView(app) {
   });
 
   canvas.addEventListener('keydown', (event) => {
+    if (tool === 'refs' && refZone() && refSelected >= 0) {
+      const step = event.shiftKey ? 0.02 : 0.005;
+      const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
+      if (event.key === 'Delete' || event.key === 'Backspace') removeRef(refSelected);
+      else if (event.key in arrows) {
+        moveRef(refSelected, ...arrows[event.key]);
+        changed();
+        renderRefs();
+      } else if (event.key === 'Escape') {
+        refSelected = -1;
+        renderRefs();
+      } else return;
+      event.preventDefault();
+      draw();
+      return;
+    }
     if (event.key === 'Enter' && tool === 'draw') finishDrawing();
     else if (event.key === 'Escape') {
       drawing = [];
@@ -376,6 +749,7 @@ export function createZonesView(app) {
 
   function deleteSelected() {
     if (selected < 0) return;
+    refSelected = -1;
     draft.splice(selected, 1);
     selected = Math.min(selected, draft.length - 1);
     renderList();
@@ -390,7 +764,10 @@ export function createZonesView(app) {
     for (const b of $$('[data-tool]')) b.setAttribute('aria-pressed', String(b.dataset.tool === next));
     drawing = [];
     personBox = undefined;
+    refDraft = undefined;
+    guide = undefined;
     setHint(HINTS[next]);
+    renderGuide();
     draw();
   }
 
@@ -421,6 +798,7 @@ export function createZonesView(app) {
               'aria-pressed': String(i === selected),
               dataset: { zone: z.id },
               onclick: () => {
+                if (i !== selected) refSelected = -1;
                 selected = i;
                 renderList();
                 renderForm();
@@ -460,6 +838,7 @@ export function createZonesView(app) {
     $('#zf-lowstock').placeholder = String(Math.round(display.defaultLowStock * 100));
     for (const label of $$('[data-for]', form)) label.hidden = label.dataset.for !== z.kind;
     $('#zf-personarea-label').textContent = z.kind === 'shelf' ? 'One item covers' : 'One person covers';
+    renderRefs();
   }
 
   function bindField(id, apply) {
@@ -482,7 +861,10 @@ export function createZonesView(app) {
   bindField('#zf-name', setOptional('name', String));
   bindField('#zf-kind', (z, v) => {
     z.kind = v;
-    if (v === 'shelf') delete z.capacity;
+    if (v === 'shelf') {
+      delete z.capacity;
+      delete z.perspective;
+    }
     renderForm();
   });
   bindField('#zf-capacity', setOptional('capacity', Number));
@@ -677,10 +1059,19 @@ export function createZonesView(app) {
   cameraSelect.addEventListener('change', () => selectCamera(cameraSelect.value));
   for (const b of $$('[data-tool]')) b.addEventListener('click', () => setTool(b.dataset.tool));
   $('#zone-delete').addEventListener('click', deleteSelected);
+  $('#refs-learned').addEventListener('click', useLearned);
+  $('#refs-clear').addEventListener('click', () => {
+    const z = refZone();
+    if (!z) return;
+    refSelected = -1;
+    setRefs(z, []);
+    draw();
+  });
   $('#zones-save').addEventListener('click', save);
   $('#zones-discard').addEventListener('click', () => {
     draft = saved.map(clone);
     lowStockDraft = {};
+    refSelected = -1;
     selected = Math.min(selected, draft.length - 1);
     errorEl.textContent = '';
     renderList();
@@ -736,6 +1127,37 @@ function round(p) {
   return [Math.round(p[0] * 10000) / 10000, Math.round(p[1] * 10000) / 10000];
 }
 
+function round4(v) {
+  return Math.round(v * 10000) / 10000;
+}
+
+/** The box spanned by two corner points. */
+function normRect([a, b]) {
+  return { x0: Math.min(a[0], b[0]), y0: Math.min(a[1], b[1]), x1: Math.max(a[0], b[0]), y1: Math.max(a[1], b[1]) };
+}
+
+/** The middle of the widest stretch of the polygon's inside along row y (even–odd rule), or of its bounding box. */
+function middleAtRow(poly, y) {
+  const crossings = [];
+  for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
+    const [xi, yi] = poly[i];
+    const [xj, yj] = poly[j];
+    if (yi > y !== yj > y) crossings.push(xi + ((y - yi) * (xj - xi)) / (yj - yi));
+  }
+  crossings.sort((a, b) => a - b);
+  let best;
+  let widest = -1;
+  for (let k = 0; k + 1 < crossings.length; k += 2) {
+    if (crossings[k + 1] - crossings[k] > widest) {
+      widest = crossings[k + 1] - crossings[k];
+      best = (crossings[k] + crossings[k + 1]) / 2;
+    }
+  }
+  if (best !== undefined) return best;
+  const xs = poly.map((p) => p[0]);
+  return (Math.min(...xs) + Math.max(...xs)) / 2;
+}
+
 function topLeft(poly) {
   return [Math.min(...poly.map((p) => p[0])), Math.min(...poly.map((p) => p[1]))];
 }
@@ -768,6 +1190,7 @@ function hexAlpha(hex, alpha) {
 function brief(v) {
   if (v === null || v === undefined) return '—';
   if (Array.isArray(v) && Array.isArray(v[0])) return `${v.length} corners`;
+  if (Array.isArray(v) && v[0] && typeof v[0] === 'object' && 'area' in v[0]) return `${v.length} reference ${v.length === 1 ? 'person' : 'people'}`;
   const s = JSON.stringify(v);
   return s.length > 60 ? `${s.slice(0, 57)}…` : s;
 }

@@ -1,6 +1,7 @@
 /**
  * The live source of one configured camera, from its (already validated) description.
  */
+import type { LookupFunction } from 'node:net';
 import { createScene, type SceneId } from '../synthetic/index.ts';
 import type { Size } from '../workingSize.ts';
 import type { BackoffOptions } from './backoff.ts';
@@ -115,6 +116,8 @@ export interface CreateCameraSourceOptions {
   clock?: Clock;
   /** Uniform random numbers in [0, 1) for the backoff jitter; tests only. Default Math.random. */
   random?: () => number;
+  /** Resolves camera host names for 'snapshot' and 'mjpeg' sources (signature of dns.lookup); tests only. Default the system resolver. */
+  lookup?: LookupFunction;
 }
 
 /**
@@ -127,7 +130,7 @@ export interface CreateCameraSourceOptions {
  * @throws RangeError/TypeError naming the field for a value out of range; the `kind` for an unknown kind.
  */
 export function createCameraSource(description: CameraSourceDescription, options: CreateCameraSourceOptions = {}): CameraSource {
-  const { ffmpegPath, clock, random } = options;
+  const { ffmpegPath, clock, random, lookup } = options;
   checkText(description.id, 'id');
   checkSize(description.size);
   const { id, size, backoff } = description;
@@ -152,6 +155,7 @@ export function createCameraSource(description: CameraSourceDescription, options
         backoff,
         clock,
         random,
+        lookup,
       });
     case 'mjpeg':
       return mjpegStream(description.url, {
@@ -163,6 +167,7 @@ export function createCameraSource(description: CameraSourceDescription, options
         backoff,
         clock,
         random,
+        lookup,
       });
     case 'ffmpeg':
       return ffmpegStream(description.input, {

@@ -2,10 +2,12 @@
  * Decoding of one image from a live source (a snapshot, an MJPEG part, a dropped file) into a grey
  * frame at exactly the working size, in memory only.
  */
+import sharp from 'sharp';
 import { decodeImage } from '../decodeImage.ts';
 import type { GreyFrame } from '../frame.ts';
 import { FrameError } from '../FrameError.ts';
 import type { Size } from '../workingSize.ts';
+import { jpegFrameSize } from './jpegFrameSize.ts';
 
 export interface DecodeLiveFrameOptions {
   /** What error messages call the image: the file path or the URL without credentials. Default `'image'`. */
@@ -16,17 +18,41 @@ export interface DecodeLiveFrameOptions {
   aspectTolerance?: number;
 }
 
+/** A decoded live frame and the size of the image it came from. */
+export interface LiveFrame {
+  /** Grey, exactly the working size. */
+  readonly frame: GreyFrame;
+  /** The image's own width × height after EXIF orientation (the camera's resolution). */
+  readonly source: Size;
+}
+
 /**
  * The image resized to exactly `size` (the model's working size) by decodeImage; an image whose
  * aspect ratio differs from `size`'s by more than `aspectTolerance` is refused with the
- * assertAspect message (see {@link isAspectError}).
+ * assertAspect message (see {@link isAspectError}). The source size comes from the JPEG headers
+ * (jpegFrameSize, no extra decoder call on the hot path of a camera's stream), for other formats
+ * from sharp's header reading (`metadata().autoOrient`).
  *
  * @throws FrameError naming `name`: empty, not an image, truncated or corrupt, too many pixels,
  *   wrong aspect ratio.
  */
-export function decodeLiveFrame(bytes: Uint8Array, size: Size, options: DecodeLiveFrameOptions = {}): Promise<GreyFrame> {
+export async function decodeLiveFrame(bytes: Uint8Array, size: Size, options: DecodeLiveFrameOptions = {}): Promise<LiveFrame> {
   const { name = 'image', limitInputPixels, aspectTolerance = 0.01 } = options;
-  return decodeImage(bytes, { width: size.width, height: size.height, aspectTolerance, name, limitInputPixels });
+  const frame = await decodeImage(bytes, { width: size.width, height: size.height, aspectTolerance, name, limitInputPixels });
+  const source = jpegFrameSize(bytes) ?? (await headerSize(bytes, name));
+  return { frame, source };
+}
+
+/** The oriented size from sharp's header reading (the image has just decoded, so the header reads). */
+async function headerSize(bytes: Uint8Array, name: string): Promise<Size> {
+  try {
+    const meta = await sharp(bytes, { failOn: 'error', limitInputPixels: false }).metadata();
+    const { width, height } = meta.autoOrient ?? { width: meta.width, height: meta.height };
+    if (width >= 1 && height >= 1) return { width, height };
+  } catch (error) {
+    throw new FrameError(name, `cannot read the image size (${(error as Error).message})`, { cause: error });
+  }
+  throw new FrameError(name, 'image header declares no size');
 }
 
 /**

@@ -20,7 +20,8 @@ import { badFrameStreak } from './badFrameStreak.ts';
 import type { CameraHandlers, CameraSource, SourceState, StatusDetail } from './cameraSource.ts';
 import { checkSize, checkText, checkWhole } from './checkOptions.ts';
 import { systemClock, type Clock } from './clock.ts';
-import { decodeLiveFrame } from './decodeLiveFrame.ts';
+import { decodeLiveFrame, type LiveFrame } from './decodeLiveFrame.ts';
+import { sourceSizeChange, type SourceSizeChange } from './sourceSizeChange.ts';
 
 /** What happens to a file once read. */
 export const AfterRead = {
@@ -77,6 +78,9 @@ const PARTIAL_EXTENSIONS: readonly string[] = ['.part', '.tmp', '.partial', '.cr
  * (name, modification time) pairs read, in memory: a file replaced under the same name is read
  * again; after a restart, the files still there are read again.
  *
+ * When the images' own size changes with the same aspect ratio (from one file to the next), the
+ * source reports `online` again before the frame of the new size (see cameraSource.ts).
+ *
  * Status: `online` while the folder can be listed; `offline` (reason `folder not found`, `not a
  * folder`, `cannot list the folder (…)`, `retryInMs` = scanIntervalMs) when it cannot, retried
  * at every scan.
@@ -118,12 +122,19 @@ export function dropFolder(path: string, options: DropFolderOptions): CameraSour
   const seen = new Map<string, { size: number; mtimeMs: number; since: number }>();
   /** Files not to read again (kept, or that could not be deleted): name and modification time. */
   const done = new Set<string>();
+  /** The size of the last image delivered. */
+  let lastSource: Size | undefined;
 
   const setStatus = (next: SourceState, detail: Omit<StatusDetail, 'at'> = {}): void => {
     if (next === state && detail.reason === offlineReason) return;
     state = next;
     offlineReason = detail.reason;
     handlers?.status(next, { at: clock.now(), ...detail });
+  };
+
+  /** A change of image size while online: reported as such, whatever the last status said. */
+  const reportSizeChange = (change: SourceSizeChange): void => {
+    handlers?.status('online', { at: clock.now(), ...change });
   };
 
   /** Schedules a scan `ms` from now unless one is due sooner. */
@@ -230,7 +241,7 @@ export function dropFolder(path: string, options: DropFolderOptions): CameraSour
   const take = async (file: { name: string; size: number; mtimeMs: number }): Promise<void> => {
     const filePath = join(path, file.name);
     seen.delete(file.name);
-    let result: { frame: Awaited<ReturnType<typeof decodeLiveFrame>> } | { error: FrameError } | undefined;
+    let result: { decoded: LiveFrame } | { error: FrameError } | undefined;
     if (file.size > maxBytes) {
       result = { error: new FrameError(filePath, `file is ${file.size} bytes, more than maxBytes (${maxBytes})`) };
     } else {
@@ -244,7 +255,7 @@ export function dropFolder(path: string, options: DropFolderOptions): CameraSour
       }
       if (bytes !== undefined) {
         try {
-          result = { frame: await decodeLiveFrame(bytes, size, { name: filePath, limitInputPixels }) };
+          result = { decoded: await decodeLiveFrame(bytes, size, { name: filePath, limitInputPixels }) };
         } catch (error) {
           if (!(error instanceof FrameError)) throw error;
           result = { error };
@@ -269,13 +280,18 @@ export function dropFolder(path: string, options: DropFolderOptions): CameraSour
     }
     if (stopped || handlers === undefined) return;
 
-    if ('frame' in result) {
+    if ('decoded' in result) {
+      const { frame, source } = result.decoded;
       streak.good();
+      const change = sourceSizeChange(lastSource, source);
+      lastSource = source;
       if (offlineForFrames) {
         offlineForFrames = false;
-        setStatus('online');
+        setStatus('online', { sourceSize: source, ...change });
+      } else if (change !== undefined && state === 'online') {
+        reportSizeChange(change);
       }
-      handlers.frame(result.frame, file.mtimeMs);
+      handlers.frame(frame, file.mtimeMs);
     } else {
       handlers.badFrame(result.error);
       const reason = streak.bad(result.error);

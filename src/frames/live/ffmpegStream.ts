@@ -13,7 +13,8 @@ import { offlineReason } from './badFrameStreak.ts';
 import type { CameraHandlers, CameraSource, SourceState, StatusDetail } from './cameraSource.ts';
 import { checkSize, checkText, checkWhole } from './checkOptions.ts';
 import { systemClock, type Clock } from './clock.ts';
-import { redactUrl } from './httpGet.ts';
+import { CANNOT_RESOLVE, redactUrl } from './httpGet.ts';
+import { sourceSizeChange } from './sourceSizeChange.ts';
 
 export interface FfmpegStreamOptions {
   /** The camera id (for the caller; not sent anywhere). Required. */
@@ -59,14 +60,28 @@ const STDERR_KEEP = 4000;
 const KILL_GRACE_MS = 2000;
 /** Frames held while the source size is not known yet. */
 const MAX_HELD_FRAMES = 8;
+/** Longest stderr line looked at, characters (a longer one is cut there). */
+const MAX_LINE = 2000;
+
+/**
+ * The frame size in a line of ffmpeg's showinfo filter at log level info with the level shown
+ * (`[Parsed_showinfo_2 @ 0x…] [info] n:   0 pts: … fmt:yuvj420p sar:1/1 s:1280x960 i:P …`), or
+ * undefined for any other line.
+ */
+export function showinfoSize(line: string): Size | undefined {
+  const match = /^\[Parsed_showinfo_\d+ @ [^\]]*\] (?:\[info\] )?n:\s*\d+ .*?\bs:(\d+)x(\d+)\b/.exec(line);
+  return match === null ? undefined : { width: Number(match[1]), height: Number(match[2]) };
+}
 
 /**
  * Runs, per connection,
  *
- *   ffmpeg -nostdin -hide_banner -loglevel error [-rtsp_transport tcp | -f v4l2] [-re] [-stream_loop -1]
+ *   ffmpeg -nostdin -hide_banner -nostats -loglevel level+info [-rtsp_transport tcp | -f v4l2] [-re] [-stream_loop -1]
  *          [inputOptions…] -i INPUT
  *          -map 0:v:0 -frames:v 1 -f image2pipe -c:v pgm -pix_fmt gray pipe:3
- *          -map 0:v:0 -vf scale=W:H:flags=area,format=gray -fps_mode passthrough -f rawvideo -pix_fmt gray pipe:1
+ *          -filter_complex [0:v:0]split=2[frames][sizes];[sizes]select='eq(n,0)',showinfo,nullsink;
+ *                          [frames]scale=W:H:flags=area,format=gray[out]
+ *          -map [out] -fps_mode passthrough -f rawvideo -pix_fmt gray pipe:1
  *
  * and cuts stdout into frames of exactly W × H bytes. The first output, the first frame as a PGM
  * image on a third pipe, gives the source size after ffmpeg's automatic rotation (its Netpbm
@@ -76,6 +91,17 @@ const MAX_HELD_FRAMES = 8;
  * `-fps_mode passthrough` gives each decoded picture once (no duplicated frames).
  * `capturedAt` is when a frame's last byte arrived.
  *
+ * When the input's frame size changes mid-stream (a camera switched resolution), ffmpeg builds
+ * its filter graph anew, and keeps the outputs at their first size. The `select` of the graph's
+ * first frame (its frame counter `n` starts again at 0 in the new graph) and `showinfo` log one
+ * line per graph with the new size (`s:WxH`, {@link showinfoSize}), read from stderr: the same
+ * aspect ratio is reported as `online` again with `sourceSize` and `previousSourceSize` (see
+ * cameraSource.ts; told as soon as ffmpeg logs it, which may be a frame or two after the first
+ * frame of the new size reached stdout, the two being separate pipes) and the frames go on;
+ * another aspect ratio ends the run as above. The size is also compared with the last run's, so
+ * a camera that restarts its stream at another size is reported too. Of stderr only the lines at
+ * level error and above are kept for messages.
+ *
  * `-rtsp_transport tcp` is added for rtsp:// inputs (unless inputOptions set it), `-f v4l2` for
  * /dev/videoN; a relative file path is passed as ./path so ffmpeg never takes it for a protocol.
  *
@@ -83,8 +109,9 @@ const MAX_HELD_FRAMES = 8;
  * or at the end of a file played without `loop` (which then plays again after the backoff delay) —
  * or no frame byte for `stallMs` makes the source `offline` and restarts ffmpeg after an
  * exponential-backoff delay; a missing ffmpeg is reported as such (`ffmpeg not found: …`) and
- * retried the same way. stop() sends SIGTERM, then SIGKILL after 2 s, and resolves once the
- * process has exited and been reaped (no zombie is left).
+ * retried the same way, and so is a host name that does not resolve (`cannot resolve host <name>
+ * (…)`, from ffmpeg's "Failed to resolve hostname" message). stop() sends SIGTERM, then SIGKILL
+ * after 2 s, and resolves once the process has exited and been reaped (no zombie is left).
  *
  * RTSP URLs appear in messages without credentials (see redactUrl).
  */
@@ -115,7 +142,7 @@ export function ffmpegStream(input: string, options: FfmpegStreamOptions): Camer
   if (loop && kind !== 'file') throw new RangeError(`loop applies to a video file only, not to ${kind} input ${redact(input)}`);
   const name = redact(input);
   const args = [
-    '-nostdin', '-hide_banner', '-loglevel', 'error',
+    '-nostdin', '-hide_banner', '-nostats', '-loglevel', 'level+info',
     ...(kind === 'rtsp' && !inputOptions.includes('-rtsp_transport') ? ['-rtsp_transport', 'tcp'] : []),
     ...(kind === 'device' && !inputOptions.includes('-f') ? ['-f', 'v4l2'] : []),
     ...(realtime ? ['-re'] : []),
@@ -123,8 +150,9 @@ export function ffmpegStream(input: string, options: FfmpegStreamOptions): Camer
     ...inputOptions,
     '-i', kind === 'file' && !isAbsolute(input) ? `./${input}` : input,
     '-map', '0:v:0', '-frames:v', '1', '-f', 'image2pipe', '-c:v', 'pgm', '-pix_fmt', 'gray', 'pipe:3',
-    '-map', '0:v:0', '-vf', `scale=${size.width}:${size.height}:flags=area,format=gray`, '-fps_mode', 'passthrough',
-    '-f', 'rawvideo', '-pix_fmt', 'gray', 'pipe:1',
+    '-filter_complex',
+    `[0:v:0]split=2[frames][sizes];[sizes]select='eq(n,0)',showinfo,nullsink;[frames]scale=${size.width}:${size.height}:flags=area,format=gray[out]`,
+    '-map', '[out]', '-fps_mode', 'passthrough', '-f', 'rawvideo', '-pix_fmt', 'gray', 'pipe:1',
   ];
   const frameBytes = size.width * size.height;
   const retry = createRetryScheduler({ ...backoff, clock, random });
@@ -134,6 +162,8 @@ export function ffmpegStream(input: string, options: FfmpegStreamOptions): Camer
   let state: SourceState | undefined;
   let child: ChildProcess | undefined;
   let exited: Promise<void> | undefined;
+  /** The input's frame size last known, over all runs. */
+  let lastSource: Size | undefined;
 
   const setStatus = (next: SourceState, detail: Omit<StatusDetail, 'at'> = {}): void => {
     state = next;
@@ -152,7 +182,9 @@ export function ffmpegStream(input: string, options: FfmpegStreamOptions): Camer
     child = ffmpeg;
     const stdout = ffmpeg.stdout as Readable;
     const sizePipe = ffmpeg.stdio[3] as Readable;
-    let stderr = '';
+    let stderr = ''; // the lines at level error and above
+    let partial = ''; // a stderr line not complete yet
+    let current: Size | undefined; // the input's frame size now, from the PGM header or showinfo
     let reason: string | undefined; // why we ended it, when we did
     let stallTimer: unknown;
     let killTimer: NodeJS.Timeout | undefined;
@@ -177,15 +209,49 @@ export function ffmpegStream(input: string, options: FfmpegStreamOptions): Camer
       if (stopped || reason !== undefined || handlers === undefined) return;
       if (state !== 'online') {
         retry.reset();
-        setStatus('online');
+        const change = current === undefined ? undefined : sourceSizeChange(lastSource, current);
+        if (current !== undefined) lastSource = current;
+        setStatus('online', { ...(current !== undefined && { sourceSize: current }), ...change });
       }
       handlers.frame({ width: size.width, height: size.height, data: frame }, capturedAt);
+    };
+    /** The input's frame size is (now) `next`: checks its aspect ratio; returns false when the run ends for it. */
+    const sourceIs = (next: Size): boolean => {
+      if (reason !== undefined) return false;
+      if (current !== undefined && current.width === next.width && current.height === next.height) return true;
+      try {
+        assertAspect(size, next);
+      } catch (error) {
+        const bad = new FrameError(name, (error as Error).message);
+        if (!stopped) handlers?.badFrame(bad);
+        end(offlineReason(bad));
+        return false;
+      }
+      current = next;
+      // While online the change is told now; otherwise with the coming `online`.
+      if (state === 'online' && !stopped) {
+        const change = sourceSizeChange(lastSource, next);
+        lastSource = next;
+        if (change !== undefined) setStatus('online', change);
+      }
+      return true;
+    };
+    const stderrLine = (line: string): void => {
+      const shown = showinfoSize(line);
+      if (shown !== undefined) {
+        sourceIs(shown);
+        return;
+      }
+      const level = /\[(error|fatal|panic)\] /.exec(line);
+      if (level !== null) stderr = (stderr + line.slice(0, level.index) + line.slice(level.index + level[0].length) + '\n').slice(-STDERR_KEEP);
     };
 
     armStall();
     ffmpeg.stderr?.setEncoding('utf8');
     ffmpeg.stderr?.on('data', (text: string) => {
-      stderr = (stderr + text).slice(-STDERR_KEEP);
+      const lines = (partial + text).split(/\r?\n/);
+      partial = (lines.pop() ?? '').slice(0, MAX_LINE);
+      for (const line of lines) stderrLine(line.slice(0, MAX_LINE));
     });
     sizePipe.on('data', (chunk: Buffer) => {
       if (source !== undefined || reason !== undefined) return; // the rest of the PGM is drained and dropped
@@ -196,15 +262,9 @@ export function ffmpegStream(input: string, options: FfmpegStreamOptions): Camer
         if (header.length >= 64 || !'P5'.startsWith(header.slice(0, 2))) end(new FrameError(name, "cannot read the frame size from ffmpeg's output").message);
         return;
       }
-      source = { width: Number(match[1]), height: Number(match[2]) };
-      try {
-        assertAspect(size, source);
-      } catch (error) {
-        const bad = new FrameError(name, (error as Error).message);
-        if (!stopped) handlers?.badFrame(bad);
-        end(offlineReason(bad));
-        return;
-      }
+      const first = { width: Number(match[1]), height: Number(match[2]) };
+      if (!sourceIs(first)) return;
+      source = first;
       for (const frame of held.splice(0)) deliver(frame.frame, frame.capturedAt);
     });
     sizePipe.on('error', () => {}); // a broken pipe at exit is expected
@@ -246,7 +306,14 @@ export function ffmpegStream(input: string, options: FfmpegStreamOptions): Camer
         if (child === ffmpeg) child = undefined;
         resolve();
         if (stopped) return;
+        // A last line without its newline can only be an error message here (showinfo lines end with one).
+        if (partial !== '' && showinfoSize(partial) === undefined) stderrLine(partial);
+        partial = '';
         let why = reason;
+        const unresolved = /Failed to resolve hostname (\S+?):? (.*)$/m.exec(stderr);
+        if (why === undefined && unresolved !== null) {
+          why = new FrameError(name, `${CANNOT_RESOLVE} ${unresolved[1]} (${unresolved[2].trim()})`).message;
+        }
         if (why === undefined) {
           if (spawnError !== undefined) {
             const errno = (spawnError as NodeJS.ErrnoException).code;

@@ -5,6 +5,7 @@
  */
 import http, { type IncomingMessage } from 'node:http';
 import https from 'node:https';
+import type { LookupFunction } from 'node:net';
 import { checkText } from './checkOptions.ts';
 
 export interface HttpGetOptions {
@@ -18,6 +19,12 @@ export interface HttpGetOptions {
   agent?: http.Agent | false;
   /** Aborts the request (and the response being read): the promise, or the response stream, fails with the signal's reason. */
   signal?: AbortSignal;
+  /**
+   * Resolves the URL's host name, with the signature of Node's dns.lookup (the `lookup` option of
+   * http.request and net.connect); not called for an IP address. Default dns.lookup (the system
+   * resolver). Tests inject one so that no name is ever sent to a real DNS server.
+   */
+  lookup?: LookupFunction;
 }
 
 /**
@@ -31,7 +38,7 @@ export interface HttpGetOptions {
  *   ENOTFOUND, …) or the signal's reason otherwise.
  */
 export function httpGet(url: string | URL, options: HttpGetOptions = {}): Promise<IncomingMessage> {
-  const { headers = {}, agent = false, signal } = options;
+  const { headers = {}, agent = false, signal, lookup } = options;
   const target = new URL(url);
   if (target.protocol !== 'http:' && target.protocol !== 'https:') {
     throw new TypeError(`${redactUrl(target)}: only http: and https: URLs can be read, not ${target.protocol}`);
@@ -44,7 +51,7 @@ export function httpGet(url: string | URL, options: HttpGetOptions = {}): Promis
   if (username !== undefined) requestHeaders.authorization = basicAuthorization(username, password);
   const request = (target.protocol === 'https:' ? https : http).request;
   return new Promise((resolve, reject) => {
-    const req = request(target, { method: 'GET', headers: requestHeaders, agent, signal });
+    const req = request(target, { method: 'GET', headers: requestHeaders, agent, signal, ...(lookup !== undefined && { lookup }) });
     req.once('response', resolve);
     req.once('error', reject);
     req.end();
@@ -80,11 +87,37 @@ export function redactUrl(url: string | URL): string {
   return `${parsed.toString()}${query === '' ? '' : `?${query}`}`;
 }
 
-/** A short reason for a failed request: the error code when there is one (ECONNREFUSED, ENOTFOUND, …). */
-export function requestFailure(error: unknown): string {
+/**
+ * A short reason for a failed request: the error code when there is one (ECONNREFUSED, …); for a
+ * host name that does not resolve, `cannot resolve host <name> (<code>)`, the name being the
+ * error's `hostname`, else `host`.
+ *
+ * Example: requestFailure(<the error of dns.lookup('cam.invalid')>) → 'cannot resolve host cam.invalid (ENOTFOUND)'.
+ */
+export function requestFailure(error: unknown, host?: string): string {
   const code = (error as NodeJS.ErrnoException | undefined)?.code;
   const message = error instanceof Error ? error.message : String(error);
+  if (isResolveFailure(error)) {
+    const hostname = (error as { hostname?: unknown }).hostname;
+    const name = typeof hostname === 'string' && hostname !== '' ? hostname : host;
+    return `${CANNOT_RESOLVE}${name === undefined ? '' : ` ${name}`} (${code ?? message})`;
+  }
   return code !== undefined && !message.includes(code) ? `${message} (${code})` : message;
+}
+
+/** How the reason of a failed request starts when the camera's host name does not resolve. */
+export const CANNOT_RESOLVE = 'cannot resolve host';
+
+/**
+ * Whether an error is a failed name resolution: from the system resolver (Node's dns.lookup,
+ * syscall `getaddrinfo`: ENOTFOUND for EAI_NONAME/EAI_NODATA, EAI_AGAIN, EAI_FAIL) or from a DNS
+ * query (Node's dns.resolve*, syscall `queryA`, `queryAaaa`, …).
+ */
+export function isResolveFailure(error: unknown): boolean {
+  const { code, syscall } = (error ?? {}) as { code?: unknown; syscall?: unknown };
+  if (typeof code !== 'string') return false;
+  if (syscall === 'getaddrinfo' || (typeof syscall === 'string' && syscall.startsWith('query'))) return true;
+  return code === 'ENOTFOUND' || code === 'EAI_AGAIN' || code === 'EAI_FAIL' || code === 'EAI_NONAME' || code === 'EAI_NODATA';
 }
 
 /**

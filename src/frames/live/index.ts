@@ -3,14 +3,17 @@
  * URL, an MJPEG stream, anything ffmpeg reads, and the synthetic scene. Each delivers grey frames
  * at the working size through the {@link CameraSource} handlers and never writes a frame anywhere.
  */
-export { SourceState, WRONG_ASPECT, type CameraHandlers, type CameraSource, type StatusDetail } from './cameraSource.ts';
+export { SourceState, SOURCE_SIZE_CHANGED, WRONG_ASPECT, type CameraHandlers, type CameraSource, type StatusDetail } from './cameraSource.ts';
 export { backoffDelay, createRetryScheduler, type BackoffOptions, type RetryScheduler, type RetrySchedulerOptions } from './backoff.ts';
 export { systemClock, type Clock } from './clock.ts';
 export { dropFolder, AfterRead, type DropFolderOptions } from './dropFolder.ts';
 export { snapshotPoller, type SnapshotPollerOptions } from './snapshotPoller.ts';
 export { mjpegStream, type MjpegStreamOptions } from './mjpegStream.ts';
 export { multipartBoundary, parseMultipart, type MultipartEvent, type MultipartParser, type ParseMultipartOptions } from './parseMultipart.ts';
-export { ffmpegStream, ffmpegInputKind, FfmpegInputKind, type FfmpegStreamOptions } from './ffmpegStream.ts';
+export { ffmpegStream, ffmpegInputKind, FfmpegInputKind, showinfoSize, type FfmpegStreamOptions } from './ffmpegStream.ts';
+export { CANNOT_RESOLVE } from './httpGet.ts';
+export { jpegFrameSize } from './jpegFrameSize.ts';
+export { sourceSizeChange, type SourceSizeChange } from './sourceSizeChange.ts';
 export { syntheticCamera, type SimulatedOutage, type SyntheticCamera, type SyntheticCameraOptions } from './syntheticCamera.ts';
 export {
   createCameraSource,

@@ -2,6 +2,7 @@
  * An MJPEG stream over HTTP (`multipart/x-mixed-replace`, RFC 2046 §5.1 syntax) as a live source.
  */
 import type { IncomingMessage } from 'node:http';
+import type { LookupFunction } from 'node:net';
 import { FrameError } from '../FrameError.ts';
 import type { Size } from '../workingSize.ts';
 import { createRetryScheduler, type BackoffOptions } from './backoff.ts';
@@ -12,6 +13,7 @@ import { systemClock, type Clock } from './clock.ts';
 import { decodeLiveFrame } from './decodeLiveFrame.ts';
 import { checkCameraUrl, httpGet, redactUrl, requestFailure } from './httpGet.ts';
 import { multipartBoundary, parseMultipart, type MultipartEvent } from './parseMultipart.ts';
+import { sourceSizeChange } from './sourceSizeChange.ts';
 
 export interface MjpegStreamOptions {
   /** The camera id (for the caller; not sent anywhere). Required. */
@@ -36,6 +38,8 @@ export interface MjpegStreamOptions {
   clock?: Clock;
   /** Uniform random numbers in [0, 1) for the backoff jitter; tests only. Default Math.random. */
   random?: () => number;
+  /** Resolves the camera's host name (signature of dns.lookup); tests only. Default the system resolver. */
+  lookup?: LookupFunction;
 }
 
 /**
@@ -54,7 +58,12 @@ export interface MjpegStreamOptions {
  * backoff). It goes `offline`, and reconnects after an exponential-backoff delay, when the
  * request fails, the status is not 2xx, the response is not multipart (`not an MJPEG stream:
  * Content-Type …`), no byte arrives for `stallMs` (`stalled: …`), the stream ends or breaks, or
- * too many bad frames come in a row.
+ * too many bad frames come in a row. A host name that does not resolve is `request failed:
+ * cannot resolve host <name> (<code>)`, retried like any failed connection.
+ *
+ * Every `online` status carries the JPEGs' own size (`sourceSize`); when it changes with the
+ * same aspect ratio (mid-stream or from one connection to the next), `online` is reported again
+ * before the first frame of the new size (see cameraSource.ts), and the frames keep coming.
  */
 export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSource {
   const {
@@ -69,13 +78,15 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
     limitInputPixels,
     clock = systemClock,
     random = Math.random,
+    lookup,
   } = options;
   checkText(id, 'id');
   checkSize(size);
   checkWhole(stallMs, 'stallMs', 1);
   checkWhole(maxPartBytes, 'maxPartBytes', 1);
   checkWhole(badFramesBeforeOffline, 'badFramesBeforeOffline', 1);
-  checkCameraUrl(url, username, password);
+  if (lookup !== undefined && typeof lookup !== 'function') throw new TypeError('lookup must be a function like dns.lookup');
+  const host = checkCameraUrl(url, username, password).hostname;
   const name = redactUrl(url);
   const retry = createRetryScheduler({ ...backoff, clock, random });
   const streak = badFrameStreak(badFramesBeforeOffline);
@@ -90,6 +101,8 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
   let reading: Promise<void> | undefined;
   let decoding: Promise<void> | undefined;
   let waiting: { body: Uint8Array; capturedAt: number; generation: number } | undefined;
+  /** The size of the last JPEG delivered, over all connections. */
+  let lastSource: Size | undefined;
 
   const setStatus = (next: SourceState, detail: Omit<StatusDetail, 'at'> = {}): void => {
     state = next;
@@ -127,7 +140,7 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
       reason =
         cause instanceof Closed || cause instanceof FrameError
           ? cause.message
-          : new FrameError(name, `connection lost: ${requestFailure(cause)}`).message;
+          : new FrameError(name, `connection lost: ${requestFailure(cause, host)}`).message;
     } finally {
       if (stallTimer !== undefined) clock.clearTimeout(stallTimer);
       stallTimer = undefined;
@@ -152,11 +165,12 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
         password,
         signal: connection.signal,
         headers: { accept: 'multipart/x-mixed-replace, multipart/*;q=0.9' },
+        lookup,
       });
     } catch (error) {
       const cause = connection.signal.reason ?? error;
       if (cause instanceof Closed) throw cause;
-      throw new FrameError(name, `request failed: ${requestFailure(cause)}`, { cause });
+      throw new FrameError(name, `request failed: ${requestFailure(cause, host)}`, { cause });
     }
     const status = response.statusCode ?? 0;
     if (status < 200 || status > 299) {
@@ -205,9 +219,9 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
     while (waiting !== undefined && !stopped) {
       const part = waiting;
       waiting = undefined;
-      let frame;
+      let decoded;
       try {
-        frame = await decodeLiveFrame(part.body, size, { name, limitInputPixels });
+        decoded = await decodeLiveFrame(part.body, size, { name, limitInputPixels });
       } catch (error) {
         if (!(error instanceof FrameError)) throw error;
         bad(error, part.generation, abort ?? connection);
@@ -215,11 +229,15 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
       }
       if (stopped || part.generation !== generation || handlers === undefined) continue;
       streak.good();
+      const change = sourceSizeChange(lastSource, decoded.source);
+      lastSource = decoded.source;
       if (state !== 'online') {
         retry.reset();
-        setStatus('online');
+        setStatus('online', { sourceSize: decoded.source, ...change });
+      } else if (change !== undefined) {
+        setStatus('online', change);
       }
-      handlers.frame(frame, part.capturedAt);
+      handlers.frame(decoded.frame, part.capturedAt);
     }
   };
 

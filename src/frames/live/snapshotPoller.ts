@@ -4,6 +4,7 @@
 import http from 'node:http';
 import https from 'node:https';
 import type { IncomingMessage } from 'node:http';
+import type { LookupFunction } from 'node:net';
 import type { GreyFrame } from '../frame.ts';
 import { FrameError } from '../FrameError.ts';
 import type { Size } from '../workingSize.ts';
@@ -14,6 +15,7 @@ import { checkSize, checkText, checkWhole } from './checkOptions.ts';
 import { systemClock, type Clock } from './clock.ts';
 import { decodeLiveFrame } from './decodeLiveFrame.ts';
 import { checkCameraUrl, httpGet, redactUrl, requestFailure } from './httpGet.ts';
+import { sourceSizeChange } from './sourceSizeChange.ts';
 
 export interface SnapshotPollerOptions {
   /** The camera id (for the caller; not sent anywhere). Required. */
@@ -40,6 +42,15 @@ export interface SnapshotPollerOptions {
   clock?: Clock;
   /** Uniform random numbers in [0, 1) for the backoff jitter; tests only. Default Math.random. */
   random?: () => number;
+  /** Resolves the camera's host name (signature of dns.lookup); tests only. Default the system resolver. */
+  lookup?: LookupFunction;
+}
+
+/** A good poll: the frame, the image's own size, and when the response came. */
+interface Snapshot {
+  readonly frame: GreyFrame;
+  readonly source: Size;
+  readonly capturedAt: number;
 }
 
 /** A failed poll: what went wrong, and whether a 2xx response had arrived (so it counts as a bad frame). */
@@ -54,7 +65,8 @@ interface Failure {
  * took longer, so two requests are never in flight. Each image is decoded to a grey frame at
  * `size`; `capturedAt` is when the response headers arrived.
  *
- * A poll fails when the request cannot be made (connection refused, DNS, TLS), the status is not
+ * A poll fails when the request cannot be made (connection refused, TLS, a host name that does
+ * not resolve: `request failed: cannot resolve host <name> (<code>)`), the status is not
  * 2xx, the response is not an image (Content-Type other than image/* or
  * application/octet-stream, e.g. an HTML error page), is empty (0 bytes), larger than
  * `maxBytes`, cut off, not complete within `timeoutMs` (a slow drip), or does not decode
@@ -67,6 +79,10 @@ interface Failure {
  *   as `badFrame`.
  * While offline, polls are retried after exponential-backoff delays, each announced by
  * `connecting`; the first good frame makes the source `online` again and resets the backoff.
+ *
+ * Every `online` status carries the images' own size (`sourceSize`); when it changes with the
+ * same aspect ratio, `online` is reported again before the first frame of the new size (see
+ * cameraSource.ts), and polling goes on.
  *
  * The URL in messages has no credentials and no query values (see redactUrl). Keep-alive
  * connections are reused between polls and all closed on stop.
@@ -85,6 +101,7 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
     limitInputPixels,
     clock = systemClock,
     random = Math.random,
+    lookup,
   } = options;
   checkText(id, 'id');
   checkSize(size);
@@ -92,6 +109,7 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
   checkWhole(timeoutMs, 'timeoutMs', 1);
   checkWhole(maxBytes, 'maxBytes', 1);
   checkWhole(failuresBeforeOffline, 'failuresBeforeOffline', 1);
+  if (lookup !== undefined && typeof lookup !== 'function') throw new TypeError('lookup must be a function like dns.lookup');
   const target = checkCameraUrl(url, username, password);
   const name = redactUrl(url);
   const retry = createRetryScheduler({ ...backoff, clock, random });
@@ -103,6 +121,8 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
   let timer: unknown;
   let controller: AbortController | undefined;
   let inFlight: Promise<void> | undefined;
+  /** The size of the last image delivered. */
+  let lastSource: Size | undefined;
   const streak = badFrameStreak(failuresBeforeOffline);
 
   const setStatus = (next: SourceState, detail: Omit<StatusDetail, 'at'> = {}): void => {
@@ -118,7 +138,7 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
 
   const pollOnce = async (): Promise<void> => {
     const began = clock.now();
-    let result: { frame: GreyFrame; capturedAt: number } | Failure;
+    let result: Snapshot | Failure;
     try {
       result = await fetchFrame();
     } catch (error) {
@@ -127,9 +147,13 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
     if (stopped || handlers === undefined) return;
     if ('frame' in result) {
       streak.good();
+      const change = sourceSizeChange(lastSource, result.source);
+      lastSource = result.source;
       if (state !== 'online') {
         retry.reset();
-        setStatus('online');
+        setStatus('online', { sourceSize: result.source, ...change });
+      } else if (change !== undefined) {
+        setStatus('online', change);
       }
       handlers.frame(result.frame, result.capturedAt);
       next(began);
@@ -162,7 +186,7 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
   };
 
   /** One poll: a frame, or throws a {@link Failure}. */
-  const fetchFrame = async (): Promise<{ frame: GreyFrame; capturedAt: number }> => {
+  const fetchFrame = async (): Promise<Snapshot> => {
     const abort = new AbortController();
     controller = abort;
     const timeout = clock.setTimeout(
@@ -184,10 +208,11 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
           agent,
           signal: abort.signal,
           headers: { accept: 'image/jpeg, image/*;q=0.9' },
+          lookup,
         });
       } catch (error) {
         const reason = abort.signal.reason ?? error;
-        throw fail(`request failed: ${requestFailure(reason)}`, false, reason);
+        throw fail(`request failed: ${requestFailure(reason, target.hostname)}`, false, reason);
       }
       capturedAt = clock.now();
       const status = response.statusCode ?? 0;
@@ -229,7 +254,7 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
       if (controller === abort) controller = undefined;
     }
     try {
-      return { frame: await decodeLiveFrame(bytes, size, { name, limitInputPixels }), capturedAt };
+      return { ...(await decodeLiveFrame(bytes, size, { name, limitInputPixels })), capturedAt };
     } catch (error) {
       if (error instanceof FrameError) throw fail(error.message, true, error);
       throw error;

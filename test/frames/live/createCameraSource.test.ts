@@ -5,7 +5,7 @@ import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createCameraSource, type CameraSourceDescription } from '../../../src/frames/live/createCameraSource.ts';
 import { encodeGrey, greyPixels, makeTempDir, removeTempDir, runFfmpeg } from '../fixtures.ts';
-import { manualClock, record, startServer } from './liveFixtures.ts';
+import { manualClock, record, startServer, stripedJpeg, waitFor } from './liveFixtures.ts';
 
 describe('createCameraSource', () => {
   let dir: string;
@@ -37,6 +37,35 @@ describe('createCameraSource', () => {
     await source.stop();
     expect(seen.frames).toHaveLength(4);
     expect(seen.frames.every((f) => f.frame.width === 120 && f.frame.height === 90)).toBe(true);
+  });
+
+  it('reconnects an MJPEG stream after 30 s without a byte when the configuration sets no stallMs', async () => {
+    // Issue #7: "no bytes for 30 s → reconnect". Time is a manual clock here: the stream is silent
+    // after one frame, and the source reacts at the 30 000th millisecond, not before.
+    const jpeg = await stripedJpeg(64, 48, 100);
+    const server = await startServer((_request, response, index) => {
+      response.writeHead(200, { 'content-type': 'multipart/x-mixed-replace; boundary=frame' });
+      if (index > 0) return;
+      response.write(`--frame\r\nContent-Type: image/jpeg\r\nContent-Length: ${jpeg.length}\r\n\r\n`);
+      response.write(jpeg);
+      response.write('\r\n');
+    });
+    const clock = manualClock(1_000_000);
+    const source = createCameraSource({ kind: 'mjpeg', id: 'quiet', size: { width: 64, height: 48 }, url: `${server.url}/video` }, { clock });
+    const seen = record();
+    try {
+      source.start(seen.handlers);
+      await waitFor(() => seen.frames.length === 1, 'the frame');
+      clock.advance(29_999);
+      await new Promise((resolve) => setTimeout(resolve, 100)); // let a wrongly early stall show
+      expect(seen.log).toEqual(['connecting', 'online', 'frame']);
+      clock.advance(1);
+      await waitFor(() => seen.state() === 'offline', 'offline');
+      expect(seen.statuses.at(-1)!.detail.reason).toBe(`${server.url}/video: stalled: no data for stallMs (30000 ms)`);
+    } finally {
+      await source.stop();
+      await server.close();
+    }
   });
 
   it('rejects unknown kinds and bad common fields naming them', () => {

@@ -147,6 +147,34 @@ describe('dropFolder', () => {
     expect(await readdir(dir)).toEqual([]);
   });
 
+  it('reports a change of image size with the same aspect ratio once, before its frame, for JPEG and PNG files', async () => {
+    const when = new Date('2024-03-01T10:00:00Z');
+    const files: [string, Buffer][] = [
+      ['a1.jpg', await stripedJpeg(128, 96, 30)],
+      ['a2.jpg', await stripedJpeg(128, 96, 60)],
+      ['a3.jpg', await stripedJpeg(256, 192, 100)],
+      ['a4.png', await flatPng(256, 192, 150)], // the same size, another format
+      ['a5.jpg', await stripedJpeg(128, 96, 200)],
+    ];
+    for (const [name, bytes] of files) {
+      await writeFile(join(dir, name), bytes);
+      await utimes(join(dir, name), when, when);
+    }
+    const source = dropFolder(dir, { id: 'sizes', size: SIZE, ...FAST });
+    const seen = record();
+    source.start(seen.handlers);
+    await waitFor(() => seen.frames.length >= 5, 'five frames');
+    await source.stop();
+    expect(seen.bad).toEqual([]);
+    expect(seen.log).toEqual(['connecting', 'online', 'frame', 'frame', 'online', 'frame', 'frame', 'online', 'frame']);
+    expect(seen.frames.map((f) => levelOf(f.frame))).toEqual([30, 60, 100, 150, 200]);
+    const changes = seen.statuses.filter((s) => s.detail.previousSourceSize !== undefined).map((s) => s.detail);
+    expect(changes).toEqual([
+      expect.objectContaining({ reason: 'source size changed: 128×96 → 256×192', previousSourceSize: { width: 128, height: 96 }, sourceSize: { width: 256, height: 192 } }),
+      expect.objectContaining({ reason: 'source size changed: 256×192 → 128×96', previousSourceSize: { width: 256, height: 192 }, sourceSize: { width: 128, height: 96 } }),
+    ]);
+  });
+
   it('validates its options naming the field', () => {
     expect(() => dropFolder(dir, { id: 'a', size: SIZE, afterRead: 'move' as never })).toThrow(/afterRead must be 'delete' or 'keep'/);
     expect(() => dropFolder(dir, { id: 'a', size: SIZE, settleMs: -1 })).toThrow(/settleMs/);

@@ -1,11 +1,13 @@
 /**
  * Test fixtures for the live sources: a recorder of what a source delivers, waiting for events
- * with generous limits (no timing assertions), local HTTP servers on 127.0.0.1 only, synthetic
- * JPEGs made in memory with sharp (flat levels and stripes, no people), and a check that a stopped
- * source left no handle behind.
+ * with generous limits (no timing assertions), local HTTP and DNS servers on 127.0.0.1 only,
+ * synthetic JPEGs made in memory with sharp (flat levels and stripes, no people), and a check
+ * that a stopped source left no handle behind.
  */
+import { createSocket } from 'node:dgram';
+import { Resolver } from 'node:dns';
 import http, { type IncomingMessage, type Server, type ServerResponse } from 'node:http';
-import type { AddressInfo } from 'node:net';
+import type { AddressInfo, LookupFunction } from 'node:net';
 import type { GreyFrame } from '../../../src/frames/frame.ts';
 import type { FrameError } from '../../../src/frames/FrameError.ts';
 import type { CameraHandlers, SourceState, StatusDetail } from '../../../src/frames/live/cameraSource.ts';
@@ -173,5 +175,90 @@ export function manualClock(start = 0): ManualClock {
       now = target;
     },
     pending: () => timers.size,
+  };
+}
+
+/** A DNS server on 127.0.0.1 (UDP) that answers A queries from a function, and the names asked. */
+export interface TestDnsServer {
+  readonly port: number;
+  /** The names queried, in order (as sent, lower-cased). */
+  readonly queries: string[];
+  /** A lookup function for http.request / net.connect that asks only this server (see loopbackLookup). */
+  readonly lookup: LookupFunction;
+  close(): Promise<void>;
+}
+
+/**
+ * Starts a DNS server for tests (RFC 1035 §4.1 message format): each query for `name` is
+ * answered with `answer(name, index)` — an IPv4 address as one A record (TTL 0, so that no
+ * resolver keeps it), or undefined for NXDOMAIN (RCODE 3, "name error"). Queries of another type
+ * than A get an empty NOERROR answer. Only ever asked through {@link TestDnsServer.lookup}, so no
+ * name leaves the machine.
+ */
+export async function startDnsServer(answer: (name: string, index: number) => string | undefined): Promise<TestDnsServer> {
+  const queries: string[] = [];
+  const socket = createSocket('udp4');
+  socket.on('message', (query, peer) => {
+    // Header: ID, flags, QDCOUNT, ANCOUNT, NSCOUNT, ARCOUNT (16 bits each); then the question: QNAME as labels, QTYPE, QCLASS.
+    if (query.length < 12 || query.readUInt16BE(4) !== 1) return;
+    let at = 12;
+    const labels: string[] = [];
+    while (at < query.length && query[at] !== 0) {
+      labels.push(query.subarray(at + 1, at + 1 + query[at]).toString('latin1'));
+      at += 1 + query[at];
+    }
+    const questionEnd = at + 5; // the zero octet, QTYPE, QCLASS
+    if (questionEnd > query.length) return;
+    const name = labels.join('.').toLowerCase();
+    const type = query.readUInt16BE(at + 1);
+    const index = queries.push(name) - 1;
+    const address = type === 1 ? answer(name, index) : undefined;
+    const header = Buffer.alloc(12);
+    header.writeUInt16BE(query.readUInt16BE(0), 0); // ID
+    // QR = 1, the query's opcode and RD, AA = 1, RA = 1; RCODE 3 (name error) when there is no address for an A query.
+    header.writeUInt16BE(0x8000 | (query.readUInt16BE(2) & 0x7900) | 0x0400 | 0x0080 | (type === 1 && address === undefined ? 3 : 0), 2);
+    header.writeUInt16BE(1, 4); // QDCOUNT
+    header.writeUInt16BE(address === undefined ? 0 : 1, 6); // ANCOUNT
+    const parts = [header, query.subarray(12, questionEnd)];
+    if (address !== undefined) {
+      const record = Buffer.alloc(16);
+      record.writeUInt16BE(0xc00c, 0); // NAME: a pointer to the question's name at offset 12 (§4.1.4)
+      record.writeUInt16BE(1, 2); // TYPE A
+      record.writeUInt16BE(1, 4); // CLASS IN
+      record.writeUInt32BE(0, 6); // TTL
+      record.writeUInt16BE(4, 10); // RDLENGTH
+      address.split('.').forEach((octet, k) => record.writeUInt8(Number(octet), 12 + k));
+      parts.push(record);
+    }
+    socket.send(Buffer.concat(parts), peer.port, peer.address);
+  });
+  await new Promise<void>((resolve) => socket.bind(0, '127.0.0.1', resolve));
+  const { port } = socket.address();
+  const resolver = new Resolver({ timeout: 2000, tries: 2 });
+  resolver.setServers([`127.0.0.1:${port}`]);
+  return {
+    port,
+    queries,
+    lookup: loopbackLookup(resolver),
+    close: () =>
+      new Promise<void>((resolve) => {
+        resolver.cancel();
+        socket.close(() => resolve());
+      }),
+  };
+}
+
+/**
+ * A lookup function (the signature of dns.lookup, as http.request's `lookup` option calls it:
+ * one address, or all of them with `options.all`) that asks `resolver` for A records only.
+ * Its errors are the resolver's own (code ENOTFOUND for NXDOMAIN, syscall queryA).
+ */
+export function loopbackLookup(resolver: Resolver): LookupFunction {
+  return (hostname, options, callback) => {
+    resolver.resolve4(hostname, (error, addresses) => {
+      if (error !== null) callback(error, '', 4);
+      else if (options.all === true) callback(null, addresses.map((address) => ({ address, family: 4 })));
+      else callback(null, addresses[0], 4);
+    });
   };
 }

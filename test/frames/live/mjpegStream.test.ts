@@ -3,15 +3,18 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { mjpegStream } from '../../../src/frames/live/mjpegStream.ts';
 import { assertAspect } from '../../../src/frames/workingSize.ts';
 import { encodeGrey, greyPixels } from '../fixtures.ts';
-import { activeHandles, expectReleased, meanLevel, record, startServer, stripedJpeg, waitFor, type TestServer } from './liveFixtures.ts';
+import { activeHandles, expectReleased, meanLevel, record, startDnsServer, startServer, stripedJpeg, waitFor, type TestDnsServer, type TestServer } from './liveFixtures.ts';
 
 const SIZE = { width: 64, height: 48 };
 const FAST = { stallMs: 300, backoff: { initialMs: 50, maxMs: 200 } };
 
 let server: TestServer | undefined;
+let dns: TestDnsServer | undefined;
 afterEach(async () => {
   await server?.close();
   server = undefined;
+  await dns?.close();
+  dns = undefined;
 });
 
 /** Starts a multipart/x-mixed-replace response (common practice of MJPEG cameras); returns a part writer. */
@@ -176,5 +179,82 @@ describe('mjpegStream', () => {
     await source.stop();
     expect(seen.log.slice(0, 4)).toEqual(['connecting', 'offline', 'connecting', 'online']);
     expect(seen.statuses[1].detail.reason).toMatch(/request failed: socket hang up/);
+  });
+
+  it('reports a host name that does not resolve, retries with backoff, and recovers once it resolves', async () => {
+    const jpeg = await stripedJpeg(64, 48, 100);
+    server = await startServer((_request, response) => {
+      const send = mjpeg(response);
+      const timer = setInterval(() => send(jpeg), 20);
+      response.on('close', () => clearInterval(timer));
+    });
+    // The camera's name (RFC 6761 §6.2 reserves .test for testing) is unknown to the (loopback) DNS
+    // server for its first three queries, then points to the loopback HTTP server.
+    dns = await startDnsServer((_name, index) => (index < 3 ? undefined : '127.0.0.1'));
+    const port = new URL(server.url).port;
+    const before = activeHandles();
+    const source = mjpegStream(`http://camera.test:${port}/video.mjpg`, { id: 'c', size: SIZE, ...FAST, lookup: dns.lookup });
+    const seen = record();
+    source.start(seen.handlers);
+    await waitFor(() => seen.frames.length >= 2, 'frames once the name resolves');
+    await source.stop();
+    await expectReleased(before);
+
+    expect(seen.log.slice(0, 8)).toEqual(['connecting', 'offline', 'connecting', 'offline', 'connecting', 'offline', 'connecting', 'online']);
+    const offline = seen.statuses.filter((s) => s.state === 'offline').map((s) => s.detail);
+    // check: the resolver's own answer to NXDOMAIN (Node's dns.Resolver: code ENOTFOUND).
+    for (const detail of offline) expect(detail.reason).toBe(`http://camera.test:${port}/video.mjpg: request failed: cannot resolve host camera.test (ENOTFOUND)`);
+    expect(offline.map((d) => d.attempt)).toEqual([1, 2, 3]);
+    // Full-jitter windows of 50, 100, 200 ms (initialMs 50, doubling, maxMs 200).
+    offline.forEach((d, k) => expect(d.retryInMs).toBeLessThan([50, 100, 200][k]));
+    expect(seen.statuses.filter((s) => s.state === 'connecting').map((s) => s.detail.attempt).slice(0, 4)).toEqual([1, 2, 3, 4]);
+    // Nothing reached the camera before its name resolved; then it was asked for by name.
+    expect(dns.queries.slice(0, 4)).toEqual(['camera.test', 'camera.test', 'camera.test', 'camera.test']);
+    expect(server.requests.length).toBeGreaterThanOrEqual(1);
+    expect(server.requests[0].headers.host).toBe(`camera.test:${port}`);
+  });
+
+  it('reports a change of the JPEG size with the same aspect ratio once, before its first frame, and keeps delivering', async () => {
+    // 64×48 → 128×96 → 64×48 in one stream, then (second connection) 128×96 again.
+    const small = await stripedJpeg(64, 48, 200);
+    const large = await stripedJpeg(128, 96, 60);
+    let stream: ServerResponse | undefined;
+    server = await startServer((_request, response, index) => {
+      if (index === 0) return void (stream = response);
+      const send = mjpeg(response);
+      const timer = setInterval(() => send(large), 20);
+      response.on('close', () => clearInterval(timer));
+    });
+    const source = mjpegStream(`${server.url}/video.mjpg`, { id: 'c', size: SIZE, ...FAST, stallMs: 30_000 });
+    const seen = record();
+    source.start(seen.handlers);
+    await waitFor(() => stream !== undefined, 'the request');
+    const send = mjpeg(stream!);
+    for (const jpeg of [small, small, large, large, large, small, small]) {
+      const before = seen.frames.length;
+      send(jpeg);
+      await waitFor(() => seen.frames.length > before, 'the frame');
+    }
+    stream!.end('--myboundary--\r\n');
+    await waitFor(() => seen.statuses.filter((s) => s.state === 'online').length >= 4 && seen.log.at(-1) === 'frame', 'the second connection');
+    await source.stop();
+
+    expect(seen.bad).toEqual([]);
+    const firstOffline = seen.log.indexOf('offline');
+    expect(seen.log.slice(0, firstOffline)).toEqual([
+      'connecting', 'online', 'frame', 'frame', 'online', 'frame', 'frame', 'frame', 'online', 'frame', 'frame',
+    ]);
+    const online = seen.statuses.filter((s) => s.state === 'online').map((s) => s.detail);
+    expect(online[0]).toMatchObject({ sourceSize: { width: 64, height: 48 } });
+    expect(online[0].previousSourceSize).toBeUndefined();
+    expect(online[1]).toMatchObject({ reason: 'source size changed: 64×48 → 128×96', sourceSize: { width: 128, height: 96 }, previousSourceSize: { width: 64, height: 48 } });
+    expect(online[2]).toMatchObject({ reason: 'source size changed: 128×96 → 64×48', sourceSize: { width: 64, height: 48 }, previousSourceSize: { width: 128, height: 96 } });
+    // The next connection comes back at another size than the last frame's: told with its `online`.
+    expect(online[3]).toMatchObject({ reason: 'source size changed: 64×48 → 128×96', sourceSize: { width: 128, height: 96 }, previousSourceSize: { width: 64, height: 48 } });
+    expect(seen.log.slice(seen.log.indexOf('online', firstOffline) + 1).every((e) => e === 'frame')).toBe(true);
+    // Every frame resized to the working size; the levels tell which JPEG each came from (3/4 of 200 + 1/4 of 100, or of 60 and 30).
+    for (const { frame } of seen.frames) expect([frame.width, frame.height]).toEqual([SIZE.width, SIZE.height]);
+    const levels = seen.frames.slice(0, 7).map((f) => Math.round(meanLevel(f.frame) / 10) * 10);
+    expect(levels).toEqual([180, 180, 50, 50, 50, 180, 180]);
   });
 });

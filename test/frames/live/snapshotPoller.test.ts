@@ -4,15 +4,18 @@ import { basicAuthorization, redactUrl } from '../../../src/frames/live/httpGet.
 import { snapshotPoller } from '../../../src/frames/live/snapshotPoller.ts';
 import { assertAspect } from '../../../src/frames/workingSize.ts';
 import { truncatedJpeg } from '../fixtures.ts';
-import { activeHandles, expectReleased, meanLevel, record, startServer, stripedJpeg, waitFor, type TestServer } from './liveFixtures.ts';
+import { activeHandles, expectReleased, meanLevel, record, startDnsServer, startServer, stripedJpeg, waitFor, type TestDnsServer, type TestServer } from './liveFixtures.ts';
 
 const SIZE = { width: 64, height: 48 };
 const FAST = { intervalMs: 50, timeoutMs: 2000, backoff: { initialMs: 50, maxMs: 200 } };
 
 let server: TestServer | undefined;
+let dns: TestDnsServer | undefined;
 afterEach(async () => {
   await server?.close();
   server = undefined;
+  await dns?.close();
+  dns = undefined;
 });
 
 describe('HTTP helpers', () => {
@@ -182,6 +185,49 @@ describe('snapshotPoller', () => {
     expect(seen.bad[0].message).toBe(`${server.url}/snap.jpg: ${expected}`);
     expect(seen.statuses[1]).toMatchObject({ state: 'offline', detail: { reason: `wrong aspect ratio: ${expected}` } });
     expect(seen.frames).toEqual([]);
+  });
+
+  it('reports a host name that does not resolve as offline, retries with backoff, and recovers', async () => {
+    const jpeg = await stripedJpeg(64, 48, 100);
+    server = await startServer((_request, response) => response.writeHead(200, { 'content-type': 'image/jpeg' }).end(jpeg));
+    // RFC 6761 §6.2: .test is reserved for testing; the loopback DNS server knows it from its third query on.
+    dns = await startDnsServer((_name, index) => (index < 2 ? undefined : '127.0.0.1'));
+    const port = new URL(server.url).port;
+    const before = activeHandles();
+    const source = snapshotPoller(`http://camera.test:${port}/snap.jpg?pwd=x`, { id: 'cam', size: SIZE, ...FAST, lookup: dns.lookup });
+    const seen = record();
+    source.start(seen.handlers);
+    await waitFor(() => seen.frames.length >= 2, 'frames once the name resolves');
+    await source.stop();
+    await expectReleased(before);
+
+    expect(seen.log.slice(0, 7)).toEqual(['connecting', 'offline', 'connecting', 'offline', 'connecting', 'online', 'frame']);
+    expect(seen.bad).toEqual([]);
+    const offline = seen.statuses.filter((s) => s.state === 'offline').map((s) => s.detail);
+    // check: Node's dns.Resolver answer to NXDOMAIN (code ENOTFOUND); the URL without query values.
+    for (const detail of offline) expect(detail.reason).toBe(`http://camera.test:${port}/snap.jpg?pwd=***: request failed: cannot resolve host camera.test (ENOTFOUND)`);
+    expect(offline.map((d) => d.attempt)).toEqual([1, 2]);
+    expect(dns.queries.slice(0, 3)).toEqual(['camera.test', 'camera.test', 'camera.test']);
+    expect(server.requests[0].headers.host).toBe(`camera.test:${port}`);
+  });
+
+  it('reports a change of image size with the same aspect ratio once, before its frame', async () => {
+    const images = [await stripedJpeg(64, 48, 200), await stripedJpeg(64, 48, 200), await stripedJpeg(128, 96, 60), await stripedJpeg(128, 96, 60), await stripedJpeg(256, 192, 120)];
+    server = await startServer((_request, response, index) => {
+      response.writeHead(200, { 'content-type': 'image/jpeg' }).end(images[Math.min(index, images.length - 1)]);
+    });
+    const source = snapshotPoller(`${server.url}/snap.jpg`, { id: 'cam', size: SIZE, ...FAST });
+    const seen = record();
+    source.start(seen.handlers);
+    await waitFor(() => seen.frames.length >= 6, 'six frames');
+    await source.stop();
+    expect(seen.log.slice(0, 10)).toEqual(['connecting', 'online', 'frame', 'frame', 'online', 'frame', 'frame', 'online', 'frame', 'frame']);
+    const online = seen.statuses.filter((s) => s.state === 'online').map((s) => s.detail);
+    expect(online[0].sourceSize).toEqual({ width: 64, height: 48 });
+    expect(online[1]).toMatchObject({ reason: 'source size changed: 64×48 → 128×96', previousSourceSize: { width: 64, height: 48 }, sourceSize: { width: 128, height: 96 } });
+    expect(online[2]).toMatchObject({ reason: 'source size changed: 128×96 → 256×192', previousSourceSize: { width: 128, height: 96 }, sourceSize: { width: 256, height: 192 } });
+    expect(online).toHaveLength(3);
+    expect(seen.frames.slice(0, 5).map((f) => Math.round(meanLevel(f.frame) / 10) * 10)).toEqual([180, 180, 50, 50, 110]);
   });
 
   it('validates its options naming the field', () => {
