@@ -1,14 +1,15 @@
 import { readFile } from 'node:fs/promises';
 import { createCounter, wholeFrameZone } from '../counting/createCounter.ts';
-import { loadModel } from '../counting/modelFile.ts';
+import { loadModel, ModelFileError } from '../counting/modelFile.ts';
 import { parseZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
 import type { FrameCount } from '../counting/createCounter.ts';
+import type { ColourFrameItem } from '../frames/colourFrame.ts';
 import { numberOption, parseOptions, requireOption, UsageError } from './args.ts';
 import { frameInput } from './frameInput.ts';
 
 export const countUsage = `residuum count --model <model file> --frames <folder|video|synthetic:scene>
-                [--zones <zones file>] [--json] [--threshold T] [--every N] [--limit N]
+                [--zones <zones file>] [--json] [--threshold T] [--every N] [--limit N] [--colour]
 
 Counts people per room zone and fill per shelf zone in each frame.
   --model      a model file from residuum learn
@@ -17,7 +18,9 @@ Counts people per room zone and fill per shelf zone in each frame.
   --json       one JSON object per frame and line instead of a table
   --threshold  foreground threshold in noise units for zones that set none (default 3)
   --every      count one frame in N (default 1)
-  --limit      count at most N frames (default: all)`;
+  --limit      count at most N frames (default: all)
+  --colour     discount cast shadows by colour (a model learned with --colour; a folder of images
+               or synthetic:shadow-room)`;
 
 /** `residuum count`: counts each frame of a source against a learned model. */
 export async function countCommand(argv: string[], io = { out: process.stdout, err: process.stderr }): Promise<number> {
@@ -29,6 +32,7 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
     threshold: { type: 'string' },
     every: { type: 'string' },
     limit: { type: 'string' },
+    colour: { type: 'boolean' },
   });
   const modelFile = requireOption(v.model, 'model', 'the model file written by residuum learn');
   const frames = requireOption(v.frames, 'frames', 'the folder, video or scene to count');
@@ -37,22 +41,26 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
   const limit = numberOption(v.limit, 'limit', { min: 1, integer: true });
   if (v.json !== undefined && typeof v.json !== 'boolean') throw new UsageError('--json takes no value');
 
-  const { model } = await loadModel(modelFile);
+  const { model, colour } = await loadModel(modelFile);
+  if (v.colour && colour === undefined) throw new ModelFileError(`${modelFile}: learned without colour statistics; learn it again with --colour`);
   const zones: Zone[] = v.zones ? parseZones(await readFile(v.zones, 'utf8').catch((e: NodeJS.ErrnoException) => {
     throw new UsageError(`--zones: cannot read ${v.zones} (${e.code === 'ENOENT' ? 'no such file' : e.message})`);
   }), v.zones) : [wholeFrameZone];
-  const counter = createCounter(model, zones, { threshold });
+  const grey = v.colour ? undefined : createCounter(model, zones, { threshold });
+  const inColour = v.colour && colour ? createCounter(model, zones, { threshold, colourModel: colour }) : undefined;
   const print = v.json ? jsonLine : tableWriter(zones);
 
   let counted = 0;
   let skipped = 0;
-  for await (const item of frameInput(frames, { width: model.width, height: model.height, every, limit })) {
+  const source = { width: model.width, height: model.height, every, limit };
+  for await (const item of inColour ? frameInput(frames, { ...source, colour: true }) : frameInput(frames, source)) {
     if (item.error) {
       skipped++;
       io.err.write(`skipped ${item.error.message}\n`);
       continue;
     }
-    const result = counter.count(item.frame);
+    // In colour mode every good item carries its colour frame (frameInput with colour: true).
+    const result = inColour ? inColour.count(item.frame, (item as ColourFrameItem).colour!) : grey!.count(item.frame);
     counted++;
     io.out.write(print(item.name, result));
   }

@@ -1,20 +1,23 @@
 import { readdir, readFile, stat } from 'node:fs/promises';
 import { join, extname, basename } from 'node:path';
 import sharp from 'sharp';
-import { addConfusion, cdnetMetrics, type CdnetMetrics, type Confusion } from '../counting/cdnetMetrics.ts';
+import { addConfusion, CdnetLabel, cdnetMetrics, type CdnetMetrics, type Confusion } from '../counting/cdnetMetrics.ts';
+import { createColourMog2Counter } from '../counting/createColourMog2Counter.ts';
 import { createCounter, wholeFrameZone } from '../counting/createCounter.ts';
 import { createMog2Counter } from '../counting/createMog2Counter.ts';
-import { loadModel } from '../counting/modelFile.ts';
+import { loadModel, ModelFileError } from '../counting/modelFile.ts';
 import { parseZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
+import type { ColourFrame, ColourFrameItem } from '../frames/colourFrame.ts';
 import type { FrameItem, GreyFrame, Mask } from '../frames/frame.ts';
+import type { ChromaticityModel } from '../vision/chromaticityModel.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { loadOpenCv } from '../vision/loadOpenCv.ts';
 import { parseOptions, requireOption, UsageError } from './args.ts';
 import { frameInput } from './frameInput.ts';
 
 export const evaluateUsage = `residuum evaluate --model <model file> --frames <folder|video|synthetic:scene> --truth <file|folder>
-                   [--zones <zones file>] [--method subspace|mog2|both] [--json]
+                   [--zones <zones file>] [--method subspace|mog2|both] [--colour] [--json]
 
 Compares counts (and foreground masks) with ground truth.
   --truth   a JSON file of per-frame, per-zone counts: {"frames": {"<frame>": {"<zone>": 2, …}, …}}
@@ -23,6 +26,9 @@ Compares counts (and foreground masks) with ground truth.
             85 and 170 not scored; or plain 0/1, 0/255 masks)
   --method  subspace (default), mog2 (opencv.js BackgroundSubtractorMOG2 over the frames in
             order, through the same blob and zone stages), or both side by side
+  --colour  in colour: the subspace method discounts cast shadows (a model learned with
+            --colour), MOG2 gets colour frames for its own shadow detection; a folder of images
+            or synthetic:shadow-room
   --json    one JSON object instead of a table`;
 
 /** Count errors of one zone. */
@@ -36,11 +42,25 @@ export interface ZoneScore {
   bias: number;
 }
 
+/**
+ * A detector to evaluate: the subspace method or the MOG2 baseline, in grey or in colour (the
+ * subspace with shadow suppression, MOG2 on colour frames with its own shadow detection).
+ */
+export type EvaluateMethod = 'subspace' | 'mog2' | 'subspace-colour' | 'mog2-colour';
+
 export interface MethodReport {
-  readonly method: 'subspace' | 'mog2';
+  readonly method: EvaluateMethod;
   readonly zones: Record<string, ZoneScore>;
-  /** CDnet metrics over all scored mask pixels (mask truth only). */
-  readonly masks?: CdnetMetrics & { frames: number };
+  /**
+   * CDnet metrics over all scored mask pixels (mask truth only), and `shadowFpr`: the share of
+   * the pixels labelled shadow (CDnet 50) detected as foreground (NaN when none is labelled).
+   */
+  readonly masks?: CdnetMetrics & { frames: number; shadowFpr: number };
+}
+
+export interface EvaluateOptions {
+  /** The empty scene's colour statistics, needed by 'subspace-colour'. */
+  colour?: ChromaticityModel;
 }
 
 type CountTruth = Map<string, Record<string, number>>;
@@ -53,6 +73,7 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
     truth: { type: 'string' },
     zones: { type: 'string' },
     method: { type: 'string' },
+    colour: { type: 'boolean' },
     json: { type: 'boolean' },
   });
   const modelFile = requireOption(v.model, 'model', 'the model file from residuum learn');
@@ -60,7 +81,10 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
   const truthPath = requireOption(v.truth, 'truth', 'a JSON file of counts or a folder of masks');
   const method = v.method ?? 'subspace';
   if (!['subspace', 'mog2', 'both'].includes(method)) throw new UsageError(`--method must be subspace, mog2 or both, got "${method}"`);
-  const { model } = await loadModel(modelFile);
+  const { model, colour } = await loadModel(modelFile);
+  if (v.colour && colour === undefined && method !== 'mog2') {
+    throw new ModelFileError(`${modelFile}: learned without colour statistics; learn it again with --colour`);
+  }
   const zones: Zone[] = v.zones ? parseZones(await readFile(v.zones, 'utf8'), v.zones) : [wholeFrameZone];
   const truthIsFolder = (await stat(truthPath).catch(() => {
     throw new UsageError(`--truth: ${truthPath}: no such file or folder`);
@@ -68,8 +92,11 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
   const counts = truthIsFolder ? undefined : parseCountTruth(await readFile(truthPath, 'utf8'), truthPath);
   const masks = truthIsFolder ? await maskIndex(truthPath) : undefined;
 
-  const methods = method === 'both' ? (['subspace', 'mog2'] as const) : ([method] as ['subspace' | 'mog2']);
-  const reports = await evaluate(model, frameInput(frames, { width: model.width, height: model.height }), zones, methods, { counts, masks });
+  const chosen = method === 'both' ? (['subspace', 'mog2'] as const) : ([method] as ['subspace' | 'mog2']);
+  const methods: EvaluateMethod[] = v.colour ? chosen.map((m) => `${m}-colour` as const) : [...chosen];
+  const size = { width: model.width, height: model.height };
+  const items = v.colour ? frameInput(frames, { ...size, colour: true }) : frameInput(frames, size);
+  const reports = await evaluate(model, items, zones, methods, { counts, masks }, { colour });
   if (v.json) {
     io.out.write(JSON.stringify({ frames, truth: truthPath, methods: reports }) + '\n');
   } else {
@@ -80,37 +107,65 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
 
 /**
  * Runs the methods over the frames in order and scores them against the truth. Frames without
- * truth are counted (MOG2 needs every frame to keep its model) but not scored.
+ * truth are counted (MOG2 needs every frame to keep its model) but not scored. The colour
+ * methods need items with colour frames (ColourFrameItem); 'subspace-colour' also needs
+ * `options.colour`.
  */
 export async function evaluate(
   model: Subspace,
-  items: AsyncIterable<FrameItem>,
+  items: AsyncIterable<FrameItem | ColourFrameItem>,
   zones: readonly Zone[],
-  methods: readonly ('subspace' | 'mog2')[],
+  methods: readonly EvaluateMethod[],
   truth: { counts?: CountTruth; masks?: Map<string, string> },
+  options: EvaluateOptions = {},
 ): Promise<MethodReport[]> {
+  const { colour } = options;
   const size = { width: model.width, height: model.height };
-  const cv = methods.includes('mog2') ? await loadOpenCv() : undefined;
-  const runners = methods.map((m) => {
-    if (m === 'subspace') {
-      const counter = createCounter(model, zones);
-      return { method: m, count: (f: GreyFrame) => counter.count(f), mask: () => counter.lastMask(), close: () => {} };
+  if (methods.includes('subspace-colour') && colour === undefined) throw new RangeError("method 'subspace-colour' needs the colour statistics (options.colour)");
+  const cv = methods.includes('mog2') || methods.includes('mog2-colour') ? await loadOpenCv() : undefined;
+  type Count = (f: GreyFrame, c: ColourFrame | undefined) => { zones: Record<string, { count: number }> };
+  const runners = methods.map((m): { method: EvaluateMethod; count: Count; mask: () => Mask; close: () => void } => {
+    switch (m) {
+      case 'subspace': {
+        const counter = createCounter(model, zones);
+        return { method: m, count: (f) => counter.count(f), mask: () => counter.lastMask(), close: () => {} };
+      }
+      case 'subspace-colour': {
+        const counter = createCounter(model, zones, { colourModel: colour! });
+        return { method: m, count: (f, c) => counter.count(f, c!), mask: () => counter.lastMask(), close: () => {} };
+      }
+      case 'mog2': {
+        const counter = createMog2Counter(cv, size, zones);
+        return { method: m, count: (f) => counter.count(f), mask: () => counter.lastMask(), close: () => counter.close() };
+      }
+      case 'mog2-colour': {
+        const counter = createColourMog2Counter(cv, size, zones);
+        return { method: m, count: (_, c) => counter.count(c!), mask: () => counter.lastMask(), close: () => counter.close() };
+      }
+      default:
+        throw new RangeError(`method must be subspace, mog2, subspace-colour or mog2-colour, got ${JSON.stringify(m)}`);
     }
-    const counter = createMog2Counter(cv, size, zones);
-    return { method: m, count: (f: GreyFrame) => counter.count(f), mask: () => counter.lastMask(), close: () => counter.close() };
   });
+  const needsColour = methods.some((m) => m.endsWith('-colour'));
   const scores = runners.map(() => new Map<string, { n: number; abs: number; exact: number; bias: number }>());
   const confusions = runners.map((): Confusion => ({ tp: 0, fp: 0, tn: 0, fn: 0 }));
+  const shadowHits = runners.map(() => 0);
+  let shadowPixels = 0;
   let maskFrames = 0;
   try {
     for await (const item of items) {
       if (item.error) continue;
+      const itemColour = (item as ColourFrameItem).colour;
+      if (needsColour && itemColour === undefined) throw new RangeError(`frame ${item.name} has no colour frame, which the colour methods need`);
       const wantCounts = truth.counts?.get(item.name) ?? truth.counts?.get(basename(item.name, extname(item.name)));
       const maskFile = truth.masks?.get(basename(item.name, extname(item.name)));
       const wantMask = maskFile ? await readTruthMask(maskFile, size) : undefined;
-      if (wantMask) maskFrames++;
+      if (wantMask) {
+        maskFrames++;
+        for (let i = 0; i < wantMask.length; i++) if (wantMask[i] === CdnetLabel.shadow) shadowPixels++;
+      }
       runners.forEach((runner, r) => {
-        const result = runner.count(item.frame);
+        const result = runner.count(item.frame, itemColour);
         if (wantCounts) {
           for (const [zone, want] of Object.entries(wantCounts)) {
             const got = result.zones[zone];
@@ -123,7 +178,11 @@ export async function evaluate(
             scores[r].set(zone, s);
           }
         }
-        if (wantMask) addConfusion((runner.mask() as Mask).data, wantMask, confusions[r]);
+        if (wantMask) {
+          const detected = runner.mask().data;
+          addConfusion(detected, wantMask, confusions[r]);
+          for (let i = 0; i < wantMask.length; i++) if (wantMask[i] === CdnetLabel.shadow && detected[i] !== 0) shadowHits[r]++;
+        }
       });
     }
   } finally {
@@ -135,7 +194,9 @@ export async function evaluate(
     return {
       method: runner.method,
       zones: zonesOut,
-      ...(maskFrames > 0 && { masks: { ...cdnetMetrics(confusions[r]), frames: maskFrames } }),
+      ...(maskFrames > 0 && {
+        masks: { ...cdnetMetrics(confusions[r]), frames: maskFrames, shadowFpr: shadowPixels > 0 ? shadowHits[r] / shadowPixels : Number.NaN },
+      }),
     };
   });
 }
@@ -196,20 +257,22 @@ async function readTruthMask(file: string, size: { width: number; height: number
 function formatReports(reports: readonly MethodReport[]): string {
   const lines: string[] = [];
   const zones = [...new Set(reports.flatMap((r) => Object.keys(r.zones)))];
-  const header = ['zone'.padEnd(16), ...reports.flatMap((r) => [`${r.method} MAE`.padStart(14), 'exact'.padStart(7), 'bias'.padStart(7)])];
+  const wide = Math.max(14, ...reports.map((r) => r.method.length + 4)); // room for "<method> MAE"
+  const header = ['zone'.padEnd(16), ...reports.flatMap((r) => [`${r.method} MAE`.padStart(wide), 'exact'.padStart(7), 'bias'.padStart(7)])];
   lines.push(header.join(' '));
   for (const zone of zones) {
     const cells = reports.flatMap((r) => {
       const s = r.zones[zone];
-      return s ? [s.mae.toFixed(3).padStart(14), `${(s.exact * 100).toFixed(0)}%`.padStart(7), s.bias.toFixed(2).padStart(7)] : ['–'.padStart(14), '', ''];
+      return s ? [s.mae.toFixed(3).padStart(wide), `${(s.exact * 100).toFixed(0)}%`.padStart(7), s.bias.toFixed(2).padStart(7)] : ['–'.padStart(wide), '', ''];
     });
     lines.push([zone.padEnd(16), ...cells].join(' '));
   }
   if (reports.some((r) => r.masks)) {
     lines.push('');
-    lines.push(['masks (CDnet)'.padEnd(16), ...reports.map((r) => r.method.padStart(10))].join(' '));
-    for (const key of ['recall', 'specificity', 'fpr', 'fnr', 'pwc', 'precision', 'fMeasure'] as const) {
-      lines.push([key.padEnd(16), ...reports.map((r) => (r.masks ? r.masks[key].toFixed(4) : '–').padStart(10))].join(' '));
+    const column = Math.max(10, ...reports.map((r) => r.method.length));
+    lines.push(['masks (CDnet)'.padEnd(16), ...reports.map((r) => r.method.padStart(column))].join(' '));
+    for (const key of ['recall', 'specificity', 'fpr', 'fnr', 'pwc', 'precision', 'fMeasure', 'shadowFpr'] as const) {
+      lines.push([key.padEnd(16), ...reports.map((r) => (r.masks ? r.masks[key].toFixed(4) : '–').padStart(column))].join(' '));
     }
   }
   return lines.join('\n') + '\n';

@@ -1,4 +1,6 @@
+import type { ColourFrame } from '../frames/colourFrame.ts';
 import type { GreyFrame } from '../frames/frame.ts';
+import { fitChromaticity } from '../vision/fitChromaticity.ts';
 import { join, resolve } from 'node:path';
 import { loadConfig } from '../config/loadConfig.ts';
 import { encodeModel, modelFormatVersion, saveModel } from '../counting/modelFile.ts';
@@ -14,7 +16,7 @@ import { progressLine } from './progressLine.ts';
 
 export const learnUsage = `residuum learn --frames <folder|video|synthetic:scene:empty> --out <model file>
                 [--width W] [--components K | --variance V] [--max-components N]
-                [--every N] [--limit N] [--robust]
+                [--every N] [--limit N] [--robust] [--colour]
        residuum learn --config <file> --camera <id> --seconds N [--data <folder>] [--out <model file>]
 
 Learns the empty scene: a mean image and a few eigen-images from frames with nobody in them.
@@ -28,6 +30,8 @@ Learns the empty scene: a mean image and a few eigen-images from frames with nob
   --every           use one frame in N (default 1)
   --limit           use at most N frames (default 500)
   --robust          the frames may show people passing through: reject them while learning
+  --colour          also learn the empty scene's colour statistics, for count/evaluate --colour
+                    (shadow suppression); folders of images and synthetic:shadow-room:empty only
   --config, --camera, --seconds
                     learn from the configured camera's live source for N seconds (the view must be
                     empty meanwhile); the model is stored in <data>/residuum.db (default ./data),
@@ -45,12 +49,16 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     every: { type: 'string' },
     limit: { type: 'string' },
     robust: { type: 'boolean' },
+    colour: { type: 'boolean' },
     config: { type: 'string' },
     camera: { type: 'string' },
     seconds: { type: 'string' },
     data: { type: 'string' },
   });
-  if (v.config !== undefined) return learnFromCamera(v, io);
+  if (v.config !== undefined) {
+    if (v.colour) throw new UsageError('--colour does not go with --config yet: learn in colour from a folder of images');
+    return learnFromCamera(v, io);
+  }
   const frames = requireOption(v.frames, 'frames', 'the folder, video or scene to learn from');
   const out = requireOption(v.out, 'out', 'the model file to write');
   const width = numberOption(v.width, 'width', { min: 16, max: 4096, integer: true });
@@ -63,9 +71,11 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
 
   const progress = progressLine(io.err, 'reading frames', limit);
   const data: Float32Array[] = [];
+  const colours: Uint8Array[] = [];
   let size: GreyFrame | undefined;
   let skipped = 0;
-  for await (const item of frameInput(frames, { width, every, limit })) {
+  const items = v.colour ? frameInput(frames, { width, every, limit, colour: true }) : frameInput(frames, { width, every, limit });
+  for await (const item of items) {
     if (item.error) {
       skipped++;
       progress.note(`skipped ${item.error.message}`);
@@ -73,6 +83,8 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     }
     size ??= item.frame;
     data.push(item.frame.data);
+    const colour = (item as { colour?: ColourFrame }).colour;
+    if (colour) colours.push(colour.data);
     progress.update(data.length + skipped);
   }
   progress.done();
@@ -83,22 +95,32 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
   io.err.write(progress.interactive ? 'fitting the subspace…\n' : '');
   const distinct = distinctFrames(data);
   const repeated = data.length - distinct.length;
+  // The colour statistics from the same pictures as the subspace (repeats dropped alike).
+  const kept = new Set(distinct);
+  const distinctColours = v.colour ? colours.filter((_, t) => kept.has(data[t])) : [];
   if (distinct.length < 2) {
     io.err.write(`residuum learn: all ${data.length} frames of ${frames} are the same picture; at least 2 different ones are needed\n`);
     return 1;
   }
   const model = fitSubspace(distinct, size, { components, variance, maxComponents, robustIterations: v.robust ? 2 : 0 });
+  const colour = v.colour ? fitChromaticity(distinctColours, size, { robust: v.robust === true }) : undefined;
   await saveModel(out, model, {
     learnedAt: new Date().toISOString(),
     source: frames,
-    settings: { components, variance: variance ?? 0.95, maxComponents: maxComponents ?? 12, every, limit },
-  });
-  printReport(io.out, model, repeated, skipped, out);
+    settings: { components, variance: variance ?? 0.95, maxComponents: maxComponents ?? 12, every, limit, ...(v.colour && { colour: true }) },
+  }, colour);
+  printReport(io.out, model, repeated, skipped, out, colour === undefined ? undefined : medianOf(colour.chromaSpread));
   return 0;
 }
 
-/** The learning report: frames, components, variance, noise, verdict. */
-function printReport(out: NodeJS.WritableStream, model: SubspaceFit, repeated: number, skipped: number, writtenTo: string): void {
+/** The median of per-pixel values (the colour line of the report). */
+function medianOf(values: Float32Array): number {
+  const sorted = Float32Array.from(values).sort();
+  return sorted[sorted.length >> 1];
+}
+
+/** The learning report: frames, components, variance, noise, verdict; the colour spread when learned in colour. */
+function printReport(out: NodeJS.WritableStream, model: SubspaceFit, repeated: number, skipped: number, writtenTo: string, colourSpread?: number): void {
   const verdict = modelVerdict(model);
   const rows: [string, string][] = [
     ['frames used', `${model.frameCount}${[repeated && `${repeated} repeated dropped`, skipped && `${skipped} unreadable skipped`].filter(Boolean).join(', ').replace(/^(.+)$/, ' ($1)')}`],
@@ -109,6 +131,7 @@ function printReport(out: NodeJS.WritableStream, model: SubspaceFit, repeated: n
     ['residual noise', `${verdict.medianNoise.toFixed(2)} grey levels (median per pixel; 95th percentile ${verdict.noiseP95.toFixed(2)})`],
     ['verdict', `${verdict.level}: ${verdict.findings[0]}`],
     ...verdict.findings.slice(1).map((f): [string, string] => ['', f]),
+    ...(colourSpread === undefined ? [] : [['colour', `learned for shadow suppression (median chromaticity spread ${colourSpread.toFixed(2)} σ)`] as [string, string]]),
     ['model written to', writtenTo],
   ];
   for (const [label, value] of rows) out.write(`${label.padEnd(18)}  ${value}\n`);

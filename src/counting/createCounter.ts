@@ -1,5 +1,8 @@
+import type { ColourFrame } from '../frames/colourFrame.ts';
 import type { GreyFrame, Mask } from '../frames/frame.ts';
-import { createMask } from '../frames/frame.ts';
+import { assertSameSize, createMask } from '../frames/frame.ts';
+import type { ChromaticityModel } from '../vision/chromaticityModel.ts';
+import { suppressShadows, type SuppressShadowsOptions } from '../vision/suppressShadows.ts';
 import type { Blob } from '../vision/labelComponents.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 import { frameNoiseScale } from '../vision/frameNoiseScale.ts';
@@ -33,6 +36,14 @@ export interface CounterOptions extends MaskCounterOptions {
    * false (then `stageTimes` stays 0).
    */
   timeStages?: boolean;
+  /**
+   * Colour mode: the empty scene's colour statistics (fitChromaticity). Then every count needs
+   * the frame's colour too, and foreground pixels that are a cast shadow are cleared between the
+   * threshold and the morphology (suppressShadows). Default: none (grey only).
+   */
+  colourModel?: ChromaticityModel;
+  /** Colour mode: the bounds of a shadow (see suppressShadows; its defaults). */
+  shadows?: Pick<SuppressShadowsOptions, 'alphaLow' | 'alphaHigh' | 'maxChromaDistortion'>;
 }
 
 /** Everything counted in one frame. */
@@ -49,6 +60,8 @@ export interface FrameCount extends FrameTally {
   readonly normalisedEnergy: number;
   /** Frame noise relative to the learning frames (median (r/σ)² / median χ²₁); 1 = as learned. */
   readonly noiseScale: number;
+  /** Colour mode only: share of the frame's pixels the threshold found and shadow suppression cleared, 0..1. */
+  readonly shadowShare?: number;
 }
 
 export interface Counter {
@@ -56,8 +69,11 @@ export interface Counter {
   readonly height: number;
   /** The zones as prepared at the model's size. */
   readonly zones: readonly PreparedZone[];
-  /** Counts one frame of the model's size. The returned blobs are fresh; internal buffers are reused. */
-  count(frame: GreyFrame): FrameCount;
+  /**
+   * Counts one frame of the model's size; in colour mode `colour` (the same picture in colour) is
+   * required. The returned blobs are fresh; internal buffers are reused.
+   */
+  count(frame: GreyFrame, colour?: ColourFrame): FrameCount;
   /** The foreground mask of the last counted frame (a view of an internal buffer, overwritten by the next count). */
   lastMask(): Mask;
   /**
@@ -70,11 +86,17 @@ export interface Counter {
 
 /**
  * One camera's counting pipeline: residual energy against the empty-scene model → threshold in
- * noise units → opening and closing → connected components → per-zone tally. All per-frame
- * buffers are allocated once here and reused for every frame.
+ * noise units → (colour mode: clear cast shadows) → opening and closing → connected components →
+ * per-zone tally. All per-frame buffers are allocated once here and reused for every frame.
+ *
+ * In colour mode the brightness a shadow is measured against is the subspace's: the robust
+ * projection's reconstruction μ_i + Σ_j B_ij y_j of the frame's background over the mean image
+ * μ_i, so that a frame lit more dimly, or a lamp switched off, is not taken for one large shadow
+ * (computed at the foreground pixels only).
  */
 export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): Counter {
-  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 3, timeStages = false } = options;
+  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 3, timeStages = false, colourModel, shadows = {} } = options;
+  if (colourModel !== undefined) assertSameSize(model, colourModel, 'colour model');
   const { width, height } = model;
   const d = width * height;
   const stageTimes = new Float64Array(COUNTER_STAGES.length);
@@ -95,13 +117,22 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
   const scratch = new Float32Array(d);
   const sampleScratch = new Float32Array(Math.ceil(d / 7));
   const raw = createMask(width, height);
+  const colourBuffers = colourModel === undefined ? undefined : {
+    unshadowed: createMask(width, height),
+    brightnessScale: new Float32Array(d),
+    distortion: { alpha: new Float32Array(d), cd: new Float32Array(d) },
+  };
   const coefficientSample = coefficientStride > 1 ? sampleCoefficientPixels(model, coefficientStride) : undefined;
 
   return {
     width,
     height,
     zones: prepared,
-    count(frame) {
+    count(frame, colour) {
+      if (colourBuffers !== undefined) {
+        if (colour === undefined) throw new RangeError('this counter is in colour mode: count(frame, colour) needs the colour frame');
+        assertSameSize(model, colour, 'colour frame');
+      }
       const t0 = timed === undefined ? 0 : performance.now();
       const residual = residualEnergy(model, frame, { out: energy, outCoefficients: coefficients, inverseNoiseVariance, scratch: sampleScratch, coefficientSample });
       const t1 = timed === undefined ? 0 : performance.now();
@@ -120,8 +151,10 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
         timed[CounterStage.noiseScale] += t2 - t1;
         timed[CounterStage.threshold] += t3 - t2;
       }
+      const shadowShare = colourBuffers === undefined ? undefined : clearShadows(colour!, colourBuffers);
       return {
-        ...stages.count(raw),
+        ...stages.count(colourBuffers === undefined ? raw : colourBuffers.unshadowed),
+        ...(shadowShare === undefined ? {} : { shadowShare }),
         dffs: residual.dffs,
         difs: residual.difs,
         normalisedEnergy: residual.normalisedEnergy,
@@ -131,4 +164,23 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     lastMask: () => stages.lastMask(),
     stageTimes,
   };
+
+  /** Clears the cast shadows of `raw` into buffers.unshadowed; returns the share of pixels cleared. */
+  function clearShadows(colour: ColourFrame, buffers: NonNullable<typeof colourBuffers>): number {
+    const { components: k, mean, basis } = model;
+    const { brightnessScale, unshadowed, distortion } = buffers;
+    const r = raw.data;
+    let found = 0;
+    for (let i = 0, b = 0; i < d; i++, b += k) {
+      if (r[i] === 0) continue;
+      found++;
+      let z = mean[i];
+      for (let j = 0; j < k; j++) z += basis[b + j] * coefficients[j];
+      brightnessScale[i] = mean[i] >= 1 && z >= 1 ? z / mean[i] : 1;
+    }
+    suppressShadows(raw, colour, colourModel!, { ...shadows, brightnessScale, out: unshadowed, scratch: distortion });
+    let kept = 0;
+    for (let i = 0; i < d; i++) kept += unshadowed.data[i];
+    return (found - kept) / d;
+  }
 }
