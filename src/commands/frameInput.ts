@@ -4,7 +4,7 @@ import type { FrameItem } from '../frames/frame.ts';
 import { FrameError } from '../frames/FrameError.ts';
 import type { FrameSourceOptions } from '../frames/frameSourceOptions.ts';
 import { openFrames } from '../frames/openFrames.ts';
-import { readColourFolder } from '../frames/readColourFolder.ts';
+import { readImageFolder } from '../frames/readImageFolder.ts';
 import { createScene, sceneIds, syntheticFrames } from '../frames/synthetic/index.ts';
 import { createShadowRoom } from '../frames/synthetic/shadowRoom.ts';
 import { syntheticColourFrames } from '../frames/synthetic/syntheticColourFrames.ts';
@@ -25,7 +25,7 @@ export interface FrameInputOptions extends FrameSourceOptions {
  * learning); `synthetic:shadow-room` is the reading room with shadows and colour. Synthetic
  * scenes render at the requested working size.
  *
- * With `colour`, items carry the colour frame too: from a folder of images (readColourFolder) or
+ * With `colour`, items carry the colour frame too: from a folder of images (readImageFolder with `colour`) or
  * from `synthetic:shadow-room`; a video file or a grey-only scene is a UsageError.
  */
 export function frameInput(spec: string, options: FrameInputOptions & { colour: true }): AsyncIterable<ColourFrameItem>;
@@ -68,7 +68,7 @@ async function* colourFolder(path: string, options: FrameSourceOptions): AsyncGe
   if (!isFolder) {
     throw new UsageError(`--colour reads a folder of images or synthetic:${colourSceneId}; ${path} is not a folder (video files are read in grey only)`);
   }
-  yield* readColourFolder(path, options);
+  yield* readImageFolder(path, { ...options, colour: true });
 }
 
 async function* everyNth<T>(items: AsyncIterable<T>, every: number): AsyncIterable<T> {

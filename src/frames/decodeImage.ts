@@ -1,4 +1,5 @@
 import sharp, { type OutputInfo } from 'sharp';
+import type { ColourFrame } from './colourFrame.ts';
 import type { GreyFrame } from './frame.ts';
 import { FrameError } from './FrameError.ts';
 import { assertAspect, workingSize } from './workingSize.ts';
@@ -27,6 +28,17 @@ export interface DecodeImageOptions {
    * error. Unset (the default): no check, the image is stretched to fit.
    */
   aspectTolerance?: number;
+  /**
+   * Also return the picture in colour at the same size (`colour`, 8-bit sRGB interleaved), from
+   * the same decode: the colour mode's input. A grey image gives R = G = B. Default false.
+   */
+  colour?: boolean;
+}
+
+/** A decoded image: the grey working frame and, on request, the same picture in colour. */
+export interface DecodedImage extends GreyFrame {
+  /** With the `colour` option only: the resized colour pixels the grey frame was made from. */
+  readonly colour?: ColourFrame;
 }
 
 /**
@@ -47,8 +59,8 @@ export interface DecodeImageOptions {
  * @throws FrameError naming `name` and the reason: zero-byte file, unsupported format,
  *   truncated or corrupt image, too many pixels, wrong aspect ratio.
  */
-export async function decodeImage(input: Uint8Array, options: DecodeImageOptions = {}): Promise<GreyFrame> {
-  const { width, height, longSide = 320, name = 'image', limitInputPixels = 100_000_000, aspectTolerance } = options;
+export async function decodeImage(input: Uint8Array, options: DecodeImageOptions = {}): Promise<DecodedImage> {
+  const { width, height, longSide = 320, name = 'image', limitInputPixels = 100_000_000, aspectTolerance, colour = false } = options;
   for (const [field, value] of [['width', width], ['height', height], ['longSide', longSide], ['limitInputPixels', limitInputPixels]] as const) {
     if (value !== undefined && !(Number.isInteger(value) && value >= 1)) {
       throw new RangeError(`${field} must be a whole number ≥ 1, got ${value}`);
@@ -91,11 +103,10 @@ export async function decodeImage(input: Uint8Array, options: DecodeImageOptions
 
   let decoded: { data: Uint8Array; info: OutputInfo };
   try {
-    decoded = await sharp(input, { failOn: 'error', limitInputPixels, autoOrient: true })
+    const pipeline = sharp(input, { failOn: 'error', limitInputPixels, autoOrient: true })
       .resize(target.width, target.height, { fit: 'fill' })
-      .removeAlpha()
-      .raw({ depth: 'uchar' })
-      .toBuffer({ resolveWithObject: true });
+      .removeAlpha();
+    decoded = await (colour ? pipeline.toColourspace('srgb') : pipeline).raw({ depth: 'uchar' }).toBuffer({ resolveWithObject: true });
   } catch (error) {
     throw new FrameError(name, reasonOf(error), { cause: error });
   }
@@ -112,7 +123,9 @@ export async function decodeImage(input: Uint8Array, options: DecodeImageOptions
   const data = new Float32Array(n);
   if (channels === 1) data.set(bytes);
   else srgbToGrey(bytes, data);
-  return { width: target.width, height: target.height, data };
+  if (!colour) return { width: target.width, height: target.height, data };
+  if (channels !== 3) throw new FrameError(name, `decoder returned ${channels} channels in colour, expected 3`);
+  return { width: target.width, height: target.height, data, colour: { width: target.width, height: target.height, data: new Uint8Array(bytes) } };
 }
 
 /** sRGB level 0..255 → linear light 0..1 (IEC 61966-2-1 transfer function). */

@@ -1,6 +1,7 @@
 import { readdir, readFile } from 'node:fs/promises';
 import { extname, join } from 'node:path';
 import { decodeImage } from './decodeImage.ts';
+import type { ColourFrameItem } from './colourFrame.ts';
 import type { FrameItem } from './frame.ts';
 import { FrameError } from './FrameError.ts';
 import { frameSourceOptions, type FrameSourceOptions } from './frameSourceOptions.ts';
@@ -12,6 +13,8 @@ export const IMAGE_EXTENSIONS: readonly string[] = ['.jpg', '.jpeg', '.png', '.w
 export interface ReadImageFolderOptions extends FrameSourceOptions {
   /** Largest image accepted, in pixels (inclusive); see decodeImage. Default 100 000 000. */
   limitInputPixels?: number;
+  /** Also give each item its colour frame (decodeImage's `colour`, the same decode). Default false. */
+  colour?: boolean;
 }
 
 /**
@@ -32,9 +35,11 @@ export interface ReadImageFolderOptions extends FrameSourceOptions {
  * @throws FrameError (at the first iteration) when the folder is missing, is not a folder, or
  *   holds no images; the signal's reason when `signal` aborts.
  */
-export async function* readImageFolder(dir: string, options: ReadImageFolderOptions = {}): AsyncGenerator<FrameItem> {
+export function readImageFolder(dir: string, options: ReadImageFolderOptions & { colour: true }): AsyncGenerator<ColourFrameItem>;
+export function readImageFolder(dir: string, options?: ReadImageFolderOptions): AsyncGenerator<FrameItem>;
+export async function* readImageFolder(dir: string, options: ReadImageFolderOptions = {}): AsyncGenerator<FrameItem | ColourFrameItem> {
   const { width, height, longSide, every, limit, signal } = frameSourceOptions(options);
-  const { limitInputPixels } = options;
+  const { limitInputPixels, colour = false } = options;
   signal?.throwIfAborted();
 
   let entries;
@@ -66,7 +71,7 @@ export async function* readImageFolder(dir: string, options: ReadImageFolderOpti
     signal?.throwIfAborted();
     const name = images[index];
     const path = join(dir, name);
-    let item: FrameItem;
+    let item: FrameItem | ColourFrameItem;
     try {
       let bytes: Buffer;
       try {
@@ -79,9 +84,11 @@ export async function* readImageFolder(dir: string, options: ReadImageFolderOpti
         ...(size ? { width: size.width, height: size.height, aspectTolerance: 0.01 } : { width, longSide }),
         name: path,
         limitInputPixels,
+        colour,
       });
       size ??= { width: frame.width, height: frame.height };
-      item = { name, frame };
+      const grey = { width: frame.width, height: frame.height, data: frame.data };
+      item = frame.colour === undefined ? { name, frame: grey } : { name, frame: grey, colour: frame.colour };
     } catch (error) {
       if (signal?.aborted) throw signal.reason;
       if (!(error instanceof FrameError)) throw error;

@@ -2,12 +2,16 @@ import { writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { decodeColour } from '../../src/frames/decodeColour.ts';
 import { decodeImage } from '../../src/frames/decodeImage.ts';
 import { FrameError } from '../../src/frames/FrameError.ts';
-import { readColourFolder } from '../../src/frames/readColourFolder.ts';
 import { readImageFolder } from '../../src/frames/readImageFolder.ts';
 import { collect, flatPng, makeTempDir, pngBomb, removeTempDir, truncatedJpeg } from './fixtures.ts';
+
+/** decodeImage with `colour`: the colour frame alone. */
+async function decodeColour(input: Uint8Array, options: { width: number; height: number; name?: string }) {
+  const decoded = await decodeImage(input, { ...options, colour: true });
+  return decoded.colour!;
+}
 
 /** A width × height RGB image: red rising to the right, green rising downwards, blue constant. */
 function gradient(width: number, height: number): Buffer {
@@ -18,7 +22,7 @@ function gradient(width: number, height: number): Buffer {
   return rgb;
 }
 
-describe('decodeColour', () => {
+describe('decodeImage with colour', () => {
   it('gives the RGB pixels of a lossless image, interleaved, x right and y down', async () => {
     const rgb = gradient(16, 12);
     const png = await sharp(rgb, { raw: { width: 16, height: 12, channels: 3 } }).png().toBuffer();
@@ -48,14 +52,14 @@ describe('decodeColour', () => {
   it('refuses bad input with a FrameError naming it, as decodeImage does', async () => {
     await expect(decodeColour(Buffer.alloc(0), { width: 4, height: 4, name: 'a.png' })).rejects.toThrow('a.png: zero-byte file');
     const cut = await truncatedJpeg();
-    await expect(decodeColour(cut, { width: 4, height: 4, name: 'b.jpg' })).rejects.toThrow(/^b\.jpg: colour decoding failed \(.*premature end/i);
-    await expect(decodeColour(pngBomb(), { width: 4, height: 4, name: 'c.png' })).rejects.toThrow(/c\.png: image has more pixels than limitInputPixels/);
+    await expect(decodeColour(cut, { width: 4, height: 4, name: 'b.jpg' })).rejects.toThrow(/^b\.jpg: truncated or corrupt image \(.*premature end/i);
+    await expect(decodeColour(pngBomb(), { width: 4, height: 4, name: 'c.png' })).rejects.toThrow(/c\.png: image declares 100000×100000 .*more than limitInputPixels/);
     await expect(decodeColour(Buffer.from('not an image at all'), { width: 4, height: 4, name: 'd.png' })).rejects.toBeInstanceOf(FrameError);
     await expect(decodeColour(await flatPng(4, 4, 1), { width: 0, height: 4 })).rejects.toThrow(/width must be a whole number/);
   });
 });
 
-describe('readColourFolder', () => {
+describe('readImageFolder with colour', () => {
   let dir: string;
   beforeAll(async () => {
     dir = await makeTempDir();
@@ -66,7 +70,7 @@ describe('readColourFolder', () => {
   afterAll(() => removeTempDir(dir));
 
   it('pairs the grey frames of readImageFolder with their colour frames, keeping its order and errors', async () => {
-    const items = await collect(readColourFolder(dir, { longSide: 20 }));
+    const items = await collect(readImageFolder(dir, { longSide: 20, colour: true }));
     const grey = await collect(readImageFolder(dir, { longSide: 20 }));
     expect(items.map((i) => i.name)).toEqual(['frame2.png', 'frame3.jpg', 'frame10.png']);
     expect(items.map((i) => i.name)).toEqual(grey.map((i) => i.name));
