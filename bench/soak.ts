@@ -1,88 +1,208 @@
-// `npm run soak [-- --frames N] [--cameras C]`: runs C camera pipelines (default 4) over the
-// synthetic scenes as fast as they go, N frames in all (default 200 000), writing samples to a
-// temporary database, and reports frame rate, resident memory growth after warm-up, open file
-// descriptors and active handles/timers before and after. Not part of `npm test`.
-import { mkdtempSync, readdirSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+// `npm run soak [-- --frames N] [--cameras C] [--main-thread] [--slow-camera MS] [--json]`: runs C
+// synthetic cameras (default 4) as fast as they go, N frames in all (default 200 000), writing
+// samples to a temporary database, and reports the frame rate, the use of the machine's cores,
+// resident memory growth after warm-up, open file descriptors, active handles and threads before
+// and after. Not part of `npm test`.
+//
+// By default the cameras run as the service runs them (startService): each in its own worker
+// thread, with its source, counting and sample writes there, the main thread serving HTTP. Frames
+// come from the synthetic camera source at its fastest speed; samples every 2 s of wall time.
+// `--main-thread` runs the pipelines in this thread instead, driven directly with pre-rendered
+// scene frames and scene time (one sample per zone every 100 frames), as before the workers, for
+// comparison. `--slow-camera MS` (workers only) makes camera 0 block its thread MS ms after every
+// frame, a camera with a slow decoder: the others' rates show whether it holds them up.
+import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
+import { availableParallelism, tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { performance } from 'node:perf_hooks';
 import { parseArgs } from 'node:util';
-import type { CameraConfig } from '../src/config/loadConfig.ts';
+import { startService } from '../src/commands/run.ts';
+import type { CameraConfig, ResiduumConfig } from '../src/config/loadConfig.ts';
 import { createCameraPipeline } from '../src/counting/cameraPipeline.ts';
-import { createScene, type SceneId } from '../src/frames/synthetic/index.ts';
+import { storeModel } from '../src/counting/storeModel.ts';
+import { createScene, type SceneId, type SyntheticScene } from '../src/frames/synthetic/index.ts';
 import { openStore } from '../src/store/index.ts';
 import { fitSubspace } from '../src/vision/fitSubspace.ts';
+import type { Subspace } from '../src/vision/subspace.ts';
 
-const { values } = parseArgs({ options: { frames: { type: 'string' }, cameras: { type: 'string' }, json: { type: 'boolean' } } });
+const { values } = parseArgs({
+  options: { frames: { type: 'string' }, cameras: { type: 'string' }, json: { type: 'boolean' }, 'main-thread': { type: 'boolean' }, 'slow-camera': { type: 'string' } },
+});
 const total = Number(values.frames ?? 200_000);
 const cameraCount = Number(values.cameras ?? 4);
+const slowMs = values['slow-camera'] === undefined ? undefined : Number(values['slow-camera']);
+const mode = values['main-thread'] ? 'main-thread' : 'workers';
+if (!(Number.isInteger(total) && total >= 100)) throw new RangeError(`--frames: expected a whole number ≥ 100, got ${values.frames}`);
+if (!(Number.isInteger(cameraCount) && cameraCount >= 1 && cameraCount <= 32)) throw new RangeError(`--cameras: expected a whole number 1..32, got ${values.cameras}`);
+if (slowMs !== undefined && !(slowMs > 0 && mode === 'workers')) throw new RangeError('--slow-camera: expected milliseconds > 0, with the worker threads (not --main-thread)');
+
 const dir = mkdtempSync(join(tmpdir(), 'residuum-soak-'));
-const store = openStore(join(dir, 'soak.db'), { timeZone: 'UTC' });
 const fds = () => readdirSync('/proc/self/fd').length;
 const handles = () => process.getActiveResourcesInfo().length;
+/** Threads of the process (Linux proc(5), /proc/self/status): worker threads are among them. */
+const threads = () => Number(/^Threads:\s+(\d+)$/m.exec(readFileSync('/proc/self/status', 'utf8'))?.[1] ?? 0);
+const progress = (line: string) => {
+  if (!values.json) process.stderr.write(`\r${line}`);
+};
 
-const cameras = Array.from({ length: cameraCount }, (_, c) => {
+interface SoakCamera {
+  readonly config: CameraConfig;
+  readonly scene: SyntheticScene;
+  readonly model: Subspace;
+}
+
+const cameras: SoakCamera[] = Array.from({ length: cameraCount }, (_, c) => {
   const id = (c % 2 === 0 ? 'reading-room' : 'stock-room') as SceneId;
   const scene = createScene(id, { seed: c + 1 });
   const model = fitSubspace(Array.from({ length: 100 }, (_, i) => scene.emptyFrameAt(i * 30).data), scene, { components: 8 });
   const config: CameraConfig = {
     id: `cam-${c}`,
     name: `Camera ${c}`,
-    source: { kind: 'synthetic', scene: id, id: `cam-${c}`, size: { width: scene.width, height: scene.height } },
+    source: { kind: 'synthetic', scene: id, id: `cam-${c}`, size: { width: scene.width, height: scene.height }, seed: c + 1, speed: 1000 },
     learnSeconds: 30,
-    sampleSeconds: 10,
+    sampleSeconds: mode === 'workers' ? 2 : 10,
     smoothing: { window: 5, method: 'median' },
     threshold: 3,
     zones: scene.zones,
   };
-  store.upsertCamera({ id: config.id, name: config.name });
-  for (const zone of config.zones) store.upsertZone(config.id, zone);
-  return { scene, pipeline: createCameraPipeline({ camera: config, store, model }) };
+  return { config, scene, model };
 });
 
-const before = { fds: fds(), handles: handles() };
-const t0 = Date.UTC(2026, 0, 1);
-const perCamera = Math.ceil(total / cameraCount);
-const warmup = Math.min(2000, Math.floor(perCamera / 10));
+const before = { fds: fds(), handles: handles(), threads: threads() };
+const warmup = Math.min(2000 * cameraCount, Math.floor(total / 10));
 let warmRss = 0;
 let peakRss = 0;
 const rates: number[] = [];
-let windowStart = performance.now();
-const started = performance.now();
-for (let i = 0; i < perCamera; i++) {
-  for (const { scene, pipeline } of cameras) pipeline.handlers.frame(scene.frameAt(i % 36000).frame, t0 + i * 100);
-  if (i === warmup) {
+const frames = new Map<string, number>(cameras.map((c) => [c.config.id, 0]));
+const busy = new Map<string, number[]>(cameras.map((c) => [c.config.id, []]));
+// Set when the cameras start counting (after the workers started, in worker mode).
+let cpuStart = process.cpuUsage();
+let mainLoopStart = performance.eventLoopUtilization();
+let started = performance.now();
+let samples = 0;
+let seconds = 0;
+let cpu = { user: 0, system: 0 };
+let mainLoop = { utilization: 0 };
+const stopClock = () => {
+  seconds = (performance.now() - started) / 1000;
+  cpu = process.cpuUsage(cpuStart);
+  mainLoop = performance.eventLoopUtilization(mainLoopStart);
+};
+const startClock = () => {
+  cpuStart = process.cpuUsage();
+  mainLoopStart = performance.eventLoopUtilization();
+  started = performance.now();
+};
+
+const sample = (done: number) => {
+  if (done >= warmup && warmRss === 0) {
     global.gc?.();
     warmRss = process.memoryUsage().rss;
   }
-  if (i > warmup) peakRss = Math.max(peakRss, process.memoryUsage().rss);
-  if ((i + 1) % 1000 === 0) {
-    const now = performance.now();
-    rates.push((1000 * cameraCount) / ((now - windowStart) / 1000));
-    windowStart = now;
-    if (!values.json) process.stderr.write(`\r${(i + 1) * cameraCount} frames, ${rates.at(-1)!.toFixed(0)} frames/s`);
-    await new Promise((done) => setImmediate(done));
+  if (warmRss > 0) peakRss = Math.max(peakRss, process.memoryUsage().rss);
+};
+
+if (mode === 'workers') {
+  const store = openStore(join(dir, 'residuum.db'), { timeZone: 'UTC' });
+  for (const c of cameras) {
+    store.upsertCamera({ id: c.config.id, name: c.config.name });
+    storeModel(store, c.config.id, c.model, 'soak');
   }
+  store.close();
+  const config: ResiduumConfig = {
+    file: 'soak',
+    site: { name: 'Residuum soak', timeZone: 'UTC' },
+    storage: { sampleRetentionDays: 30 },
+    server: { host: '127.0.0.1', port: 0, viewToken: false },
+    cameras: cameras.map((c) => c.config),
+  };
+  const service = await startService(config, { dataDir: dir, port: 0, ...(slowMs !== undefined && { workerFaults: { 'cam-0': { slowFrameMs: slowMs } } }) });
+  const last = new Map<string, number | undefined>();
+  for (const host of service.cameras.values()) {
+    host.utilization();
+    host.on('live', (live) => {
+      if (live.lastFrameAt !== undefined && live.lastFrameAt !== last.get(live.camera)) {
+        last.set(live.camera, live.lastFrameAt);
+        frames.set(live.camera, (frames.get(live.camera) ?? 0) + 1);
+      }
+    });
+  }
+  const counted = () => [...frames.values()].reduce((a, b) => a + b, 0);
+  startClock();
+  let windowStart = performance.now();
+  let windowFrames = 0;
+  while (counted() < total) {
+    await new Promise((done) => setTimeout(done, 1000));
+    const now = performance.now();
+    const n = counted();
+    rates.push((n - windowFrames) / ((now - windowStart) / 1000));
+    windowStart = now;
+    windowFrames = n;
+    for (const host of service.cameras.values()) busy.get(host.id)!.push(host.utilization());
+    sample(n);
+    progress(`${n} frames, ${rates.at(-1)!.toFixed(0)} frames/s`);
+  }
+  stopClock();
+  samples = (service.store.db.prepare('select count(*) as n from samples').get() as { n: number }).n;
+  await service.stop();
+} else {
+  const store = openStore(join(dir, 'soak.db'), { timeZone: 'UTC' });
+  const pipelines = cameras.map((c) => {
+    store.upsertCamera({ id: c.config.id, name: c.config.name });
+    for (const zone of c.config.zones) store.upsertZone(c.config.id, zone);
+    return { scene: c.scene, pipeline: createCameraPipeline({ camera: c.config, store, model: c.model }) };
+  });
+  const t0 = Date.UTC(2026, 0, 1);
+  const perCamera = Math.ceil(total / cameraCount);
+  startClock();
+  let windowStart = performance.now();
+  for (let i = 0; i < perCamera; i++) {
+    for (const { scene, pipeline } of pipelines) pipeline.handlers.frame(scene.frameAt(i % 36000).frame, t0 + i * 100);
+    for (const c of cameras) frames.set(c.config.id, i + 1);
+    sample((i + 1) * cameraCount);
+    if ((i + 1) % 1000 === 0) {
+      const now = performance.now();
+      rates.push((1000 * cameraCount) / ((now - windowStart) / 1000));
+      windowStart = now;
+      progress(`${(i + 1) * cameraCount} frames, ${rates.at(-1)!.toFixed(0)} frames/s`);
+      await new Promise((done) => setImmediate(done));
+    }
+  }
+  stopClock();
+  for (const { pipeline } of pipelines) pipeline.stop();
+  samples = (store.db.prepare('select count(*) as n from samples').get() as { n: number }).n;
+  store.close();
 }
-const seconds = (performance.now() - started) / 1000;
-for (const { pipeline } of cameras) pipeline.stop();
-const samples = (store.db.prepare('select count(*) as n from samples').get() as { n: number }).n;
-store.close();
+
 rmSync(dir, { recursive: true, force: true });
-const after = { fds: fds(), handles: handles() };
+await new Promise((done) => setTimeout(done, 100)); // closed handles leave the list after libuv's close callbacks
+const after = { fds: fds(), handles: handles(), threads: threads() };
+const counted = [...frames.values()].reduce((a, b) => a + b, 0);
+const mean = (list: number[]) => (list.length === 0 ? 0 : list.reduce((a, b) => a + b, 0) / list.length);
+const round2 = (x: number) => Math.round(x * 100) / 100;
 const report = {
-  frames: perCamera * cameraCount,
+  mode,
+  frames: counted,
   cameras: cameraCount,
+  ...(slowMs !== undefined && { slowCamera: { camera: 'cam-0', blockedMsPerFrame: slowMs } }),
   seconds: Math.round(seconds),
-  framesPerSecond: Math.round((perCamera * cameraCount) / seconds),
+  framesPerSecond: Math.round(counted / seconds),
+  framesPerSecondByCamera: Object.fromEntries([...frames].map(([id, n]) => [id, Math.round(n / seconds)])),
   rateFirstWindow: Math.round(rates[0] ?? 0),
   rateLastWindow: Math.round(rates.at(-1) ?? 0),
+  // CPU time of all threads over wall time: 2 on a 2-core machine kept busy.
+  coresUsed: round2((cpu.user + cpu.system) / 1e6 / seconds),
+  coresAvailable: availableParallelism(),
+  mainThreadUtilization: round2(mainLoop.utilization),
+  ...(mode === 'workers' && { workerThreadUtilization: Object.fromEntries([...busy].map(([id, list]) => [id, round2(mean(list))])) }),
   rssAfterWarmupMb: Math.round(warmRss / 2 ** 20),
   rssPeakMb: Math.round(peakRss / 2 ** 20),
   rssGrowthPercent: warmRss > 0 ? Math.round(((peakRss - warmRss) / warmRss) * 1000) / 10 : 0,
   samplesStored: samples,
   fileDescriptors: { before: before.fds, after: after.fds },
   activeResources: { before: before.handles, after: after.handles },
+  threads: { before: before.threads, after: after.threads },
 };
 if (!values.json) process.stderr.write('\n');
 console.log(values.json ? JSON.stringify(report) : JSON.stringify(report, null, 2));
-process.exitCode = report.rssGrowthPercent < 10 && after.fds <= before.fds && after.handles <= before.handles ? 0 : 1;
+process.exitCode = report.rssGrowthPercent < 10 && after.fds <= before.fds && after.handles <= before.handles && after.threads <= before.threads ? 0 : 1;

@@ -2,22 +2,22 @@ import { EventEmitter } from 'node:events';
 import type { Server } from 'node:http';
 import { join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
-import { createCameraPipeline, type CameraPipeline } from '../counting/cameraPipeline.ts';
+import { createCameraHost, type CameraHost } from '../counting/cameraHost.ts';
+import type { WorkerFault } from '../counting/cameraWorkerProtocol.ts';
 import { learnInWorker } from '../counting/learnInWorker.ts';
-import { createMetrics } from '../outputs/metrics.ts';
+import { createMetrics, type Metrics } from '../outputs/metrics.ts';
 import { createMqttPublisher } from '../outputs/mqtt/mqttPublisher.ts';
 import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
 import { siteSlug } from '../outputs/mqtt/topics.ts';
-import { decodeModel, encodeModel, loadModel, modelFormatVersion } from '../counting/modelFile.ts';
+import { decodeModel, encodeModel, loadModel } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
-import type { CameraSource } from '../frames/live/cameraSource.ts';
-import { createCameraSource } from '../frames/live/createCameraSource.ts';
+import { storeModel } from '../counting/storeModel.ts';
+import type { BackoffOptions } from '../frames/live/backoff.ts';
 import { createScene } from '../frames/synthetic/index.ts';
 import { createApp } from '../server/createApp.ts';
 import type { ServiceControl, SmallImage } from '../server/serviceControl.ts';
 import { prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts';
 import { validateZones } from '../counting/parseZones.ts';
-import type { Zone } from '../counting/zone.ts';
 import { openStore, type Store } from '../store/index.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
@@ -33,9 +33,12 @@ hourly rollups in <data>/residuum.db, and serves the JSON API on the configured 
 
 /** A running service: its parts and how to stop it. */
 export interface RunningService {
+  /** The main thread's connection to the database (each camera's worker has its own). */
   readonly store: Store;
-  readonly pipelines: ReadonlyMap<string, CameraPipeline>;
+  /** Each camera's worker thread, by camera id. */
+  readonly cameras: ReadonlyMap<string, CameraHost>;
   readonly control: ServiceControl;
+  readonly metrics: Metrics;
   readonly server: Server;
   readonly port: number;
   /** Keys made at this start (first start, or --reset-token), to show once; empty otherwise. */
@@ -81,22 +84,47 @@ export interface StartServiceOptions {
   readonly log?: (line: string) => void;
   /** Replace the admin (and view) key with new ones; default false. */
   readonly resetToken?: boolean;
+  /** Delays before a failed camera worker is started again; default 1 s doubling to 60 s, full jitter. */
+  readonly workerRestart?: BackoffOptions;
+  /** A camera worker that sent nothing (not even its 1 s heartbeat) for this long is restarted, ms; 0 = never; default 30 000. */
+  readonly workerStallMs?: number;
+  /** Tests and the soak benchmark only: a fault to simulate, by camera id (see WorkerFault); default none. */
+  readonly workerFaults?: Readonly<Record<string, WorkerFault>>;
 }
 
 /**
  * Starts everything the configuration describes. The configuration is validated before the
  * database is opened, so a bad file changes nothing.
+ *
+ * Threads: each camera runs in its own worker thread (src/counting/cameraHost.ts,
+ * cameraWorker.ts): its source, decoding, counting, and the writes of its samples, events and
+ * learned models through its own database connection. The main thread keeps the HTTP server and
+ * live stream, MQTT, metrics, settings and zone writes, retention, and the events of failed
+ * workers. A worker that crashes, exits or hangs makes its camera `offline` (event and log line)
+ * and is started again with backoff; the other cameras keep counting.
  */
 export async function startService(config: ResiduumConfig, options: StartServiceOptions): Promise<RunningService> {
-  const { dataDir, log = () => {} } = options;
-  const store = openStore(join(resolve(dataDir), 'residuum.db'), { timeZone: config.site.timeZone });
-  const sources: CameraSource[] = [];
-  const pipelines = new Map<string, CameraPipeline>();
+  const { dataDir, log = () => {}, workerRestart = {}, workerStallMs = 30_000, workerFaults = {} } = options;
+  const dbFile = join(resolve(dataDir), 'residuum.db');
+  const store = openStore(dbFile, { timeZone: config.site.timeZone });
+  const hosts = new Map<string, CameraHost>();
   let retention: NodeJS.Timeout | undefined;
   // MQTT is best-effort after the database: samples and events are published once committed.
   const mqtt = config.mqtt && createMqttPublisher(config.mqtt, { site: config.mqtt.site ?? siteSlug(config.site.name), store, log });
-  const metrics = createMetrics(mqtt ? { mqtt: () => mqtt.stats() } : {});
-  const pipelineStore = mqtt ? publishingStore(store, mqtt, log) : store;
+  const metrics = createMetrics({
+    ...(mqtt && { mqtt: () => mqtt.stats() }),
+    threadUtilization: () => [...hosts.values()].map((h) => [h.id, h.utilization()] as const),
+  });
+  // The main thread's own events (a camera's worker failed) go to MQTT too.
+  const mainEvents = mqtt ? publishingStore(store, mqtt, log) : store;
+  const quietly = (what: string, publish: () => void) => {
+    try {
+      publish();
+    } catch (error) {
+      log(`mqtt: could not queue ${what} (${(error as Error).message})`);
+    }
+  };
+  const stopCameras = () => Promise.all([...hosts.values()].map((h) => h.stop()));
   try {
     for (const camera of config.cameras) {
       store.upsertCamera({ id: camera.id, name: camera.name });
@@ -104,38 +132,44 @@ export async function startService(config: ResiduumConfig, options: StartService
       for (const zone of camera.zones) store.upsertZone(camera.id, zone);
       for (const old of store.listZones({ camera: camera.id })) if (!known.has(old.zone.id)) store.removeZone(camera.id, old.zone.id);
     }
+    const models = new Map<string, Subspace | undefined>();
+    for (const camera of config.cameras) models.set(camera.id, await cameraModel(camera, store, log));
     for (const camera of config.cameras) {
-      const model = await cameraModel(camera, store, log);
-      const pipeline = createCameraPipeline({
+      const model = models.get(camera.id);
+      const fault = workerFaults[camera.id];
+      const host = createCameraHost({
         camera,
-        store: pipelineStore,
-        model,
-        // Rooms are rarely quite empty: learning from the live view rejects people passing through.
-        learn: (frames, size) => learnInWorker(frames, size, { robustIterations: 1 }),
-        onModel: (learned) => storeModel(store, camera.id, learned, 'live source'),
+        dbFile,
+        timeZone: store.timeZone,
+        ...(model && { model }),
+        events: mainEvents,
+        relayCommits: mqtt !== undefined,
         log,
+        restartBackoff: workerRestart,
+        stallMs: workerStallMs,
+        ...(fault && { fault }),
       });
-      pipeline.on('counted', (seconds: number) => metrics.observeStage('count', seconds));
-      pipeline.on('live', (live) => {
+      hosts.set(camera.id, host);
+      host.on('stage', (stage: string, seconds: number) => {
+        try {
+          metrics.observeStage(stage, seconds);
+        } catch (error) {
+          log(`camera ${camera.id}: a stage timing was not recorded (${(error as Error).message})`);
+        }
+      });
+      host.on('live', (live) => {
         mqtt?.publishLive(live);
         metrics.observeLive(live);
       });
-      const source = createCameraSource(camera.source);
-      source.start({
-        ...pipeline.handlers,
-        badFrame(error) {
-          metrics.sourceError(camera.id);
-          pipeline.handlers.badFrame(error);
-        },
-        status(state, detail) {
-          if (state === 'offline') metrics.sourceError(camera.id);
-          pipeline.handlers.status(state, detail);
-        },
-      });
-      sources.push(source);
-      pipelines.set(camera.id, pipeline);
-      log(`camera ${camera.id}: started (${camera.source.kind}, ${camera.zones.length} zone${camera.zones.length === 1 ? '' : 's'})`);
+      host.on('sourceError', () => metrics.sourceError(camera.id));
+      host.on('restart', () => metrics.workerRestart(camera.id));
+      if (mqtt) {
+        host.on('sample', (sample) => quietly('a sample', () => mqtt.publishSample(sample)));
+        host.on('event', (event) => quietly('an event', () => mqtt.publishEvent(event)));
+      }
+      log(`camera ${camera.id}: started (${camera.source.kind}, ${camera.zones.length} zone${camera.zones.length === 1 ? '' : 's'}) in its own thread`);
     }
+    await Promise.all([...hosts.values()].map((h) => h.ready()));
     const prune = () => {
       const { deleted, rollupsDeleted = 0 } = store.applyRetention({
         sampleDays: config.storage.sampleRetentionDays,
@@ -148,16 +182,17 @@ export async function startService(config: ResiduumConfig, options: StartService
     retention = setInterval(prune, 3_600_000);
     retention.unref();
   } catch (error) {
-    await Promise.all(sources.map((s) => s.stop()));
+    clearInterval(retention);
+    await stopCameras();
     await mqtt?.stop();
     store.close();
     throw error;
   }
-  const control = serviceControl(store, pipelines, config);
+  const control = serviceControl(store, hosts);
   const app = createApp({
     store,
     control,
-    live: () => [...pipelines.values()].map((p) => p.live()),
+    live: () => [...hosts.values()].map((h) => h.live()),
     siteName: config.site.name,
     timeZone: config.site.timeZone,
     startedAt: Date.now(),
@@ -176,8 +211,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     });
   } catch (error) {
     clearInterval(retention);
-    for (const p of pipelines.values()) p.stop();
-    await Promise.all(sources.map((s) => s.stop()));
+    await stopCameras();
     await mqtt?.stop();
     store.close();
     throw new Error(`server: cannot listen on ${config.server.host}:${port} (${(error as Error).message})`, { cause: error });
@@ -188,14 +222,14 @@ export async function startService(config: ResiduumConfig, options: StartService
   return {
     newTokens,
     store,
-    pipelines,
+    cameras: hosts,
     server,
     control,
+    metrics,
     port: typeof address === 'object' && address ? address.port : 0,
     async stop() {
       if (retention) clearInterval(retention);
-      for (const p of pipelines.values()) p.stop();
-      await Promise.all(sources.map((s) => s.stop()));
+      await stopCameras();
       await mqtt?.stop();
       server.closeAllConnections();
       await new Promise<void>((done) => server.close(() => done()));
@@ -239,37 +273,23 @@ async function cameraModel(camera: CameraConfig, store: Store, log: (line: strin
   return undefined;
 }
 
-function storeModel(store: Store, camera: string, model: Subspace, source: string): void {
-  const verdict = modelVerdict(model);
-  store.insertModel({
-    camera,
-    width: model.width,
-    height: model.height,
-    components: model.components,
-    formatVersion: modelFormatVersion,
-    data: encodeModel(model, { learnedAt: new Date().toISOString(), source }),
-    metadata: { source, frames: model.frameCount, retainedVariance: model.retainedVariance, medianNoise: verdict.medianNoise, verdict: verdict.level },
-  });
-}
-
 /** The service as the HTTP layer sees it (see ServiceControl). */
-function serviceControl(store: Store, pipelines: ReadonlyMap<string, CameraPipeline>, config: ResiduumConfig): ServiceControl {
+function serviceControl(store: Store, hosts: ReadonlyMap<string, CameraHost>): ServiceControl {
   const control = new EventEmitter() as ServiceControl;
-  const zonesNow = new Map<string, readonly Zone[]>(config.cameras.map((c) => [c.id, c.zones]));
-  const pipeline = (camera: string) => {
-    const p = pipelines.get(camera);
-    if (!p) throw new RangeError(`no camera "${camera}"`);
-    return p;
+  const host = (camera: string) => {
+    const h = hosts.get(camera);
+    if (!h) throw new RangeError(`no camera "${camera}"`);
+    return h;
   };
-  for (const [camera, p] of pipelines) {
-    p.on('live', (live) => control.emit('live', live));
-    p.on('learn', (status) => control.emit('learn', { camera, status }));
+  for (const [camera, h] of hosts) {
+    h.on('live', (live) => control.emit('live', live));
+    h.on('learn', (status) => control.emit('learn', { camera, status }));
   }
   Object.assign(control, {
-    cameras: () => [...pipelines.values()].map((p) => p.live()),
-    zones: (camera: string) => zonesNow.get(camera),
+    cameras: () => [...hosts.values()].map((h) => h.live()),
+    zones: (camera: string) => hosts.get(camera)?.zones(),
     setZones(camera: string, raw: unknown) {
-      const p = pipeline(camera);
+      const h = host(camera);
       const zones = validateZones(raw, 'request body', 'zones');
       const keep = new Set(zones.map((z) => z.id));
       const tx = store.db.transaction(() => {
@@ -277,22 +297,21 @@ function serviceControl(store: Store, pipelines: ReadonlyMap<string, CameraPipel
         for (const old of store.listZones({ camera })) if (!keep.has(old.zone.id)) store.removeZone(camera, old.zone.id);
       });
       tx();
-      p.setZones(zones);
-      zonesNow.set(camera, zones);
+      h.setZones(zones);
       return zones;
     },
     background(camera: string): SmallImage | undefined {
-      const model = pipeline(camera).model();
+      const model = host(camera).model();
       if (!model) return undefined;
       return { width: model.width, height: model.height, data: Uint8Array.from(model.mean, (v) => Math.max(0, Math.min(255, Math.round(v)))) };
     },
     modelSummary(camera: string) {
-      const model = pipeline(camera).model();
+      const model = host(camera).model();
       if (!model) return undefined;
       return { width: model.width, height: model.height, components: model.components, retainedVariance: model.retainedVariance, frames: model.frameCount, verdict: modelVerdict(model) };
     },
     maskPreview(camera: string, cell = 4): SmallImage | undefined {
-      const mask = pipeline(camera).lastMask();
+      const mask = host(camera).lastMask();
       if (!mask) return undefined;
       if (!(Number.isInteger(cell) && cell >= 2 && cell <= 32)) throw new RangeError(`cell must be a whole number from 2 to 32, got ${cell}`);
       const width = Math.ceil(mask.width / cell);
@@ -301,8 +320,8 @@ function serviceControl(store: Store, pipelines: ReadonlyMap<string, CameraPipel
       for (let y = 0; y < mask.height; y++) for (let x = 0; x < mask.width; x++) if (mask.data[y * mask.width + x]) data[Math.floor(y / cell) * width + Math.floor(x / cell)] = 1;
       return { width, height, data };
     },
-    learn: (camera: string, seconds: number) => pipeline(camera).relearn(seconds),
-    learnStatus: (camera: string) => pipelines.get(camera)?.learnStatus(),
+    learn: (camera: string, seconds: number) => host(camera).relearn(seconds),
+    learnStatus: (camera: string) => hosts.get(camera)?.learnStatus(),
   });
   return control;
 }

@@ -18,8 +18,19 @@ import type { MqttPublisherStats } from './mqtt/mqttPublisher.ts';
  * | `residuum_camera_fps` | gauge | camera | frames counted per second over the last `fpsWindowSeconds` (at scrape time) |
  * | `residuum_last_frame_age_seconds` | gauge | camera | now − capture time of the last counted frame (at scrape time; cameras that counted a frame) |
  * | `residuum_source_errors_total` | counter | camera | bad frames and lost connections of the source |
- * | `residuum_stage_seconds` | histogram | stage | processing time per stage |
+ * | `residuum_stage_seconds` | histogram | stage | processing time per stage (see below) |
+ * | `residuum_camera_thread_utilization` | gauge | camera | share of time the camera's worker thread was busy since the previous scrape, 0..1 (with the `threadUtilization` option) |
+ * | `residuum_camera_worker_restarts_total` | counter | camera | the camera's worker thread failed (crashed, exited, hung) and was started again |
  * | `residuum_mqtt_connected`, `residuum_mqtt_queued_samples`, `residuum_mqtt_samples_published_total`, `residuum_mqtt_samples_dropped_total` | | | with the `mqtt` option |
+ *
+ * Stages of the counting service (each camera's worker thread times them): `frame` (all the
+ * pipeline does with one frame: count, smoothing, events, sample writes), `count` (the counter on
+ * one frame), `store` (one batch of samples written, one transaction), `source` (from the capture
+ * time to the pipeline, i.e. decoding — with the download for snapshots — or rendering a synthetic
+ * frame; not for drop folders and ffmpeg). The counter's own stages (`residual`, `noise_scale`,
+ * `threshold`, `morphology`, `labelling`, `zones`: COUNTER_STAGES of createMaskCounter.ts) come
+ * once the pipeline passes the counter's stage times on (see forwardCounterStages in
+ * src/counting/cameraWorker.ts).
  *
  * Per-zone series disappear when the zone is no longer in the camera's live view. No label ever
  * carries anything but camera, zone and stage ids (letters, digits, `-`, `_`).
@@ -36,6 +47,8 @@ export interface MetricsOptions {
   readonly stageBuckets?: readonly number[];
   /** The MQTT publisher's figures, read at scrape time; default none (no mqtt metrics). */
   readonly mqtt?: () => MqttPublisherStats;
+  /** Each camera's worker-thread utilization (0..1) since the previous scrape, read at scrape time; default none (no utilization metric). */
+  readonly threadUtilization?: () => Iterable<readonly [camera: string, utilization: number]>;
 }
 
 export interface Metrics {
@@ -48,6 +61,8 @@ export interface Metrics {
   observeStage(stage: string, seconds: number): void;
   /** Counts `n` (default 1) source errors of `camera`: a bad frame, a failed connection. */
   sourceError(camera: string, n?: number): void;
+  /** Counts one restart of `camera`'s worker thread after it failed. */
+  workerRestart(camera: string): void;
   /** The text exposition of every metric. */
   render(): Promise<string>;
 }
@@ -66,7 +81,7 @@ interface CameraTrack {
 
 /** A fresh registry with Residuum's metrics (one per service; tests make their own). */
 export function createMetrics(options: MetricsOptions = {}): Metrics {
-  const { processMetrics = true, clock = Date.now, fpsWindowSeconds = 10, stageBuckets = STAGE_BUCKETS, mqtt } = options;
+  const { processMetrics = true, clock = Date.now, fpsWindowSeconds = 10, stageBuckets = STAGE_BUCKETS, mqtt, threadUtilization } = options;
   if (!(fpsWindowSeconds > 0 && fpsWindowSeconds <= 3600)) throw new RangeError(`fpsWindowSeconds: expected a number in (0, 3600], got ${String(fpsWindowSeconds)}`);
   if (!(stageBuckets.length > 0 && stageBuckets.every((b, i) => Number.isFinite(b) && b > 0 && (i === 0 || b > stageBuckets[i - 1])))) {
     throw new RangeError(`stageBuckets: expected increasing positive numbers of seconds, got ${JSON.stringify(stageBuckets)}`);
@@ -90,6 +105,19 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
   const frames = new Counter({ name: 'residuum_frames_processed_total', help: 'Frames counted.', labelNames: ['camera'] as const, registers });
   const sourceErrors = new Counter({ name: 'residuum_source_errors_total', help: 'Bad frames and failed connections of the camera source.', labelNames: ['camera'] as const, registers });
   const stages = new Histogram({ name: 'residuum_stage_seconds', help: 'Processing time per stage, seconds.', labelNames: ['stage'] as const, buckets: [...stageBuckets], registers });
+  const restarts = new Counter({ name: 'residuum_camera_worker_restarts_total', help: "Restarts of the camera's worker thread after it crashed, exited or hung.", labelNames: ['camera'] as const, registers });
+  if (threadUtilization) {
+    new Gauge({
+      name: 'residuum_camera_thread_utilization',
+      help: "Share of time the camera's worker thread was busy (event-loop utilization) since the previous scrape, 0..1.",
+      labelNames: ['camera'] as const,
+      registers,
+      collect() {
+        this.reset();
+        for (const [camera, utilization] of threadUtilization()) if (Number.isFinite(utilization)) this.set({ camera }, Math.min(1, Math.max(0, utilization)));
+      },
+    });
+  }
   new Gauge({
     name: 'residuum_camera_fps',
     help: `Frames counted per second, over the last ${fpsWindowSeconds} s.`,
@@ -154,6 +182,7 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
         // instrumentation practice: avoid missing metrics).
         frames.inc({ camera }, 0);
         sourceErrors.inc({ camera }, 0);
+        restarts.inc({ camera }, 0);
       }
       if (live.lastFrameAt !== undefined && live.lastFrameAt !== track.lastFrameAt) {
         track.lastFrameAt = live.lastFrameAt;
@@ -190,6 +219,9 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
     sourceError(camera, n = 1) {
       if (!(Number.isInteger(n) && n >= 1)) throw new RangeError(`n: expected a whole number ≥ 1, got ${String(n)}`);
       sourceErrors.inc({ camera }, n);
+    },
+    workerRestart(camera) {
+      restarts.inc({ camera });
     },
     render: () => registry.metrics(),
   };

@@ -195,3 +195,34 @@ describe('createMetrics', () => {
     expect(() => createMetrics({ stageBuckets: [0.1, 0.05] })).toThrow(/stageBuckets/);
   });
 });
+
+describe('createMetrics: camera worker threads', () => {
+  it('counts worker restarts per camera from 0, and reads thread utilization at scrape time', async () => {
+    let busy: [string, number][] = [['door', 0.25], ['hall', 1.5]];
+    const m = createMetrics({ processMetrics: false, threadUtilization: () => busy });
+    m.observeLive({ camera: 'door', name: 'Door', state: 'online', viewChanged: false, zones: [] });
+    m.observeLive({ camera: 'hall', name: 'Hall', state: 'offline', viewChanged: false, zones: [] });
+    m.workerRestart('hall');
+    m.workerRestart('hall');
+    let e = parseExposition(await m.render());
+    // check: Prometheus instrumentation practice — a counter that is 0 is exported, not missing.
+    expect(valueOf(e, 'residuum_camera_worker_restarts_total', { camera: 'door' })).toBe(0);
+    expect(valueOf(e, 'residuum_camera_worker_restarts_total', { camera: 'hall' })).toBe(2);
+    expect(e.types.get('residuum_camera_worker_restarts_total')).toBe('counter');
+    expect(e.types.get('residuum_camera_thread_utilization')).toBe('gauge');
+    expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'door' })).toBe(0.25);
+    // A share of time: clamped to 0..1.
+    expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'hall' })).toBe(1);
+    // A camera no longer reported leaves the gauge.
+    busy = [['door', 0.5]];
+    e = parseExposition(await m.render());
+    expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'door' })).toBe(0.5);
+    expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'hall' })).toBeUndefined();
+  });
+
+  it('has no utilization metric without the option', async () => {
+    const e = parseExposition(await createMetrics({ processMetrics: false }).render());
+    expect(e.types.has('residuum_camera_thread_utilization')).toBe(false);
+    expect(e.types.get('residuum_camera_worker_restarts_total')).toBe('counter');
+  });
+});
