@@ -21,6 +21,7 @@
  *
  * Frames are never written anywhere: they are handed to `frame` in memory and forgotten.
  */
+import type { ColourFrame } from '../colourFrame.ts';
 import type { GreyFrame } from '../frame.ts';
 import type { FrameError } from '../FrameError.ts';
 import type { Size } from '../workingSize.ts';
@@ -47,8 +48,11 @@ export interface StatusDetail {
 
 /** The handlers a source delivers to. They are called synchronously and must not throw. */
 export interface CameraHandlers {
-  /** A good frame: grey, exactly the configured working size; `capturedAt` in epoch milliseconds. */
-  frame(frame: GreyFrame, capturedAt: number): void;
+  /**
+   * A good frame: grey, exactly the configured working size; `capturedAt` in epoch milliseconds;
+   * `colour`, the same picture in colour, from sources asked for colour (the colour mode).
+   */
+  frame(frame: GreyFrame, capturedAt: number, colour?: ColourFrame): void;
   /** The source's state changed (or, while offline, another retry failed). */
   status(state: SourceState, detail: StatusDetail): void;
   /** A single bad frame (undecodable JPEG, wrong size, failed poll): the source keeps going. */

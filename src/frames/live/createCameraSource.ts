@@ -3,6 +3,7 @@
  */
 import type { LookupFunction } from 'node:net';
 import { createScene, type SceneId } from '../synthetic/index.ts';
+import { createShadowRoom } from '../synthetic/shadowRoom.ts';
 import type { Size } from '../workingSize.ts';
 import type { BackoffOptions } from './backoff.ts';
 import type { CameraSource } from './cameraSource.ts';
@@ -32,6 +33,11 @@ export interface CameraSourceCommon {
   size: Size;
   /** Reconnection delays (HTTP and ffmpeg sources). Default: 1 s doubling up to 60 s, full jitter. */
   backoff?: BackoffOptions;
+  /**
+   * Deliver every frame in colour too, for the colour mode (shadows). Image sources (drop folder,
+   * snapshot, MJPEG) and the synthetic shadow room; not ffmpeg, which delivers grey. Default false.
+   */
+  colour?: boolean;
 }
 
 /** A folder cameras upload snapshots into. */
@@ -93,8 +99,8 @@ export interface FfmpegSourceDescription extends CameraSourceCommon {
 /** A synthetic scene played live (demo). */
 export interface SyntheticSourceDescription extends CameraSourceCommon {
   kind: 'synthetic';
-  /** The scene id: 'reading-room' or 'stock-room'. */
-  scene: SceneId;
+  /** The scene id: 'reading-room', 'stock-room', or 'shadow-room' (the reading room in colour, with shadows). */
+  scene: SceneId | 'shadow-room';
   /** Scene seconds per wall-clock second, > 0 and ≤ 1000. Default 1. */
   speed?: number;
   /** The scene's seed, a whole number. Default 1. */
@@ -133,7 +139,7 @@ export function createCameraSource(description: CameraSourceDescription, options
   const { ffmpegPath, clock, random, lookup } = options;
   checkText(description.id, 'id');
   checkSize(description.size);
-  const { id, size, backoff } = description;
+  const { id, size, backoff, colour } = description;
   switch (description.kind) {
     case 'drop-folder':
       return dropFolder(description.path, {
@@ -143,6 +149,7 @@ export function createCameraSource(description: CameraSourceDescription, options
         scanIntervalMs: description.scanIntervalMs,
         settleMs: description.settleMs,
         clock,
+        colour,
       });
     case 'snapshot':
       return snapshotPoller(description.url, {
@@ -156,6 +163,7 @@ export function createCameraSource(description: CameraSourceDescription, options
         clock,
         random,
         lookup,
+        colour,
       });
     case 'mjpeg':
       return mjpegStream(description.url, {
@@ -168,8 +176,10 @@ export function createCameraSource(description: CameraSourceDescription, options
         clock,
         random,
         lookup,
+        colour,
       });
     case 'ffmpeg':
+      if (colour) throw new RangeError('colour: ffmpeg sources deliver grey frames only; use a snapshot, MJPEG or drop-folder source for the colour mode');
       return ffmpegStream(description.input, {
         id,
         size,
@@ -183,8 +193,9 @@ export function createCameraSource(description: CameraSourceDescription, options
         random,
       });
     case 'synthetic': {
-      const scene = createScene(description.scene, { width: size.width, height: size.height, seed: description.seed });
-      return syntheticCamera(scene, { id, speed: description.speed, clock });
+      const sceneOptions = { width: size.width, height: size.height, seed: description.seed };
+      const scene = description.scene === 'shadow-room' ? createShadowRoom(sceneOptions) : createScene(description.scene, sceneOptions);
+      return syntheticCamera(scene, { id, speed: description.speed, clock, colour });
     }
     default: {
       const unknown: never = description;

@@ -4,6 +4,7 @@
  */
 import sharp from 'sharp';
 import { decodeImage } from '../decodeImage.ts';
+import type { ColourFrame } from '../colourFrame.ts';
 import type { GreyFrame } from '../frame.ts';
 import { FrameError } from '../FrameError.ts';
 import type { Size } from '../workingSize.ts';
@@ -16,6 +17,8 @@ export interface DecodeLiveFrameOptions {
   limitInputPixels?: number;
   /** Largest aspect-ratio difference resized to `size` (see assertAspect), ≥ 0. Default 0.01 (1 %). */
   aspectTolerance?: number;
+  /** Also decode the colour frame (the colour mode), from the same decode. Default false. */
+  colour?: boolean;
 }
 
 /** A decoded live frame and the size of the image it came from. */
@@ -24,6 +27,8 @@ export interface LiveFrame {
   readonly frame: GreyFrame;
   /** The image's own width × height after EXIF orientation (the camera's resolution). */
   readonly source: Size;
+  /** With the `colour` option: the same picture in colour, the working size. */
+  readonly colour?: ColourFrame;
 }
 
 /**
@@ -37,10 +42,11 @@ export interface LiveFrame {
  *   wrong aspect ratio.
  */
 export async function decodeLiveFrame(bytes: Uint8Array, size: Size, options: DecodeLiveFrameOptions = {}): Promise<LiveFrame> {
-  const { name = 'image', limitInputPixels, aspectTolerance = 0.01 } = options;
-  const frame = await decodeImage(bytes, { width: size.width, height: size.height, aspectTolerance, name, limitInputPixels });
+  const { name = 'image', limitInputPixels, aspectTolerance = 0.01, colour = false } = options;
+  const decoded = await decodeImage(bytes, { width: size.width, height: size.height, aspectTolerance, name, limitInputPixels, colour });
   const source = jpegFrameSize(bytes) ?? (await headerSize(bytes, name));
-  return { frame, source };
+  const frame = { width: decoded.width, height: decoded.height, data: decoded.data };
+  return decoded.colour === undefined ? { frame, source } : { frame, source, colour: decoded.colour };
 }
 
 /** The oriented size from sharp's header reading (the image has just decoded, so the header reads). */

@@ -49,6 +49,8 @@ export interface DropFolderOptions {
   badFramesBeforeOffline?: number;
   /** Largest image accepted in pixels (inclusive), see decodeImage. Default 100 000 000. */
   limitInputPixels?: number;
+  /** Also deliver each frame in colour (the colour mode; see decodeLiveFrame). Default false. */
+  colour?: boolean;
   /** Time source; tests only. Default the system clock. */
   clock?: Clock;
 }
@@ -95,6 +97,7 @@ export function dropFolder(path: string, options: DropFolderOptions): CameraSour
     maxBytes = 20 * 1024 * 1024,
     badFramesBeforeOffline = 5,
     limitInputPixels,
+    colour = false,
     clock = systemClock,
   } = options;
   checkText(id, 'id');
@@ -255,7 +258,7 @@ export function dropFolder(path: string, options: DropFolderOptions): CameraSour
       }
       if (bytes !== undefined) {
         try {
-          result = { decoded: await decodeLiveFrame(bytes, size, { name: filePath, limitInputPixels }) };
+          result = { decoded: await decodeLiveFrame(bytes, size, { name: filePath, limitInputPixels, colour }) };
         } catch (error) {
           if (!(error instanceof FrameError)) throw error;
           result = { error };
@@ -291,7 +294,7 @@ export function dropFolder(path: string, options: DropFolderOptions): CameraSour
       } else if (change !== undefined && state === 'online') {
         reportSizeChange(change);
       }
-      handlers.frame(frame, file.mtimeMs);
+      handlers.frame(frame, file.mtimeMs, result.decoded.colour);
     } else {
       handlers.badFrame(result.error);
       const reason = streak.bad(result.error);

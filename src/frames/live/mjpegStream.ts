@@ -34,6 +34,8 @@ export interface MjpegStreamOptions {
   backoff?: BackoffOptions;
   /** Largest image accepted in pixels (inclusive), see decodeImage. Default 100 000 000. */
   limitInputPixels?: number;
+  /** Also deliver each frame in colour (the colour mode; see decodeLiveFrame). Default false. */
+  colour?: boolean;
   /** Time source; tests only. Default the system clock. */
   clock?: Clock;
   /** Uniform random numbers in [0, 1) for the backoff jitter; tests only. Default Math.random. */
@@ -76,6 +78,7 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
     badFramesBeforeOffline = 5,
     backoff = {},
     limitInputPixels,
+    colour = false,
     clock = systemClock,
     random = Math.random,
     lookup,
@@ -221,7 +224,7 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
       waiting = undefined;
       let decoded;
       try {
-        decoded = await decodeLiveFrame(part.body, size, { name, limitInputPixels });
+        decoded = await decodeLiveFrame(part.body, size, { name, limitInputPixels, colour });
       } catch (error) {
         if (!(error instanceof FrameError)) throw error;
         bad(error, part.generation, abort ?? connection);
@@ -237,7 +240,7 @@ export function mjpegStream(url: string, options: MjpegStreamOptions): CameraSou
       } else if (change !== undefined) {
         setStatus('online', change);
       }
-      handlers.frame(decoded.frame, part.capturedAt);
+      handlers.frame(decoded.frame, part.capturedAt, decoded.colour);
     }
   };
 

@@ -5,6 +5,7 @@ import http from 'node:http';
 import https from 'node:https';
 import type { IncomingMessage } from 'node:http';
 import type { LookupFunction } from 'node:net';
+import type { ColourFrame } from '../colourFrame.ts';
 import type { GreyFrame } from '../frame.ts';
 import { FrameError } from '../FrameError.ts';
 import type { Size } from '../workingSize.ts';
@@ -38,6 +39,8 @@ export interface SnapshotPollerOptions {
   backoff?: BackoffOptions;
   /** Largest image accepted in pixels (inclusive), see decodeImage. Default 100 000 000. */
   limitInputPixels?: number;
+  /** Also deliver each frame in colour (the colour mode; see decodeLiveFrame). Default false. */
+  colour?: boolean;
   /** Time source; tests only. Default the system clock. */
   clock?: Clock;
   /** Uniform random numbers in [0, 1) for the backoff jitter; tests only. Default Math.random. */
@@ -51,6 +54,7 @@ interface Snapshot {
   readonly frame: GreyFrame;
   readonly source: Size;
   readonly capturedAt: number;
+  readonly colour?: ColourFrame;
 }
 
 /** A failed poll: what went wrong, and whether a 2xx response had arrived (so it counts as a bad frame). */
@@ -99,6 +103,7 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
     failuresBeforeOffline = 3,
     backoff = {},
     limitInputPixels,
+    colour = false,
     clock = systemClock,
     random = Math.random,
     lookup,
@@ -155,7 +160,7 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
       } else if (change !== undefined) {
         setStatus('online', change);
       }
-      handlers.frame(result.frame, result.capturedAt);
+      handlers.frame(result.frame, result.capturedAt, result.colour);
       next(began);
       return;
     }
@@ -254,7 +259,7 @@ export function snapshotPoller(url: string, options: SnapshotPollerOptions): Cam
       if (controller === abort) controller = undefined;
     }
     try {
-      return { ...(await decodeLiveFrame(bytes, size, { name, limitInputPixels })), capturedAt };
+      return { ...(await decodeLiveFrame(bytes, size, { name, limitInputPixels, colour })), capturedAt };
     } catch (error) {
       if (error instanceof FrameError) throw fail(error.message, true, error);
       throw error;

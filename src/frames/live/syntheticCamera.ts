@@ -3,6 +3,7 @@
  * are rendered as wall time passes, and an outage can be simulated.
  */
 import type { SceneTruth, SyntheticScene } from '../synthetic/scene.ts';
+import type { ShadowRoomScene } from '../synthetic/shadowRoom.ts';
 import type { CameraHandlers, CameraSource, SourceState, StatusDetail } from './cameraSource.ts';
 import { checkText } from './checkOptions.ts';
 import { systemClock, type Clock } from './clock.ts';
@@ -22,6 +23,11 @@ export interface SyntheticCameraOptions {
   outages?: readonly SimulatedOutage[];
   /** Time source (now and timers). Default the system clock. */
   clock?: Clock;
+  /**
+   * Deliver each frame in colour too (the colour mode); the scene must render colour (the shadow
+   * room, createShadowRoom). Default false.
+   */
+  colour?: boolean;
 }
 
 /** A {@link CameraSource} over a synthetic scene, which also tells what it showed. */
@@ -48,8 +54,12 @@ export interface SyntheticCamera extends CameraSource {
  * delivers 40 frames per wall-clock second (the scene's 10 fps × 4).
  */
 export function syntheticCamera(scene: SyntheticScene, options: SyntheticCameraOptions): SyntheticCamera {
-  const { id, speed = 1, outages = [], clock = systemClock } = options;
+  const { id, speed = 1, outages = [], clock = systemClock, colour = false } = options;
   checkText(id, 'id');
+  const colourScene = colour ? (scene as Partial<ShadowRoomScene>) : undefined;
+  if (colourScene !== undefined && typeof colourScene.colourFrameAt !== 'function') {
+    throw new RangeError('colour: this synthetic scene renders grey only (the shadow room renders colour)');
+  }
   if (!(typeof speed === 'number' && speed > 0 && speed <= 1000)) throw new RangeError(`speed must be a number > 0 and ≤ 1000, got ${String(speed)}`);
   outages.forEach((outage, index) => {
     if (!(outage.fromMs >= 0 && outage.toMs > outage.fromMs && Number.isFinite(outage.toMs))) {
@@ -83,10 +93,10 @@ export function syntheticCamera(scene: SyntheticScene, options: SyntheticCameraO
     } else {
       if (state !== 'online') setStatus('online');
       if (t !== lastIndex) {
-        const { frame, truth } = scene.frameAt(t);
+        const { frame, truth, colour: inColour } = colourScene ? colourScene.colourFrameAt!(t) : { ...scene.frameAt(t), colour: undefined };
         lastIndex = t;
         lastTruth = truth;
-        handlers.frame(frame, now);
+        handlers.frame(frame, now, inColour);
       }
     }
     if (stopped) return;

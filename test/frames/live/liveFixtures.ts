@@ -8,6 +8,7 @@ import { createSocket } from 'node:dgram';
 import { Resolver } from 'node:dns';
 import http, { type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import type { AddressInfo, LookupFunction } from 'node:net';
+import type { ColourFrame } from '../../../src/frames/colourFrame.ts';
 import type { GreyFrame } from '../../../src/frames/frame.ts';
 import type { FrameError } from '../../../src/frames/FrameError.ts';
 import type { CameraHandlers, SourceState, StatusDetail } from '../../../src/frames/live/cameraSource.ts';
@@ -17,7 +18,7 @@ import { encodeGrey, greyPixels } from '../fixtures.ts';
 /** Everything a source delivered, in order. */
 export interface Recording {
   readonly handlers: CameraHandlers;
-  readonly frames: { frame: GreyFrame; capturedAt: number }[];
+  readonly frames: { frame: GreyFrame; capturedAt: number; colour?: ColourFrame }[];
   readonly statuses: { state: SourceState; detail: StatusDetail }[];
   readonly bad: FrameError[];
   /** Every call, in order: 'frame', 'bad' or the state. */
@@ -38,8 +39,8 @@ export function record(): Recording {
     log,
     state: () => statuses.at(-1)?.state,
     handlers: {
-      frame(frame, capturedAt) {
-        frames.push({ frame, capturedAt });
+      frame(frame, capturedAt, colour) {
+        frames.push(colour === undefined ? { frame, capturedAt } : { frame, capturedAt, colour });
         log.push('frame');
       },
       status(state, detail) {
