@@ -3,6 +3,9 @@ import type { Server } from 'node:http';
 import { join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraHost, type CameraHost } from '../counting/cameraHost.ts';
+import { createShadowRoom } from '../frames/synthetic/shadowRoom.ts';
+import type { ChromaticityModel } from '../vision/chromaticityModel.ts';
+import { fitChromaticity } from '../vision/fitChromaticity.ts';
 import type { WorkerFault } from '../counting/cameraWorkerProtocol.ts';
 import { learnInWorker } from '../counting/learnInWorker.ts';
 import { createMetrics, type Metrics } from '../outputs/metrics.ts';
@@ -251,20 +254,31 @@ async function cameraModel(camera: CameraConfig, store: Store, log: (line: strin
     }
     return model;
   };
+  const withColour = ({ model, colour }: { model: Subspace; colour?: ChromaticityModel }): Subspace => (colour ? { ...model, colour } : model);
   if (camera.model) {
-    const { model } = await loadModel(camera.model);
+    const model = withColour(await loadModel(camera.model));
     const latest = store.latestModel(camera.id);
-    const bytes = encodeModel(model);
+    const bytes = encodeModel(model, {}, model.colour);
     if (!latest || !Buffer.from(latest.data).equals(bytes)) storeModel(store, camera.id, model, camera.model);
     return check(model, camera.model);
   }
   const stored = store.latestModel(camera.id);
-  if (stored) return check(decodeModel(Buffer.from(stored.data), `stored model ${stored.id}`).model, 'the database');
+  if (stored) return check(withColour(decodeModel(Buffer.from(stored.data), `stored model ${stored.id}`)), 'the database');
   if (camera.source.kind === 'synthetic') {
-    const scene = createScene(camera.source.scene, { width, height, ...(camera.source.seed !== undefined && { seed: camera.source.seed }) });
+    const sceneOptions = { width, height, ...(camera.source.seed !== undefined && { seed: camera.source.seed }) };
     const period = 3000;
-    const frames = Array.from({ length: 200 }, (_, i) => scene.emptyFrameAt(Math.floor((i * period) / 200)).data);
-    const model = await learnInWorker(frames, { width, height });
+    const times = Array.from({ length: 200 }, (_, i) => Math.floor((i * period) / 200));
+    let model: Subspace;
+    if (camera.source.scene === 'shadow-room') {
+      // The reading room in colour: its colour statistics are learned from the same empty frames.
+      const scene = createShadowRoom(sceneOptions);
+      const empty = times.map((t) => scene.emptyColourFrameAt(t));
+      const colour = fitChromaticity(empty.map((e) => e.colour.data), { width, height });
+      model = { ...(await learnInWorker(empty.map((e) => e.frame.data), { width, height })), ...(camera.source.colour && { colour }) };
+    } else {
+      const scene = createScene(camera.source.scene, sceneOptions);
+      model = await learnInWorker(times.map((t) => scene.emptyFrameAt(t).data), { width, height });
+    }
     storeModel(store, camera.id, model, `synthetic:${camera.source.scene}:empty`);
     log(`camera ${camera.id}: learned the empty synthetic scene (${model.components} components, ${modelVerdict(model).level})`);
     return model;

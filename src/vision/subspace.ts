@@ -1,3 +1,5 @@
+import type { ChromaticityModel } from './chromaticityModel.ts';
+
 /**
  * The empty-scene model: a mean image and a few orthonormal eigen-images (a PCA subspace) plus the
  * per-pixel noise level that remains after projecting the learning frames onto it.
@@ -29,4 +31,9 @@ export interface Subspace {
   readonly noise: Float32Array;
   /** Number of frames the model was learned from. */
   readonly frameCount: number;
+  /**
+   * The empty scene's colour statistics (fitChromaticity), when the model was learned in colour
+   * mode for shadow suppression; saved with it in the model file (version 2). Default: none.
+   */
+  readonly colour?: ChromaticityModel;
 }

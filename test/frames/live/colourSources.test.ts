@@ -39,7 +39,7 @@ describe('colour from the live sources', () => {
     const seen = record();
     source.start(seen.handlers);
     try {
-      await waitFor(() => seen.frames.length >= 2);
+      await waitFor(() => seen.frames.length >= 2, 'two colour frames');
     } finally {
       await source.stop();
       await server.close();
