@@ -1,6 +1,6 @@
 import type { Subspace } from './subspace.ts';
 import { dilate } from './dilate.ts';
-import { gramMatrixSimd } from './gramKernel.ts';
+import { type CentredFrames, learningKernels } from './learningKernels.ts';
 import { symmetricEigen } from './symmetricEigen.ts';
 
 export interface FitSubspaceOptions {
@@ -68,7 +68,11 @@ const foldBlock = 8;
  *
  * Cost: one Gram matrix per fit (n² d / 2 multiply-adds, tiled 4×4 so that each loaded pixel
  * serves four products); the two cross-validation halves are derived from the full Gram matrix
- * by double centring, without touching the pixels again.
+ * by double centring, without touching the pixels again. The pixel passes (centring, Gram matrix,
+ * eigen-images, residual squares) run in WebAssembly SIMD kernels on one copy of the frames
+ * (`learningKernels`, f32 lanes, long sums added in f64) and in the JS loops below (f64 sums)
+ * where WebAssembly SIMD is missing; the two give the same model within the tolerances stated
+ * there (eigen-images within 1e-3 rad of principal angle, noise levels within 1e-4 relative).
  *
  * Example: ten 2-pixel "frames" (x, y) from the classic PCA tutorial data set give eigenvalues
  * 1.284 and 0.049 (see test/vision/fitSubspace.test.ts).
@@ -141,13 +145,11 @@ function fitAll(
   noiseSpread: number,
 ): Subspace {
   const n = frames.length;
-  const mean = meanOf(frames, d);
-  const centred = frames.map((f) => {
-    const c = new Float32Array(d);
-    for (let i = 0; i < d; i++) c[i] = f[i] - mean[i];
-    return c;
-  });
-  const gram = gramMatrix(centred, d);
+  // A combine call asks for at most k eigen-images and a mean, k ≤ rank ≤ n − 1.
+  const maxRows = Math.min(choice.components ?? choice.maxComponents, n - 1) + 1;
+  const centred = learningKernels(frames, d, { maxRows }) ?? centredFrames(frames, d);
+  const { mean } = centred;
+  const gram = centred.gram();
   const all = Array.from({ length: n }, (_, t) => t);
   const fit = fitFromGram(gram, n, all, centred, d, choice);
   const { basis, k, keptSum, total } = fit;
@@ -163,11 +165,11 @@ function fitAll(
     for (let f = 0; f < 2; f++) {
       const train = folds[1 - f];
       const half = fitFromGram(gram, n, train, centred, d, { components: undefined, variance: 1, maxComponents: k });
-      addResidualSquares(folds[f].map((t) => centred[t]), half.offset, half.basis, d, half.k, sumSq);
+      centred.addResidualSquares(folds[f], half.offset, half.basis, half.k, sumSq);
     }
     divisor = n;
   } else {
-    addResidualSquares(centred, new Float32Array(d), basis, d, k, sumSq);
+    centred.addResidualSquares(all, new Float32Array(d), basis, k, sumSq);
     // Residual degrees of freedom n − 1 − k, as in least-squares regression.
     divisor = Math.max(1, n - 1 - k);
   }
@@ -215,7 +217,7 @@ function fitFromGram(
   gram: Float64Array,
   n: number,
   subset: readonly number[],
-  centred: readonly Float32Array[],
+  centred: CentredFrames,
   d: number,
   choice: { components: number | undefined; variance: number; maxComponents: number },
 ): GramFit {
@@ -233,15 +235,6 @@ function fitFromGram(
   grand /= m;
   for (let a = 0; a < m; a++) {
     for (let b = 0; b < m; b++) g[a * m + b] = gram[subset[a] * n + subset[b]] - rowMean[a] - rowMean[b] + grand;
-  }
-  const offset = new Float32Array(d);
-  if (!whole) {
-    const sum = new Float64Array(d);
-    for (const t of subset) {
-      const c = centred[t];
-      for (let i = 0; i < d; i++) sum[i] += c[i];
-    }
-    for (let i = 0; i < d; i++) offset[i] = sum[i] / m;
   }
   const { values, vectors } = symmetricEigen(g, m);
 
@@ -267,9 +260,11 @@ function fitFromGram(
     while (k < rank && k < maxComponents && (total <= 0 || kept / total < variance)) kept += values[k++];
   }
 
-  // u_j = Σ_t w_jt (c_t − δ) with w_jt = v_jt / √λ_j, all k at once, one pass over the frames.
+  // u_j = Σ_t w_jt (c_t − δ) = Σ_t w_jt c_t − (Σ_t w_jt) δ with w_jt = v_jt / √λ_j, all k at
+  // once and, for a subset, δ = Σ_t c_t / m as row k: one pass over the frames.
+  const rows = whole ? k : k + 1;
   const eigenvalues = new Float64Array(k);
-  const weights = new Float64Array(k * m);
+  const weights = new Float64Array(rows * m);
   const weightSums = new Float64Array(k);
   let keptSum = 0;
   for (let j = 0; j < k; j++) {
@@ -281,21 +276,13 @@ function fitFromGram(
       weightSums[j] += weights[j * m + t];
     }
   }
-  // Component-major accumulators: each update is one contiguous stream.
-  const acc = Array.from({ length: k }, () => new Float64Array(d));
-  for (let t = 0; t < m; t++) {
-    const c = centred[subset[t]];
-    for (let j = 0; j < k; j++) {
-      const w = weights[j * m + t];
-      const u = acc[j];
-      for (let i = 0; i < d; i++) u[i] += w * c[i];
-    }
-  }
+  if (!whole) weights.fill(1 / m, k * m);
+  const acc = centred.combine(subset, weights, rows);
+  const offset = whole ? new Float32Array(d) : Float32Array.from(acc[k]);
   const basis = new Float32Array(d * k);
-  for (let j = 0; j < k; j++) {
-    const u = acc[j];
-    const ws = weightSums[j];
-    for (let i = 0, b = j; i < d; i++, b += k) basis[b] = u[i] - ws * offset[i];
+  for (let i = 0, b = 0; i < d; i++) {
+    const o = offset[i];
+    for (let j = 0; j < k; j++, b++) basis[b] = acc[j][i] - weightSums[j] * o;
   }
   orthonormaliseColumns(basis, d, k);
   return { offset, basis, eigenvalues, k, keptSum, total };
@@ -375,6 +362,40 @@ function medianOf(values: Float32Array): number {
   return n % 2 === 1 ? values[(n - 1) / 2] : (values[n / 2 - 1] + values[n / 2]) / 2;
 }
 
+/**
+ * The JS loops of learning, in double precision (the fallback of `learningKernels`): the frames
+ * centred on their mean, their Gram matrix, weighted sums and residual squares.
+ */
+function centredFrames(frames: readonly Float32Array[], d: number): CentredFrames {
+  const mean = meanOf(frames, d);
+  const centred = frames.map((f) => {
+    const c = new Float32Array(d);
+    for (let i = 0; i < d; i++) c[i] = f[i] - mean[i];
+    return c;
+  });
+  return {
+    mean,
+    gram: () => gramMatrix(centred, d),
+    combine(subset, weights, rows) {
+      const m = subset.length;
+      // Component-major accumulators: each update is one contiguous stream.
+      const acc = Array.from({ length: rows }, () => new Float64Array(d));
+      for (let t = 0; t < m; t++) {
+        const c = centred[subset[t]];
+        for (let j = 0; j < rows; j++) {
+          const w = weights[j * m + t];
+          const u = acc[j];
+          for (let i = 0; i < d; i++) u[i] += w * c[i];
+        }
+      }
+      return acc;
+    },
+    addResidualSquares(subset, offset, basis, k, sumSq) {
+      addResidualSquares(subset.map((t) => centred[t]), offset, basis, d, k, sumSq);
+    },
+  };
+}
+
 function meanOf(frames: readonly Float32Array[], d: number): Float32Array {
   const sum = new Float64Array(d);
   for (const f of frames) for (let i = 0; i < d; i++) sum[i] += f[i];
@@ -384,13 +405,10 @@ function meanOf(frames: readonly Float32Array[], d: number): Float32Array {
 }
 
 /**
- * G = XᵀX, by the WebAssembly SIMD kernel where it runs (see gramMatrixSimd), else here in JS:
- * blocks of 4×4 frame pairs over pixel tiles, so each loaded pixel value serves four
- * products and a tile of every frame stays in cache while all pairs use it.
+ * G = XᵀX in JS: blocks of 4×4 frame pairs over pixel tiles, so each loaded pixel value serves
+ * four products and a tile of every frame stays in cache while all pairs use it.
  */
 function gramMatrix(centred: readonly Float32Array[], d: number): Float64Array {
-  const simd = gramMatrixSimd(centred, d);
-  if (simd !== undefined) return simd;
   const n = centred.length;
   const gram = new Float64Array(n * n);
   const zero = new Float32Array(d);

@@ -1,6 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { PCA } from 'ml-pca';
+import { createScene } from '../../src/frames/synthetic/index.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
+import { setKernelsEnabled } from '../../src/vision/learningKernels.ts';
 import { symmetricEigen } from '../../src/vision/symmetricEigen.ts';
 import { mulberry } from '../helpers/random.ts';
 
@@ -32,6 +34,34 @@ function principalCosines(a: Float64Array[], b: Float64Array[]): Float64Array {
     }
   }
   return symmetricEigen(mtm, k).values.map((v) => Math.sqrt(Math.max(v, 0)));
+}
+
+/**
+ * Sines of the principal angles between the column spaces of two d × k pixel-major bases: the
+ * singular values of (I − QQᵀ)B, Q an orthonormal basis of A (accurate for small angles, where
+ * cosines near 1 are not).
+ */
+function principalSines(a: Float32Array, b: Float32Array, d: number, k: number): Float64Array {
+  const q = Array.from({ length: k }, (_, j) => column(a, d, k, j));
+  for (let j = 0; j < k; j++) {
+    for (let p = 0; p < j; p++) {
+      const dot = q[j].reduce((s, v, i) => s + v * q[p][i], 0);
+      for (let i = 0; i < d; i++) q[j][i] -= dot * q[p][i];
+    }
+    const norm = Math.hypot(...q[j]);
+    for (let i = 0; i < d; i++) q[j][i] /= norm;
+  }
+  const r = Array.from({ length: k }, (_, j) => {
+    const v = column(b, d, k, j);
+    for (const u of q) {
+      const dot = u.reduce((s, x, i) => s + x * v[i], 0);
+      for (let i = 0; i < d; i++) v[i] -= dot * u[i];
+    }
+    return v;
+  });
+  const rtr = new Float64Array(k * k);
+  for (let i = 0; i < k; i++) for (let j = 0; j < k; j++) rtr[i * k + j] = r[i].reduce((s, x, p) => s + x * r[j][p], 0);
+  return symmetricEigen(rtr, k).values.map((v) => Math.sqrt(Math.max(v, 0)));
 }
 
 describe('fitSubspace', () => {
@@ -112,6 +142,39 @@ describe('fitSubspace', () => {
     const spread = fitSubspace(frames, { width, height }, { components: 1 });
     for (let i = 0; i < d; i++) expect(spread.noise[i]).toBeGreaterThanOrEqual(model.noise[i]);
     expect(spread.noise.reduce((s, v) => s + v, 0) / d).toBeLessThan(sigma * 1.4);
+  });
+
+  it('learns the same model with the WebAssembly kernels as with the JS loops', () => {
+    // Our own synthetic reading room at a size whose pixel count is not a multiple of 4, and 75
+    // learning frames (not a multiple of 4 either; folds of 35 and 40).
+    const size = { width: 67, height: 53 };
+    const d = size.width * size.height;
+    const scene = createScene('reading-room', size);
+    const frames = Array.from({ length: 75 }, (_, i) => scene.emptyFrameAt(i * 40).data);
+    const cases = [
+      { components: 3 },
+      { components: 3, noiseEstimate: 'training' as const, noiseSpread: 0 },
+      { variance: 0.999, maxComponents: 2 },
+    ];
+    try {
+      for (const options of cases) {
+        setKernelsEnabled(true);
+        const kernels = fitSubspace(frames, size, options);
+        setKernelsEnabled(false);
+        const js = fitSubspace(frames, size, options);
+        const label = JSON.stringify(options);
+        // check: the JS loops in double precision (themselves checked against ml-pca above)
+        expect(kernels.components, label).toBe(js.components);
+        expect(kernels.mean, label).toEqual(js.mean);
+        const k = js.components;
+        kernels.eigenvalues.forEach((v, j) => expect(Math.abs(v / js.eigenvalues[j] - 1), label).toBeLessThan(1e-5));
+        for (const sine of principalSines(js.basis, kernels.basis, d, k)) expect(Math.asin(Math.min(1, sine)), label).toBeLessThan(1e-3);
+        for (let i = 0; i < d; i++) expect(Math.abs(kernels.noise[i] / js.noise[i] - 1), `${label}, pixel ${i}`).toBeLessThan(1e-4);
+        expect(kernels.totalVariance / js.totalVariance - 1, label).toBeCloseTo(0, 5);
+      }
+    } finally {
+      setKernelsEnabled(true);
+    }
   });
 
   it('chooses k by retained variance, capped, and rejects bad options', () => {
