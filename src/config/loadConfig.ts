@@ -33,6 +33,11 @@ export interface CameraConfig {
   readonly smoothing: SmoothingConfig;
   /** Default foreground threshold for this camera's zones, noise units. */
   readonly threshold: number;
+  /**
+   * Follow slow drift of the empty scene (daylight, lamps, exposure) from pixels judged
+   * background; absent: createDriftingCounter's default (on). See README "Counting in real rooms".
+   */
+  readonly adaptToDrift?: boolean;
   readonly zones: readonly Zone[];
 }
 
@@ -137,7 +142,7 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   };
 }
 
-const cameraKeys = ['id', 'name', 'source', 'size', 'model', 'learnSeconds', 'sampleSeconds', 'smoothing', 'threshold', 'zones'];
+const cameraKeys = ['id', 'name', 'source', 'size', 'model', 'learnSeconds', 'sampleSeconds', 'smoothing', 'threshold', 'adaptToDrift', 'zones'];
 
 function validateCamera(raw: unknown, at: string, fail: Fail, file: string, base: string): CameraConfig {
   const c = record(raw, at, fail, cameraKeys);
@@ -172,17 +177,21 @@ function validateCamera(raw: unknown, at: string, fail: Fail, file: string, base
     sampleSeconds: num(c.sampleSeconds ?? 10, `${at}.sampleSeconds`, fail, 1, 3600),
     smoothing: { window: int(smoothing.window ?? 5, `${at}.smoothing.window`, fail, 1, 1000), method: method as 'median' | 'mean' },
     threshold: num(c.threshold ?? 3, `${at}.threshold`, fail, 0.1, 100),
+    ...(c.adaptToDrift !== undefined && { adaptToDrift: bool(c.adaptToDrift, `${at}.adaptToDrift`, fail) }),
     zones,
   };
 }
 
 const sourceKeys: Record<string, string[]> = {
-  'drop-folder': ['path', 'afterRead', 'scanIntervalMs', 'settleMs'],
-  snapshot: ['url', 'intervalMs', 'username', 'password', 'timeoutMs'],
-  mjpeg: ['url', 'username', 'password', 'stallMs'],
-  ffmpeg: ['input', 'realtime', 'loop', 'options', 'stallMs'],
-  synthetic: ['scene', 'speed', 'seed'],
+  'drop-folder': ['path', 'afterRead', 'scanIntervalMs', 'settleMs', 'colour'],
+  snapshot: ['url', 'intervalMs', 'username', 'password', 'timeoutMs', 'colour'],
+  mjpeg: ['url', 'username', 'password', 'stallMs', 'colour'],
+  ffmpeg: ['input', 'realtime', 'loop', 'options', 'stallMs', 'colour'],
+  synthetic: ['scene', 'speed', 'seed', 'colour'],
 };
+
+/** Synthetic scenes a camera can play: the scene library's, and the reading room in colour with shadows. */
+const cameraSceneIds: readonly string[] = [...sceneIds, 'shadow-room'];
 
 function validateSource(
   raw: unknown,
@@ -209,7 +218,11 @@ function validateSource(
     if (parsed.protocol !== 'http:' && parsed.protocol !== 'https:') fail(`${at}.${key}`, `must be an http: or https: URL, got ${show(v)}`);
     return v;
   };
-  const common = { id, size };
+  // Colour mode (shadow suppression): only sources that can deliver colour.
+  const colour = s.colour === undefined ? false : bool(s.colour, `${at}.colour`, fail);
+  if (colour && kind === 'ffmpeg') fail(`${at}.colour`, 'ffmpeg sources deliver grey frames only; use a snapshot, mjpeg or drop-folder source for the colour mode');
+  if (colour && kind === 'synthetic' && s.scene !== 'shadow-room') fail(`${at}.colour`, `only the synthetic scene shadow-room renders colour, got scene ${show(s.scene)}`);
+  const common = { id, size, ...(colour && { colour }) };
   switch (kind) {
     case 'drop-folder': {
       const afterRead = s.afterRead ?? 'delete';
@@ -227,8 +240,8 @@ function validateSource(
     }
     default: {
       const scene = s.scene;
-      if (typeof scene !== 'string' || !(sceneIds as readonly string[]).includes(scene)) fail(`${at}.scene`, `must be one of ${sceneIds.join(', ')}, got ${show(scene)}`);
-      return { ...common, kind: 'synthetic', scene: scene as (typeof sceneIds)[number], speed: s.speed === undefined ? undefined : num(s.speed, `${at}.speed`, fail, 0.01, 1000), seed: optInt('seed', 0, 2 ** 31) };
+      if (typeof scene !== 'string' || !cameraSceneIds.includes(scene)) fail(`${at}.scene`, `must be one of ${cameraSceneIds.join(', ')}, got ${show(scene)}`);
+      return { ...common, kind: 'synthetic', scene: scene as (typeof sceneIds)[number] | 'shadow-room', speed: s.speed === undefined ? undefined : num(s.speed, `${at}.speed`, fail, 0.01, 1000), seed: optInt('seed', 0, 2 ** 31) };
     }
   }
 }

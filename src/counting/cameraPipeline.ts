@@ -2,11 +2,14 @@ import { EventEmitter } from 'node:events';
 import type { CameraConfig } from '../config/loadConfig.ts';
 import type { GreyFrame, Mask } from '../frames/frame.ts';
 import type { FrameError } from '../frames/FrameError.ts';
+import type { ColourFrame } from '../frames/colourFrame.ts';
 import type { CameraHandlers, SourceState, StatusDetail } from '../frames/live/cameraSource.ts';
 import type { Store } from '../store/index.ts';
 import { QualityFlag, type Sample } from '../store/samples.ts';
+import { fitChromaticity } from '../vision/fitChromaticity.ts';
 import type { Subspace } from '../vision/subspace.ts';
-import { createCounter, type Counter } from './createCounter.ts';
+import type { Counter } from './createCounter.ts';
+import { createDriftingCounter } from './createDriftingCounter.ts';
 import { createPersonSizeReservoir, type PersonSizeSuggestion } from './createPersonSizeReservoir.ts';
 import { slidingWindow, type SlidingWindow } from './smoothCounts.ts';
 import type { Zone } from './zone.ts';
@@ -131,7 +134,22 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   const emitter = new EventEmitter() as CameraPipeline;
   let model = options.model;
   let zones = camera.zones;
-  let counter: Counter | undefined = model ? createCounter(model, zones, { threshold: camera.threshold }) : undefined;
+  /** Colour mode (shadow suppression): the source delivers colour, and a model with colour statistics uses it. */
+  const colourMode = camera.source.colour === true;
+  const makeCounter = (m: Subspace, continueFrom?: Counter): Counter => {
+    if (colourMode && m.colour === undefined && continueFrom === undefined) {
+      log(`camera ${camera.id}: the model has no colour statistics; counting in grey (shadows count) until the empty scene is learned again`);
+    }
+    return createDriftingCounter(m, zones, {
+      threshold: camera.threshold,
+      adaptToDrift: camera.adaptToDrift,
+      timeStages: true,
+      ...(colourMode && m.colour !== undefined && { colourModel: m.colour }),
+      ...(continueFrom !== undefined && { continueFrom }),
+    });
+  };
+  let counter: Counter | undefined = model ? makeCounter(model) : undefined;
+  let countsInColour = colourMode && model?.colour !== undefined;
   let accumulators = makeAccumulators(zones);
   const personSizes = createPersonSizeReservoir({ width, height });
   let state: CameraLive['state'] = 'connecting';
@@ -145,6 +163,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   const backlog: Sample[] = [];
   let droppedFromBacklog = 0;
   const learning: Float32Array[] = [];
+  /** Colour mode: the colour frames of `learning`, index for index. */
+  const learningColour: Uint8Array[] = [];
   let learnedSeen = 0;
   let learnStride = 1;
   let learningStart: number | undefined;
@@ -236,11 +256,11 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     emitter.emit('live', emitter.live());
   }
 
-  function onFrame(frame: GreyFrame, capturedAt: number): void {
+  function onFrame(frame: GreyFrame, capturedAt: number, colour?: ColourFrame): void {
     if (state === 'stopped') return;
     // The store takes whole epoch ms; a drop folder's capturedAt is a file mtime with a fraction.
     const at = Math.floor(capturedAt);
-    if (learnSeconds !== undefined) collectForLearning(frame, at, learnSeconds);
+    if (learnSeconds !== undefined) collectForLearning(frame, at, learnSeconds, colour);
     if (!counter) {
       state = 'learning';
       publish();
@@ -252,8 +272,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       intervalStart = Math.max(at, previous);
     }
     const started = performance.now();
-    const result = counter.count(frame);
-    emitter.emit('counted', (performance.now() - started) / 1000);
+    const result = countsInColour && colour !== undefined ? counter.count(frame, colour) : counter.count(frame);
+    emitter.emit('counted', (performance.now() - started) / 1000, counter.stageTimes);
     lastFrameAt = at;
     state = 'online';
     const changed = result.noiseScale > viewChangeScale;
@@ -278,14 +298,19 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     publish();
   }
 
-  function collectForLearning(frame: GreyFrame, at: number, seconds: number): void {
+  function collectForLearning(frame: GreyFrame, at: number, seconds: number, colour: ColourFrame | undefined): void {
     learningStart ??= at;
     // Keep at most maxLearningFrames, spread over the whole learning time: when full, drop every
     // other kept frame and keep only every second new one from then on.
-    if (learnedSeen++ % learnStride === 0) learning.push(Float32Array.from(frame.data));
+    if (learnedSeen++ % learnStride === 0) {
+      learning.push(Float32Array.from(frame.data));
+      if (colourMode && colour !== undefined) learningColour.push(Uint8Array.from(colour.data));
+    }
     if (learning.length >= maxLearningFrames) {
       for (let i = 0, j = 0; i < learning.length; i += 2, j++) learning[j] = learning[i];
       learning.length = Math.ceil(learning.length / 2);
+      for (let i = 0, j = 0; i < learningColour.length; i += 2, j++) learningColour[j] = learningColour[i];
+      learningColour.length = Math.ceil(learningColour.length / 2);
       learnStride *= 2;
     }
     const progress = Math.min(1, (at - learningStart) / (seconds * 1000));
@@ -300,15 +325,21 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   function fitLearned(): void {
     if (!learn) return;
     const frames = learning.splice(0);
+    const colourFrames = learningColour.splice(0);
     learnedSeen = 0;
     learnStride = 1;
     learnSeconds = undefined;
     learningStart = undefined;
     learnState = { ...learnState, state: 'learning', progress: 1 };
-    const finish = (learned: Subspace) => {
+    const finish = (fitted: Subspace) => {
       if (state === 'stopped') return;
+      // Colour mode: the colour statistics of the same frames, robustly (people passing through).
+      const learned = colourMode && colourFrames.length === frames.length
+        ? { ...fitted, colour: fitChromaticity(colourFrames, { width, height }, { robust: true }) }
+        : fitted;
       model = learned;
-      counter = createCounter(model, zones, { threshold: camera.threshold });
+      counter = makeCounter(model);
+      countsInColour = colourMode && model.colour !== undefined;
       // A new empty scene may mean the camera moved: sizes seen before no longer apply.
       personSizes.clear();
       onModel?.(model);
@@ -398,6 +429,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       if (!(seconds > 0 && seconds <= 3600)) throw new RangeError(`seconds must be in (0, 3600], got ${seconds}`);
       if (learnSeconds !== undefined) return learnState;
       learning.length = 0;
+      learningColour.length = 0;
       learnedSeen = 0;
       learnStride = 1;
       learningStart = undefined;
@@ -411,7 +443,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       if (lastFrameAt !== undefined) writeInterval(lastFrameAt);
       zones = next;
       accumulators = makeAccumulators(zones);
-      if (model) counter = createCounter(model, zones, { threshold: camera.threshold });
+      // The background adapted so far carries over to the new zones.
+      if (model) counter = makeCounter(model, counter);
       publish();
     },
     stop() {

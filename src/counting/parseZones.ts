@@ -25,6 +25,7 @@ const idPattern = /^[A-Za-z0-9][A-Za-z0-9_-]{0,63}$/;
  *     threshold: 3          # optional, noise units
  *     anchor: foot          # optional: foot | centroid
  *     capacity: 24          # optional, people
+ *     absorbSeconds: 600    # optional: a static change becomes background after this long (shelves)
  * ```
  *
  * A bare list (without the `zones:` key) is accepted too. Errors name the source and the field,
@@ -54,7 +55,7 @@ export function validateZones(doc: unknown, source = 'zones', path = 'zones'): Z
   });
 }
 
-const knownFields = new Set(['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'perspective', 'anchor', 'capacity']);
+const knownFields = new Set(['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'perspective', 'anchor', 'capacity', 'absorbSeconds']);
 
 function validateZone(raw: unknown, source: string, at: string): Zone {
   const fail = (field: string, message: string): never => {
@@ -86,6 +87,10 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
   if (z.anchor !== undefined && (typeof z.anchor !== 'string' || !anchors.includes(z.anchor))) {
     fail('anchor', `must be one of ${anchors.join(', ')}, got ${show(z.anchor)}`);
   }
+  const absorbSeconds = z.absorbSeconds;
+  if (absorbSeconds !== undefined && (typeof absorbSeconds !== 'number' || !(absorbSeconds >= 1 && absorbSeconds <= MAX_ABSORB_SECONDS))) {
+    fail('absorbSeconds', `must be a number of seconds from 1 to ${MAX_ABSORB_SECONDS} (a week), got ${show(absorbSeconds)}; leave it out to never absorb`);
+  }
   const capacity = z.capacity;
   if (capacity !== undefined && (typeof capacity !== 'number' || !Number.isInteger(capacity) || capacity < 0)) {
     fail('capacity', `must be a whole number ≥ 0, got ${show(capacity)}`);
@@ -113,9 +118,13 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
     ...(perspective !== undefined && { perspective }),
     ...(z.anchor !== undefined && { anchor: z.anchor as AnchorPoint }),
     ...(capacity !== undefined && { capacity: capacity as number }),
+    ...(absorbSeconds !== undefined && { absorbSeconds: absorbSeconds as number }),
   };
   return zone;
 }
+
+/** Longest absorption time of a zone, seconds (inclusive): a week. */
+const MAX_ABSORB_SECONDS = 604_800;
 
 /** Smallest spread of the reference people's foot rows (normalised, inclusive): closer rows give a wild slope. */
 const MIN_REFERENCE_SPREAD = 0.02;

@@ -14,7 +14,7 @@ import { checkEpochMs, checkId, checkInt, checkNumber, checkOneOf, checkText } f
  */
 
 /** Field order of the stored settings JSON (and of history rows for one change). */
-const ZONE_FIELDS = ['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'perspective', 'anchor', 'capacity'] as const;
+const ZONE_FIELDS = ['id', 'name', 'kind', 'polygon', 'threshold', 'minBlobArea', 'personArea', 'perspective', 'anchor', 'capacity', 'absorbSeconds'] as const;
 
 export interface ZoneRecord {
   readonly camera: string;
@@ -91,6 +91,7 @@ export function normaliseZone(zone: Zone, field = 'zone'): Zone {
   }
   if (zone.anchor !== undefined) checkOneOf(zone.anchor, `${field}.anchor`, AnchorPoint);
   if (zone.capacity !== undefined) checkInt(zone.capacity, `${field}.capacity`, 0, 1_000_000);
+  if (zone.absorbSeconds !== undefined) checkNumber(zone.absorbSeconds, `${field}.absorbSeconds`, 1, 604_800);
   const out: Record<string, unknown> = {};
   for (const key of ZONE_FIELDS) {
     const value = (zone as unknown as Record<string, unknown>)[key];

@@ -1,71 +1,332 @@
 import type { GreyFrame, Mask } from '../frames/frame.ts';
+import type { Subspace } from './subspace.ts';
 
 export interface AdaptBackgroundOptions {
-  /** Forgetting factor per update, 0..1: the share of the new residual taken into the mean; default 0.01. */
+  /** Forgetting factor of this update, 0..1 inclusive: the share of the residual taken into the mean; default 0.05. */
   rate?: number;
   /**
-   * Pixels that are foreground right now but have been so for at least `absorbAfter` updates
-   * and may be absorbed (1) or not (0), per pixel; default none (foreground is never absorbed).
+   * A pixel of `background` is still left out when its own |r| exceeds this many noise units
+   * (times √noiseScale): a "maybe foreground" level below the detection threshold, for soft
+   * edges and faint parts of people; > 0, default 2.
    */
-  absorbable?: Uint8Array;
-  /** Updates a pixel must stay foreground before it is absorbed (with `absorbable`); default 600. */
-  absorbAfter?: number;
-  /** Per-pixel run of consecutive foreground updates, kept by the caller between calls. */
-  foregroundRuns?: Uint16Array;
+  maybeLevel?: number;
+  /** Factor on the noise variance for this frame (see frameNoiseScale), ≥ 1; default 1. */
+  noiseScale?: number;
+  /**
+   * Radius in pixels of the smallest square window over which the relative drift of the used
+   * pixels is averaged for the left-out ones, whole number ≥ 1; where it holds too few used
+   * pixels, windows 3 and 9 times as large are tried. Default ⌈height / 24⌉.
+   */
+  fieldRadius?: number;
+  /** Share of a field window (inside the image) that must be used pixels for its average to count, in (0, 1]; default 0.25. */
+  minSupport?: number;
+  /** Pixels (1) whose whole residual is taken into the mean at once: a static object being absorbed. Default none. */
+  absorb?: Uint8Array;
+  /** The updated mean; may be `model.mean` itself to update in place. Default: a new array. */
+  out?: Float32Array;
+  /** Work buffers reused between calls (allocated when not given; contents on return unspecified). */
+  scratch?: AdaptBackgroundScratch;
+}
+
+/** Work buffers of adaptBackground, for a d-pixel frame. */
+export interface AdaptBackgroundScratch {
+  /** Length d: the residual r. */
+  readonly residual: Float32Array;
+  /** Length d: the relative residual r / (z − r) of used pixels. */
+  readonly relative: Float32Array;
+  /** Length d: that relative residual averaged around each pixel. */
+  readonly field: Float32Array;
+  /** Length 2·d: running sums of the normalised convolution. */
+  readonly sums: Float64Array;
+  /** Length d: the used pixels (1) of this update. */
+  readonly used: Uint8Array;
+}
+
+/** What one update did. */
+export interface BackgroundUpdate {
+  /** The updated mean (`out` when given). */
+  readonly mean: Float32Array;
+  /** Coordinates y of the frame's background in the subspace (least squares over the background pixels). */
+  readonly coefficients: Float64Array;
+  /** Pixels updated from their own residual. */
+  readonly used: number;
+  /** Pixels left out and updated from the drift around them. */
+  readonly filled: number;
+  /** Pixels absorbed (`absorb`). */
+  readonly absorbed: number;
+  /** False when no background pixel, or fewer than 2k, was left to fit the coordinates (then the mean is unchanged). */
+  readonly applied: boolean;
+}
+
+/** Allocates the work buffers for a width × height frame. */
+export function adaptBackgroundScratch(width: number, height: number): AdaptBackgroundScratch {
+  const d = width * height;
+  return { residual: new Float32Array(d), relative: new Float32Array(d), field: new Float32Array(d), sums: new Float64Array(2 * d), used: new Uint8Array(d) };
 }
 
 /**
- * Follows slow drift of the empty scene (daylight, lamps warming up, exposure) by moving the mean
- * image towards what the model leaves unexplained, on background pixels only:
- * μ_i ← μ_i + rate · r_i where the pixel is not foreground, with r = (z − μ) − B·y. This is the
- * mean update with a forgetting factor of incremental subspace learning (Levy & Lindenbaum 2000;
- * Ross, Lim, Lin & Yang 2008), restricted to pixels judged background, so that a person sitting
- * still is never absorbed. The eigen-images are kept; only the mean moves.
+ * One step of following slow drift of the empty scene (daylight, lamps warming up, exposure):
+ * the mean image moves towards what the subspace leaves unexplained, on pixels judged
+ * background, with a forgetting factor; foreground is never learned, so a person sitting still
+ * stays foreground however long they sit.
  *
- * A changed but static object (a chair moved, a box placed) stays foreground until absorbed:
- * pixels marked `absorbable` that have been foreground for `absorbAfter` consecutive updates are
- * taken into the mean at once (rooms leave this off by default: people sit still for long).
+ * This is the mean update with a forgetting factor of incremental subspace learning
+ * (Levy & Lindenbaum 2000; Ross, Lim, Lin & Yang 2008, §3.1: μ ← f·μ + (1 − f)·z, here with
+ * rate = 1 − f) restricted to background pixels, as in selective background updating, and applied
+ * to the residual r = (z − μ) − B·y only, so that what the eigen-images already explain (the
+ * global brightness the model learned) does not move the mean. The eigen-images are kept.
  *
- * Mutates `mean` (the caller's own copy, never the stored model) and `foregroundRuns`.
- * Returns the number of pixels absorbed.
+ * 1. y is the least-squares fit over the pixels of `background`:
+ *    y = (B_Kᵀ B_K)⁻¹ B_Kᵀ (z − μ)_K (robust eigen-image coefficients with a known outlier set,
+ *    Leonardis & Bischof 2000), and r = (z − μ) − B·y everywhere.
+ * 2. Used pixels: those of `background` whose own |r| ≤ maybeLevel · σ · √noiseScale; each moves
+ *    μ_i ← μ_i + rate · r_i.
+ * 3. Left-out pixels (foreground, its margin, maybe-foreground): the background under a person
+ *    drifts too (the sun that falls on them falls on the floor around them), and a person who
+ *    leaves must not leave a ghost of stale background. Their mean moves as the used pixels
+ *    around them move, relative to the background's brightness b = z − r (its reconstruction):
+ *    μ_i ← μ_i + rate · f_i · b_i, where f is the average of r / b over the used pixels of a
+ *    (2·fieldRadius + 1)² window, by normalised convolution (Knutsson & Westin 1993: the box sum
+ *    of certainty × value over the box sum of certainty, certainty 1 on used pixels). Where the
+ *    window holds less than `minSupport` used pixels, windows 3 and 9 times as large are tried;
+ *    where none does, the mean stays. Nothing of a left-out pixel's own residual enters. This
+ *    follows drift that is smooth at the scale of the windows; a sharp light edge that moves
+ *    under someone sitting still is followed too slowly there, and they leave a ghost.
+ * 4. `absorb` pixels take their whole residual: μ_i ← μ_i + r_i (static objects, by the caller's
+ *    rule on how long they stayed).
  *
- * @param coefficients y of the frame (from residualEnergy), length k
- * @param basis pixel-major eigen-images (length d·k)
- * @param foreground the frame's foreground mask (cleaned); pixels set there are not updated
+ * Example (k = 0, rate 0.1): mean [100, 100, 100, 100], frame [110, 110, 110, 110], background
+ * everywhere but pixel 2, fieldRadius 1: the mean becomes [101, 101, 101, 101] (pixel 2 moves with
+ * its neighbours: their r / b is 10 / 100).
+ *
+ * @param model the empty-scene model; `model.mean` is read (and written when `out` is it)
+ * @param background pixels that may be used (1): not foreground and not near it
  */
 export function adaptBackground(
-  mean: Float32Array,
-  basis: Float32Array,
-  coefficients: Float64Array,
+  model: Pick<Subspace, 'width' | 'height' | 'components' | 'mean' | 'basis' | 'noise'>,
   frame: GreyFrame,
-  foreground: Mask,
+  background: Mask,
   options: AdaptBackgroundOptions = {},
-): number {
-  const { rate = 0.01, absorbable, absorbAfter = 600, foregroundRuns } = options;
+): BackgroundUpdate {
+  const { width, height, components: k, mean, basis, noise } = model;
+  const {
+    rate = 0.05,
+    maybeLevel = 2,
+    noiseScale = 1,
+    fieldRadius = Math.ceil(height / 24),
+    minSupport = 0.25,
+    absorb,
+    out,
+    scratch = adaptBackgroundScratch(width, height),
+  } = options;
+  const d = width * height;
   if (!(rate >= 0 && rate <= 1)) throw new RangeError(`rate must be in 0..1, got ${rate}`);
-  const d = frame.width * frame.height;
-  const k = coefficients.length;
-  if (mean.length !== d || basis.length !== d * k || foreground.data.length !== d) {
-    throw new RangeError(`mean, basis and mask must fit a ${frame.width}×${frame.height} frame with ${k} components`);
+  if (!(maybeLevel > 0)) throw new RangeError(`maybeLevel must be > 0 noise units, got ${maybeLevel}`);
+  if (!(noiseScale >= 1)) throw new RangeError(`noiseScale must be ≥ 1, got ${noiseScale}`);
+  if (!(Number.isInteger(fieldRadius) && fieldRadius >= 1)) throw new RangeError(`fieldRadius must be a whole number ≥ 1 (pixels), got ${fieldRadius}`);
+  if (!(minSupport > 0 && minSupport <= 1)) throw new RangeError(`minSupport must be in (0, 1], got ${minSupport}`);
+  if (frame.width !== width || frame.height !== height) throw new RangeError(`frame is ${frame.width}×${frame.height}, the model is ${width}×${height}`);
+  if (background.width !== width || background.height !== height || background.data.length !== d) {
+    throw new RangeError(`background mask must be ${width}×${height}`);
   }
+  if (mean.length !== d || basis.length !== d * k || noise.length !== d) throw new RangeError(`mean, basis and noise must fit ${width}×${height} pixels and ${k} components`);
+  if (absorb !== undefined && absorb.length !== d) throw new RangeError(`absorb has length ${absorb.length}, expected ${d}`);
+  const result = out ?? new Float32Array(d);
+  if (result.length !== d) throw new RangeError(`out has length ${result.length}, expected ${d}`);
+  const { residual, relative, field, sums, used } = scratch;
+  if (residual.length !== d || relative.length !== d || field.length !== d || used.length !== d || sums.length !== 2 * d) {
+    throw new RangeError(`scratch buffers must fit ${d} pixels (see adaptBackgroundScratch)`);
+  }
+
   const z = frame.data;
-  const fg = foreground.data;
-  let absorbed = 0;
+  const bg = background.data;
+  const y = new Float64Array(k);
+  let kept = 0;
+  for (let i = 0; i < d; i++) kept += bg[i] !== 0 ? 1 : 0;
+  // No background, or too little to fit k coordinates (fewer than 2k pixels): leave the mean as it is.
+  if (kept < Math.max(2 * k, 1) || !fitCoordinates(z, mean, basis, k, bg, kept, y)) {
+    if (result !== mean) result.set(mean);
+    return { mean: result, coefficients: y, used: 0, filled: 0, absorbed: 0, applied: false };
+  }
+
+  // r = (z − μ) − B y, the used pixels and their relative residual.
+  const level2 = maybeLevel * maybeLevel * noiseScale;
+  let usedCount = 0;
   for (let i = 0, b = 0; i < d; i++, b += k) {
     let r = z[i] - mean[i];
-    for (let j = 0; j < k; j++) r -= basis[b + j] * coefficients[j];
-    if (fg[i] === 0) {
-      if (foregroundRuns) foregroundRuns[i] = 0;
-      mean[i] += rate * r;
-    } else if (foregroundRuns) {
-      const run = Math.min(65535, foregroundRuns[i] + 1);
-      foregroundRuns[i] = run;
-      if (absorbable && absorbable[i] && run >= absorbAfter) {
-        mean[i] += r;
-        foregroundRuns[i] = 0;
-        absorbed++;
+    for (let j = 0; j < k; j++) r -= basis[b + j] * y[j];
+    residual[i] = r;
+    const s = noise[i];
+    const use = bg[i] !== 0 && r * r <= level2 * s * s ? 1 : 0;
+    used[i] = use;
+    usedCount += use;
+    relative[i] = use ? r / Math.max(1, z[i] - r) : 0;
+  }
+  const filling = usedCount < d;
+  if (filling) {
+    field.fill(NaN);
+    for (const radius of [fieldRadius, 3 * fieldRadius, 9 * fieldRadius]) {
+      if (!normalisedBoxMean(relative, used, width, height, radius, minSupport, sums, field)) break;
+      if (radius >= Math.max(width, height)) break;
+    }
+  }
+
+  let filled = 0;
+  let absorbed = 0;
+  for (let i = 0; i < d; i++) {
+    const m = mean[i];
+    if (absorb !== undefined && absorb[i] !== 0) {
+      result[i] = m + residual[i];
+      absorbed++;
+    } else if (used[i]) {
+      result[i] = m + rate * residual[i];
+    } else if (filling && !Number.isNaN(field[i])) {
+      result[i] = m + rate * field[i] * Math.max(1, z[i] - residual[i]);
+      filled++;
+    } else {
+      result[i] = m;
+    }
+  }
+  return { mean: result, coefficients: y, used: usedCount, filled, absorbed, applied: true };
+}
+
+/**
+ * y = (B_Kᵀ B_K)⁻¹ B_Kᵀ (z − μ)_K over the pixels K set in `keep`. Since BᵀB = I, B_Kᵀ B_K is
+ * I − B_Oᵀ B_O over the left-out pixels O when they are fewer. Returns false when the normal
+ * matrix is not positive definite.
+ */
+function fitCoordinates(
+  z: Float32Array,
+  mean: Float32Array,
+  basis: Float32Array,
+  k: number,
+  keep: Uint8Array,
+  kept: number,
+  y: Float64Array,
+): boolean {
+  if (k === 0) return true;
+  const d = z.length;
+  const normal = new Float64Array(k * k);
+  const rhs = new Float64Array(k);
+  const complement = kept > d / 2;
+  if (complement) for (let j = 0; j < k; j++) normal[j * k + j] = 1;
+  const sign = complement ? -1 : 1;
+  for (let i = 0, b = 0; i < d; i++, b += k) {
+    const inside = keep[i] !== 0;
+    if (inside) {
+      const c = z[i] - mean[i];
+      for (let j = 0; j < k; j++) rhs[j] += basis[b + j] * c;
+    }
+    if (inside !== complement) {
+      for (let p = 0; p < k; p++) {
+        const bp = sign * basis[b + p];
+        for (let q = 0; q <= p; q++) normal[p * k + q] += bp * basis[b + q];
       }
     }
   }
-  return absorbed;
+  return solveSymmetric(normal, rhs, k, y);
+}
+
+/** Solves A x = b for symmetric positive definite A (lower triangle, row-major k×k) by Cholesky. */
+function solveSymmetric(a: Float64Array, b: Float64Array, k: number, x: Float64Array): boolean {
+  const l = new Float64Array(k * k);
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j <= i; j++) {
+      let s = a[i * k + j];
+      for (let p = 0; p < j; p++) s -= l[i * k + p] * l[j * k + p];
+      if (i === j) {
+        if (!(s > 1e-9)) return false;
+        l[i * k + i] = Math.sqrt(s);
+      } else {
+        l[i * k + j] = s / l[j * k + j];
+      }
+    }
+  }
+  for (let i = 0; i < k; i++) {
+    let s = b[i];
+    for (let p = 0; p < i; p++) s -= l[i * k + p] * x[p];
+    x[i] = s / l[i * k + i];
+  }
+  for (let i = k - 1; i >= 0; i--) {
+    let s = x[i];
+    for (let p = i + 1; p < k; p++) s -= l[p * k + i] * x[p];
+    x[i] = s / l[i * k + i];
+  }
+  return true;
+}
+
+/**
+ * Normalised convolution with a (2r + 1)² box: Σ c·v / Σ c over the window (inside the image),
+ * written into `out` where it is still NaN and the window holds at least minSupport × its
+ * pixels inside the image with certainty. `value` must be 0 where c is 0. Separable running
+ * sums (rows into `sums`, then columns). Returns whether some pixel of `out` is still NaN.
+ */
+function normalisedBoxMean(
+  value: Float32Array,
+  certainty: Uint8Array,
+  width: number,
+  height: number,
+  r: number,
+  minSupport: number,
+  sums: Float64Array,
+  out: Float32Array,
+): boolean {
+  const d = width * height;
+  for (let y = 0; y < height; y++) {
+    const row = y * width;
+    let sv = 0;
+    let sc = 0;
+    for (let x = 0; x < Math.min(r, width); x++) {
+      sv += value[row + x];
+      sc += certainty[row + x];
+    }
+    for (let x = 0; x < width; x++) {
+      const add = x + r;
+      if (add < width) {
+        sv += value[row + add];
+        sc += certainty[row + add];
+      }
+      const drop = x - r - 1;
+      if (drop >= 0) {
+        sv -= value[row + drop];
+        sc -= certainty[row + drop];
+      }
+      sums[row + x] = sv;
+      sums[d + row + x] = sc;
+    }
+  }
+  const colV = new Float64Array(width);
+  const colC = new Float64Array(width);
+  for (let y = 0; y < Math.min(r, height); y++) {
+    for (let x = 0; x < width; x++) {
+      colV[x] += sums[y * width + x];
+      colC[x] += sums[d + y * width + x];
+    }
+  }
+  let missing = false;
+  for (let y = 0; y < height; y++) {
+    const add = y + r;
+    const drop = y - r - 1;
+    for (let x = 0; x < width; x++) {
+      if (add < height) {
+        colV[x] += sums[add * width + x];
+        colC[x] += sums[d + add * width + x];
+      }
+      if (drop >= 0) {
+        colV[x] -= sums[drop * width + x];
+        colC[x] -= sums[d + drop * width + x];
+      }
+    }
+    const rows = Math.min(height - 1, y + r) - Math.max(0, y - r) + 1;
+    for (let x = 0; x < width; x++) {
+      const i = y * width + x;
+      if (!Number.isNaN(out[i])) continue;
+      const cols = Math.min(width - 1, x + r) - Math.max(0, x - r) + 1;
+      // The certainty sums are whole numbers (rounding removes float drift of the running sums).
+      const c = Math.round(colC[x]);
+      if (c >= 1 && c >= minSupport * rows * cols) out[i] = colV[x] / c;
+      else missing = true;
+    }
+  }
+  return missing;
 }

@@ -833,6 +833,7 @@ export function createZonesView(app) {
     $('#zf-threshold').value = z.threshold ?? '';
     $('#zf-personarea').value = z.personArea ?? '';
     $('#zf-minblob').value = z.minBlobArea ?? '';
+    $('#zf-absorb').value = z.absorbSeconds ?? '';
     const low = lowKey(z) in lowStockDraft ? lowStockDraft[lowKey(z)] : display.lowStock[lowKey(z)];
     $('#zf-lowstock').value = low === undefined || low === null ? '' : String(Math.round(low * 100));
     $('#zf-lowstock').placeholder = String(Math.round(display.defaultLowStock * 100));
@@ -871,6 +872,7 @@ export function createZonesView(app) {
   bindField('#zf-threshold', setOptional('threshold', Number));
   bindField('#zf-personarea', setOptional('personArea', Number));
   bindField('#zf-minblob', setOptional('minBlobArea', Number));
+  bindField('#zf-absorb', setOptional('absorbSeconds', Number));
   bindField('#zf-lowstock', (z, v) => {
     lowStockDraft[lowKey(z)] = v === '' ? null : Number(v) / 100;
   });
