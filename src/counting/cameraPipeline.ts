@@ -136,6 +136,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   let zones = camera.zones;
   /** Colour mode (shadow suppression): the source delivers colour, and a model with colour statistics uses it. */
   const colourMode = camera.source.colour === true;
+  /** Capture time of the frame being counted: drift adaptation runs on the frames' time, not the wall clock. */
+  let countingAt = 0;
   const makeCounter = (m: Subspace, continueFrom?: Counter): Counter => {
     if (colourMode && m.colour === undefined && continueFrom === undefined) {
       log(`camera ${camera.id}: the model has no colour statistics; counting in grey (shadows count) until the empty scene is learned again`);
@@ -144,6 +146,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       threshold: camera.threshold,
       adaptToDrift: camera.adaptToDrift,
       timeStages: true,
+      clock: () => countingAt,
       ...(colourMode && m.colour !== undefined && { colourModel: m.colour }),
       ...(continueFrom !== undefined && { continueFrom }),
     });
@@ -272,6 +275,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       intervalStart = Math.max(at, previous);
     }
     const started = performance.now();
+    countingAt = at;
     const result = countsInColour && colour !== undefined ? counter.count(frame, colour) : counter.count(frame);
     emitter.emit('counted', (performance.now() - started) / 1000, counter.stageTimes);
     lastFrameAt = at;
