@@ -136,6 +136,10 @@ describe('the service runs each camera in its own worker thread', () => {
       expect(text).toMatch(/^residuum_camera_up\{camera="b"\} 1$/m);
       expect(text).toMatch(/^residuum_stage_seconds_count\{stage="count"\} [1-9]\d*$/m);
       expect(text).toMatch(/^residuum_stage_seconds_count\{stage="store"\} [1-9]\d*$/m);
+      // The counter's own stages, forwarded from createCounter's stage times.
+      for (const stage of ['residual', 'noise_scale', 'threshold', 'morphology', 'labelling', 'zones']) {
+        expect(text).toMatch(new RegExp(`^residuum_stage_seconds_count\\{stage="${stage}"\\} [1-9]\\d*$`, 'm'));
+      }
     } finally {
       await run.service.stop();
     }
