@@ -222,6 +222,9 @@ const report = {
   rssGrowthPercent: earlyRss > 0 ? Math.round(((lateRss - earlyRss) / earlyRss) * 1000) / 10 : 0,
   // Frame rate over the windows after the first tenth of the run: 10th, 50th and 90th percentile.
   rateAfterWarmup: { p10: rateQuantile(0.1), p50: rateQuantile(0.5), p90: rateQuantile(0.9) },
+  // Resident memory through the run, MB, at 20 evenly spaced points after warm-up (a leak rises
+  // steadily; a heap settling to its working size levels off).
+  rssSeriesMb: Array.from({ length: 20 }, (_, i) => rssSeries[Math.floor((i * (rssSeries.length - 1)) / 19)]).filter((r) => r !== undefined).map((r) => Math.round(r.rss / 2 ** 20)),
   samplesStored: samples,
   fileDescriptors: { before: before.fds, after: after.fds },
   activeResources: { before: before.handles, after: after.handles },
