@@ -2,7 +2,6 @@ import { readdir, readFile, stat } from 'node:fs/promises';
 import { join, extname, basename } from 'node:path';
 import sharp from 'sharp';
 import { addConfusion, CdnetLabel, cdnetMetrics, type CdnetMetrics, type Confusion } from '../counting/cdnetMetrics.ts';
-import { createColourMog2Counter } from '../counting/createColourMog2Counter.ts';
 import { createCounter, wholeFrameZone } from '../counting/createCounter.ts';
 import { createMog2Counter } from '../counting/createMog2Counter.ts';
 import { loadModel, ModelFileError } from '../counting/modelFile.ts';
@@ -139,8 +138,8 @@ export async function evaluate(
         return { method: m, count: (f) => counter.count(f), mask: () => counter.lastMask(), close: () => counter.close() };
       }
       case 'mog2-colour': {
-        const counter = createColourMog2Counter(cv, size, zones);
-        return { method: m, count: (_, c) => counter.count(c!), mask: () => counter.lastMask(), close: () => counter.close() };
+        const counter = createMog2Counter(cv, size, zones, { colour: true });
+        return { method: m, count: (f, c) => counter.count(f, c!), mask: () => counter.lastMask(), close: () => counter.close() };
       }
       default:
         throw new RangeError(`method must be subspace, mog2, subspace-colour or mog2-colour, got ${JSON.stringify(m)}`);
