@@ -34,7 +34,7 @@ export interface SharedMask {
 export interface SharedMaskOptions {
   /** The buffer of an existing shared mask (as made by another thread); default a new one. Its size must be 8 + width × height bytes. */
   readonly buffer?: SharedArrayBuffer;
-  /** Attempts of `read()` to get a copy no write overlapped, ≥ 1; default 16. After that the last copy is returned (at worst two consecutive masks mixed). */
+  /** Attempts of `read()` to get a copy no write overlapped, ≥ 1; default 16. After that the last whole copy this reader got is returned (an older mask, never two mixed), or undefined if it has none. */
   readonly readAttempts?: number;
 }
 
@@ -52,6 +52,8 @@ export function sharedMask(size: { width: number; height: number }, options: Sha
   if (!(Number.isInteger(readAttempts) && readAttempts >= 1)) throw new RangeError(`readAttempts: expected a whole number ≥ 1, got ${String(readAttempts)}`);
   const header = new Int32Array(buffer, 0, 2);
   const data = new Uint8Array(buffer, HEADER_BYTES, width * height);
+  /** This reader's last copy that no write overlapped. */
+  let lastWhole: Uint8Array | undefined;
   return {
     buffer,
     width,
@@ -64,19 +66,22 @@ export function sharedMask(size: { width: number; height: number }, options: Sha
       Atomics.add(header, 0, 1);
     },
     read() {
-      let copy: Uint8Array | undefined;
       for (let attempt = 0; attempt < readAttempts; attempt++) {
         const before = Atomics.load(header, 0);
         if (before % 2 !== 0) continue;
-        if (Atomics.load(header, 1) === 0) return undefined;
-        copy = data.slice();
-        if (Atomics.load(header, 0) === before) break;
+        if (Atomics.load(header, 1) === 0) {
+          if (Atomics.load(header, 0) !== before) continue;
+          lastWhole = undefined;
+          return undefined;
+        }
+        const copy = data.slice();
+        if (Atomics.load(header, 0) !== before) continue;
+        lastWhole = copy;
+        return { width, height, data: copy.slice() };
       }
-      if (copy === undefined) {
-        if (Atomics.load(header, 1) === 0) return undefined;
-        copy = data.slice();
-      }
-      return { width, height, data: copy };
+      // Writes kept overlapping (the writer's thread was descheduled mid-write, say): the last
+      // whole copy, never a torn one.
+      return lastWhole === undefined ? undefined : { width, height, data: lastWhole.slice() };
     },
     clear() {
       Atomics.add(header, 0, 1);
