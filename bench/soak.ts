@@ -76,6 +76,17 @@ const before = { fds: fds(), handles: handles(), threads: threads() };
 // leak; the peak after warm-up is reported too.
 const warmup = Math.min(2000 * cameraCount, Math.floor(total / 10));
 const rssSeries: { done: number; rss: number }[] = [];
+// The V8 heaps through the run, as (frames done, used bytes, external bytes): the main thread's and
+// (in worker mode) each camera worker's from its heartbeat. A heap whose used size climbs with the
+// frames is a leak in JavaScript; resident memory that climbs while the heaps stay level is the
+// allocator or native memory.
+interface HeapPoint { readonly done: number; readonly used: number; readonly external: number }
+const heapSeries = new Map<string, HeapPoint[]>();
+const recordHeap = (thread: string, done: number, used: number, external: number) => {
+  let list = heapSeries.get(thread);
+  if (!list) heapSeries.set(thread, (list = []));
+  list.push({ done, used, external });
+};
 let warmRss = 0;
 let peakRss = 0;
 const rates: number[] = [];
@@ -109,6 +120,8 @@ const sample = (done: number) => {
     const rss = process.memoryUsage().rss;
     peakRss = Math.max(peakRss, rss);
     rssSeries.push({ done, rss });
+    const main = process.memoryUsage();
+    recordHeap('main', done, main.heapUsed, main.external);
   }
 };
 
@@ -150,6 +163,12 @@ if (mode === 'workers') {
     windowFrames = n;
     for (const host of service.cameras.values()) busy.get(host.id)!.push(host.utilization());
     sample(n);
+    if (warmRss > 0) {
+      for (const host of service.cameras.values()) {
+        const heap = host.heap();
+        if (heap) recordHeap(host.id, n, heap.usedBytes, heap.externalBytes);
+      }
+    }
     progress(`${n} frames, ${rates.at(-1)!.toFixed(0)} frames/s`);
   }
   stopClock();
@@ -195,6 +214,22 @@ const medianRss = (from: number, to: number) => {
   return values.length === 0 ? 0 : values[values.length >> 1];
 };
 const earlyRss = medianRss(0.1, 0.2);
+const mb = (bytes: number) => Math.round((bytes / 2 ** 20) * 10) / 10;
+// Per thread: the median used and external heap of the tenth after warm-up and of the last tenth,
+// and the used heap's 20-point series (the same points as rssSeriesMb).
+const heapTrend = (list: readonly HeapPoint[]) => {
+  const median = (from: number, to: number, pick: (p: HeapPoint) => number) => {
+    const values = list.filter((p) => p.done >= from * total && p.done < to * total).map(pick).sort((a, b) => a - b);
+    return values.length === 0 ? 0 : values[values.length >> 1];
+  };
+  return {
+    usedEarlyMb: mb(median(0.1, 0.2, (p) => p.used)),
+    usedLateMb: mb(median(0.9, 1.01, (p) => p.used)),
+    externalEarlyMb: mb(median(0.1, 0.2, (p) => p.external)),
+    externalLateMb: mb(median(0.9, 1.01, (p) => p.external)),
+    usedSeriesMb: Array.from({ length: 20 }, (_, i) => list[Math.floor((i * (list.length - 1)) / 19)]).filter((p) => p !== undefined).map((p) => mb(p.used)),
+  };
+};
 const lateRss = medianRss(0.9, 1.01);
 const steadyRates = rates.slice(Math.ceil(rates.length / 10)).sort((a, b) => a - b);
 const rateQuantile = (q: number) => Math.round(steadyRates[Math.min(steadyRates.length - 1, Math.floor(q * steadyRates.length))] ?? 0);
@@ -225,6 +260,7 @@ const report = {
   // Resident memory through the run, MB, at 20 evenly spaced points after warm-up (a leak rises
   // steadily; a heap settling to its working size levels off).
   rssSeriesMb: Array.from({ length: 20 }, (_, i) => rssSeries[Math.floor((i * (rssSeries.length - 1)) / 19)]).filter((r) => r !== undefined).map((r) => Math.round(r.rss / 2 ** 20)),
+  heaps: Object.fromEntries([...heapSeries].map(([thread, list]) => [thread, heapTrend(list)])),
   samplesStored: samples,
   fileDescriptors: { before: before.fds, after: after.fds },
   activeResources: { before: before.handles, after: after.handles },

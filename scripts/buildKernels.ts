@@ -1,10 +1,13 @@
 // `npm run build:kernels`: writes src/vision/kernels/learning.wasm, the WebAssembly SIMD kernels
 // of learning (centring, Gram matrix, eigen-images, residual squares), from the WebAssembly text
-// generated below (assembled by wabt, the WebAssembly Binary Toolkit). The .wasm is committed so
-// that running needs no build step; a test rebuilds it and checks that it matches.
+// generated below, and src/vision/kernels/counting.wasm, those of counting a frame (text in
+// scripts/countingKernelText.ts); both assembled by wabt, the WebAssembly Binary Toolkit. The
+// .wasm files are committed so that running needs no build step; tests rebuild them and check
+// that they match.
 import { writeFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import wabtInit from 'wabt';
+import { countingKernelText } from './countingKernelText.ts';
 
 /**
  * Frames are padded to a multiple of BLOCK; a Gram block is GRAM_ROWS × BLOCK dot products
@@ -295,10 +298,19 @@ export function kernelText(): string {
 `;
 }
 
-/** The assembled module. */
+/** The assembled learning module. */
 export async function buildKernelsWasm(): Promise<Uint8Array> {
+  return assemble('learning.wat', kernelText());
+}
+
+/** The assembled counting module. */
+export async function buildCountingKernelsWasm(): Promise<Uint8Array> {
+  return assemble('counting.wat', countingKernelText());
+}
+
+async function assemble(name: string, text: string): Promise<Uint8Array> {
   const wabt = await wabtInit();
-  const module = wabt.parseWat('learning.wat', kernelText(), { simd: true });
+  const module = wabt.parseWat(name, text, { simd: true });
   try {
     module.validate();
     return new Uint8Array(module.toBinary({}).buffer);
@@ -308,7 +320,9 @@ export async function buildKernelsWasm(): Promise<Uint8Array> {
 }
 
 if (process.argv[1] === fileURLToPath(import.meta.url)) {
-  const target = fileURLToPath(new URL('../src/vision/kernels/learning.wasm', import.meta.url));
-  writeFileSync(target, await buildKernelsWasm());
-  process.stdout.write(`wrote ${target}\n`);
+  for (const [file, build] of [['learning.wasm', buildKernelsWasm], ['counting.wasm', buildCountingKernelsWasm]] as const) {
+    const target = fileURLToPath(new URL(`../src/vision/kernels/${file}`, import.meta.url));
+    writeFileSync(target, await build());
+    process.stdout.write(`wrote ${target}\n`);
+  }
 }

@@ -117,6 +117,7 @@ export async function startService(config: ResiduumConfig, options: StartService
   const metrics = createMetrics({
     ...(mqtt && { mqtt: () => mqtt.stats() }),
     threadUtilization: () => [...hosts.values()].map((h) => [h.id, h.utilization()] as const),
+    threadHeap: () => [...hosts.values()].map((h) => [h.id, h.heap()] as const),
   });
   // The main thread's own events (a camera's worker failed) go to MQTT too.
   const mainEvents = mqtt ? publishingStore(store, mqtt, log) : store;

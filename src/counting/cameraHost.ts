@@ -7,7 +7,7 @@ import { createRetryScheduler, type BackoffOptions } from '../frames/live/backof
 import type { Store } from '../store/index.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import type { CameraLive, LearnStatus, ZoneLive } from './cameraPipeline.ts';
-import type { CameraWorkerData, FromWorker, ToWorker, WorkerFault } from './cameraWorkerProtocol.ts';
+import type { CameraWorkerData, FromWorker, ToWorker, WorkerFault, WorkerHeap } from './cameraWorkerProtocol.ts';
 import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
 import type { Zone } from './zone.ts';
@@ -68,6 +68,8 @@ export interface CameraHost extends EventEmitter {
   zones(): readonly Zone[];
   /** Share of wall time the worker's event loop was busy since the previous call (or its start), 0..1; 0 without a worker. */
   utilization(): number;
+  /** The current worker's heap at its last heartbeat; undefined before its first or without a worker. */
+  heap(): WorkerHeap | undefined;
   /** Workers started after a failure so far. */
   readonly restarts: number;
   /** Whether a worker is running now. */
@@ -120,6 +122,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
   let failure: string | undefined;
   let watchdog: NodeJS.Timeout | undefined;
   let elu: EventLoopUtilization | undefined;
+  let heap: WorkerHeap | undefined;
   /** True after the host wrote `offline` for a failed worker, until the camera counts again. */
   let offlineWritten = false;
   let stopping = false;
@@ -161,6 +164,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     failure = undefined;
     workerReady = false;
     elu = undefined;
+    heap = undefined;
     startedAt = lastMessageAt = Date.now();
     let w: Worker;
     try {
@@ -204,6 +208,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
         break;
       case 'beat':
         stages(message.stages);
+        heap = message.heap;
         break;
       case 'live': {
         stages(message.stages);
@@ -320,6 +325,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
       elu = now;
       return Number.isFinite(since.utilization) ? since.utilization : 0;
     },
+    heap: () => (worker ? heap : undefined),
     stop() {
       stopPromise ??= stopWorker();
       return stopPromise;

@@ -13,13 +13,14 @@
  *
  * Not imported by anything but the bootstrap: importing it starts the camera.
  */
+import { getHeapStatistics } from 'node:v8';
 import { parentPort, workerData } from 'node:worker_threads';
 import { createCameraSource } from '../frames/live/createCameraSource.ts';
 import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
 import { openStore, type Store } from '../store/index.ts';
 import { createCameraPipeline } from './cameraPipeline.ts';
 import { counterStageDeltas } from './counterStageDeltas.ts';
-import type { CameraWorkerData, FromWorker, ToWorker } from './cameraWorkerProtocol.ts';
+import type { CameraWorkerData, FromWorker, ToWorker, WorkerHeap } from './cameraWorkerProtocol.ts';
 import { learnInWorker } from './learnInWorker.ts';
 import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
@@ -164,7 +165,13 @@ port.on('message', (message: ToWorker) => {
   }
 });
 
-const heartbeat = setInterval(() => post({ type: 'beat', stages: takeStages() }), data.heartbeatMs);
+/** This thread's heap now (its own isolate's, not the process's). */
+function heapNow(): WorkerHeap {
+  const heap = getHeapStatistics();
+  return { usedBytes: heap.used_heap_size, totalBytes: heap.total_heap_size, externalBytes: heap.external_memory };
+}
+
+const heartbeat = setInterval(() => post({ type: 'beat', stages: takeStages(), heap: heapNow() }), data.heartbeatMs);
 
 source.start({
   ...pipeline.handlers,
@@ -199,6 +206,6 @@ async function stop(): Promise<void> {
   }
   pipeline.stop();
   ownStore.close();
-  post({ type: 'beat', stages: takeStages() });
+  post({ type: 'beat', stages: takeStages(), heap: heapNow() });
   post({ type: 'stopped' });
 }

@@ -63,10 +63,20 @@ export type ToWorker = ZonesMessage | { readonly type: 'relearn'; readonly secon
 /** Stage timings measured since the last message: [stage label, seconds] pairs. */
 export type StageTimes = readonly (readonly [string, number])[];
 
+/** The worker's V8 heap at its last heartbeat (v8.getHeapStatistics() of its isolate), bytes. */
+export interface WorkerHeap {
+  /** Bytes of live and not yet collected objects on the JavaScript heap (`used_heap_size`). */
+  readonly usedBytes: number;
+  /** Bytes V8 reserved for the JavaScript heap (`total_heap_size`). */
+  readonly totalBytes: number;
+  /** Bytes outside the heap held by JavaScript objects, typed-array buffers among them (`external_memory`). */
+  readonly externalBytes: number;
+}
+
 /** Worker → main thread. Every message also counts as a sign of life. */
 export type FromWorker =
   | { readonly type: 'ready' }
-  | { readonly type: 'beat'; readonly stages: StageTimes }
+  | { readonly type: 'beat'; readonly stages: StageTimes; readonly heap: WorkerHeap }
   | { readonly type: 'live'; readonly live: CameraLive; readonly zonesVersion: number; readonly stages: StageTimes }
   | { readonly type: 'learn'; readonly status: LearnStatus }
   /** A model learned from the live source (already stored by the worker); its arrays are in shared memory. */

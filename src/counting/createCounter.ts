@@ -5,6 +5,8 @@ import type { ChromaticityModel } from '../vision/chromaticityModel.ts';
 import { suppressShadows, type SuppressShadowsOptions } from '../vision/suppressShadows.ts';
 import type { Blob } from '../vision/labelComponents.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
+import { createBitMask, unpackMask } from '../vision/bitMask.ts';
+import { countingKernels, type CountingKernels } from '../vision/countingKernels.ts';
 import { frameNoiseScale } from '../vision/frameNoiseScale.ts';
 import { residualEnergy, sampleCoefficientPixels } from '../vision/residualEnergy.ts';
 import type { Subspace } from '../vision/subspace.ts';
@@ -44,6 +46,12 @@ export interface CounterOptions extends MaskCounterOptions {
   colourModel?: ChromaticityModel;
   /** Colour mode: the bounds of a shadow (see suppressShadows; its defaults). */
   shadows?: Pick<SuppressShadowsOptions, 'alphaLow' | 'alphaHigh' | 'maxChromaDistortion'>;
+  /**
+   * Count with the WebAssembly SIMD kernels (countingKernels) and the packed-mask stages where
+   * they apply (1 to 12 components, coefficientStride ≥ 2, smoothRadius 1; and the kernels are
+   * on, see setKernelsEnabled); default true. false always takes the JS stages.
+   */
+  kernels?: boolean;
 }
 
 /** Everything counted in one frame. */
@@ -95,7 +103,7 @@ export interface Counter {
  * (computed at the foreground pixels only).
  */
 export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): Counter {
-  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 3, timeStages = false, colourModel, shadows = {} } = options;
+  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 3, timeStages = false, colourModel, shadows = {}, kernels: useKernels = true } = options;
   if (colourModel !== undefined) assertSameSize(model, colourModel, 'colour model');
   const { width, height } = model;
   const d = width * height;
@@ -123,6 +131,8 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     distortion: { alpha: new Float32Array(d), cd: new Float32Array(d) },
   };
   const coefficientSample = coefficientStride > 1 ? sampleCoefficientPixels(model, coefficientStride) : undefined;
+  const kernels = useKernels && coefficientSample !== undefined && smoothRadius === 1 ? countingKernels(model, { coefficientSample, thresholds }) : undefined;
+  const rawBits = createBitMask(width, height);
 
   return {
     width,
@@ -133,6 +143,7 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
         if (colour === undefined) throw new RangeError('this counter is in colour mode: count(frame, colour) needs the colour frame');
         assertSameSize(model, colour, 'colour frame');
       }
+      if (kernels !== undefined) return countWithKernels(kernels, frame, colour);
       const t0 = timed === undefined ? 0 : performance.now();
       const residual = residualEnergy(model, frame, { out: energy, outCoefficients: coefficients, inverseNoiseVariance, scratch: sampleScratch, coefficientSample });
       const t1 = timed === undefined ? 0 : performance.now();
@@ -164,6 +175,39 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     lastMask: () => stages.lastMask(),
     stageTimes,
   };
+
+  /** count() on the kernels: the packed threshold mask goes straight to the packed stages (in colour mode, unpacked for the shadows). */
+  function countWithKernels(run: CountingKernels, frame: GreyFrame, colour: ColourFrame | undefined): FrameCount {
+    const t0 = timed === undefined ? 0 : performance.now();
+    const residual = run.residual(frame);
+    coefficients.set(residual.coefficients);
+    const t1 = timed === undefined ? 0 : performance.now();
+    const noiseScale = run.noiseScale();
+    const t2 = timed === undefined ? 0 : performance.now();
+    run.threshold(adaptToFrameNoise ? Math.max(1, noiseScale) : 1, rawBits);
+    if (timed !== undefined) {
+      const t3 = performance.now();
+      timed[CounterStage.residual] += t1 - t0;
+      timed[CounterStage.noiseScale] += t2 - t1;
+      timed[CounterStage.threshold] += t3 - t2;
+    }
+    let tally: ReturnType<typeof stages.count>;
+    let shadowShare: number | undefined;
+    if (colourBuffers === undefined) tally = stages.countBits(rawBits);
+    else {
+      unpackMask(rawBits, raw);
+      shadowShare = clearShadows(colour!, colourBuffers);
+      tally = stages.count(colourBuffers.unshadowed);
+    }
+    return {
+      ...tally,
+      ...(shadowShare === undefined ? {} : { shadowShare }),
+      dffs: residual.dffs,
+      difs: residual.difs,
+      normalisedEnergy: residual.normalisedEnergy,
+      noiseScale,
+    };
+  }
 
   /** Clears the cast shadows of `raw` into buffers.unshadowed; returns the share of pixels cleared. */
   function clearShadows(colour: ColourFrame, buffers: NonNullable<typeof colourBuffers>): number {

@@ -1,4 +1,7 @@
 import { createMask, type Mask } from '../frames/frame.ts';
+import { createBitMask, unpackMask, type BitMask } from '../vision/bitMask.ts';
+import { createLabelBitRunsScratch, labelBitRuns } from '../vision/labelBitRuns.ts';
+import { morphologyBitMask } from '../vision/morphologyBits.ts';
 import { closeMask } from '../vision/closeMask.ts';
 import { labelComponents, type Blob } from '../vision/labelComponents.ts';
 import { openMask } from '../vision/openMask.ts';
@@ -44,7 +47,12 @@ export interface MaskCounter {
   readonly zones: readonly PreparedZone[];
   /** Cleans a raw foreground mask (opening, closing), labels blobs and tallies them per zone. */
   count(raw: Mask): MaskTally;
-  /** The cleaned mask of the last call (an internal buffer). */
+  /**
+   * As count, for a packed mask: the same stages on 32 pixels a word (morphologyBitMask,
+   * labelBitRuns, tallyZones on the packed mask), with the same result.
+   */
+  countBits(raw: BitMask): MaskTally;
+  /** The cleaned mask of the last call (an internal buffer; after countBits, unpacked on the first call). */
   lastMask(): Mask;
 }
 
@@ -67,10 +75,39 @@ export function createMaskCounter(
   const labels = new Int32Array(d);
   const labelScratch = new Int32Array(Math.ceil(d / 2) + 1);
   const morphScratch = new Uint8Array(2 * d);
+  const openedBits = createBitMask(width, height);
+  const closedBits = createBitMask(width, height);
+  const bitScratch = new Int32Array(3 * closedBits.data.length);
+  const runScratch = createLabelBitRunsScratch(width, height);
   let last: Mask = closed;
+  /** The packed cleaned mask of the last countBits, until lastMask() unpacks it. */
+  let lastBits: BitMask | undefined;
   return {
     zones: prepared,
+    countBits(raw) {
+      if (raw.width !== width || raw.height !== height) throw new RangeError(`mask is ${raw.width}×${raw.height}, expected ${width}×${height}`);
+      const t0 = stageTimes === undefined ? 0 : performance.now();
+      let mask: BitMask = raw;
+      if (openRadius > 0) mask = morphologyBitMask(mask, { steps: ['erode', 'dilate'], radius: openRadius, out: openedBits, scratch: bitScratch });
+      if (closeRadius > 0) mask = morphologyBitMask(mask, { steps: ['dilate', 'erode'], radius: closeRadius, out: closedBits, scratch: bitScratch });
+      if (mask === raw) mask = morphologyBitMask(raw, { out: closedBits, scratch: bitScratch });
+      lastBits = mask;
+      const t1 = stageTimes === undefined ? 0 : performance.now();
+      const components = labelBitRuns(mask, { connectivity, scratch: runScratch });
+      let foreground = 0;
+      for (const blob of components.blobs) foreground += blob.area;
+      const t2 = stageTimes === undefined ? 0 : performance.now();
+      const tally = tallyZones(components.blobs, mask, prepared);
+      if (stageTimes !== undefined) {
+        const t3 = performance.now();
+        stageTimes[CounterStage.morphology] += t1 - t0;
+        stageTimes[CounterStage.labelling] += t2 - t1;
+        stageTimes[CounterStage.zones] += t3 - t2;
+      }
+      return { ...tally, blobs: components.blobs, foregroundShare: foreground / d };
+    },
     count(raw) {
+      lastBits = undefined;
       const t0 = stageTimes === undefined ? 0 : performance.now();
       let mask: Mask = raw;
       if (openRadius > 0) mask = openMask(mask, { radius: openRadius, out: opened, scratch: morphScratch });
@@ -95,6 +132,12 @@ export function createMaskCounter(
       }
       return { ...tally, blobs: components.blobs, foregroundShare: foreground / d };
     },
-    lastMask: () => last,
+    lastMask() {
+      if (lastBits !== undefined) {
+        last = unpackMask(lastBits, closed);
+        lastBits = undefined;
+      }
+      return last;
+    },
   };
 }

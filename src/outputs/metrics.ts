@@ -1,5 +1,6 @@
 import { collectDefaultMetrics, Counter, Gauge, Histogram, Registry } from 'prom-client';
 import type { CameraLive } from '../counting/cameraPipeline.ts';
+import type { WorkerHeap } from '../counting/cameraWorkerProtocol.ts';
 import type { MqttPublisherStats } from './mqtt/mqttPublisher.ts';
 
 /**
@@ -20,6 +21,7 @@ import type { MqttPublisherStats } from './mqtt/mqttPublisher.ts';
  * | `residuum_source_errors_total` | counter | camera | bad frames and lost connections of the source |
  * | `residuum_stage_seconds` | histogram | stage | processing time per stage (see below) |
  * | `residuum_camera_thread_utilization` | gauge | camera | share of time the camera's worker thread was busy since the previous scrape, 0..1 (with the `threadUtilization` option) |
+ * | `residuum_camera_thread_heap_bytes` | gauge | camera, space | the camera worker's V8 heap at its last heartbeat: `used`, `total` (reserved) and `external` (typed-array buffers and other memory outside the heap) bytes (with the `threadHeap` option) |
  * | `residuum_camera_worker_restarts_total` | counter | camera | the camera's worker thread failed (crashed, exited, hung) and was started again |
  * | `residuum_mqtt_connected`, `residuum_mqtt_queued_samples`, `residuum_mqtt_samples_published_total`, `residuum_mqtt_samples_dropped_total` | | | with the `mqtt` option |
  *
@@ -49,6 +51,8 @@ export interface MetricsOptions {
   readonly mqtt?: () => MqttPublisherStats;
   /** Each camera's worker-thread utilization (0..1) since the previous scrape, read at scrape time; default none (no utilization metric). */
   readonly threadUtilization?: () => Iterable<readonly [camera: string, utilization: number]>;
+  /** Each camera worker's heap at its last heartbeat, read at scrape time; default none (no heap metric). */
+  readonly threadHeap?: () => Iterable<readonly [camera: string, heap: WorkerHeap | undefined]>;
 }
 
 export interface Metrics {
@@ -81,7 +85,7 @@ interface CameraTrack {
 
 /** A fresh registry with Residuum's metrics (one per service; tests make their own). */
 export function createMetrics(options: MetricsOptions = {}): Metrics {
-  const { processMetrics = true, clock = Date.now, fpsWindowSeconds = 10, stageBuckets = STAGE_BUCKETS, mqtt, threadUtilization } = options;
+  const { processMetrics = true, clock = Date.now, fpsWindowSeconds = 10, stageBuckets = STAGE_BUCKETS, mqtt, threadUtilization, threadHeap } = options;
   if (!(fpsWindowSeconds > 0 && fpsWindowSeconds <= 3600)) throw new RangeError(`fpsWindowSeconds: expected a number in (0, 3600], got ${String(fpsWindowSeconds)}`);
   if (!(stageBuckets.length > 0 && stageBuckets.every((b, i) => Number.isFinite(b) && b > 0 && (i === 0 || b > stageBuckets[i - 1])))) {
     throw new RangeError(`stageBuckets: expected increasing positive numbers of seconds, got ${JSON.stringify(stageBuckets)}`);
@@ -115,6 +119,23 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
       collect() {
         this.reset();
         for (const [camera, utilization] of threadUtilization()) if (Number.isFinite(utilization)) this.set({ camera }, Math.min(1, Math.max(0, utilization)));
+      },
+    });
+  }
+  if (threadHeap) {
+    new Gauge({
+      name: 'residuum_camera_thread_heap_bytes',
+      help: "The camera worker's V8 heap at its last heartbeat, bytes: used, total (reserved) and external (outside the heap, typed-array buffers among them).",
+      labelNames: ['camera', 'space'] as const,
+      registers,
+      collect() {
+        this.reset();
+        for (const [camera, heap] of threadHeap()) {
+          if (!heap) continue;
+          this.set({ camera, space: 'used' }, heap.usedBytes);
+          this.set({ camera, space: 'total' }, heap.totalBytes);
+          this.set({ camera, space: 'external' }, heap.externalBytes);
+        }
       },
     });
   }

@@ -36,6 +36,16 @@ export function frameNoiseScale(
   if (buf.length < n) throw new RangeError(`scratch has length ${buf.length}, expected at least ${n}`);
   const sample = buf.length === n ? buf : buf.subarray(0, n);
   for (let i = 0, s = 0; i < energy.length; i += stride, s++) sample[s] = energy[i] * inverseNoiseVariance[i];
+  return noiseScaleOfSample(sample);
+}
+
+/**
+ * The noise scale of a sample of (r_i / σ_i)² values: their median / the median of χ²₁ (see
+ * frameNoiseScale); 1 for an empty sample. The sample's order is changed.
+ */
+export function noiseScaleOfSample(sample: Float32Array): number {
+  const n = sample.length;
+  if (n === 0) return 1;
   // The median by selection, not a full sort: for an even count, the lower middle is selected and
   // the upper middle is then the smallest value above it.
   const half = n >> 1;

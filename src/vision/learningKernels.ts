@@ -72,11 +72,16 @@ function loadKernel(): Kernel | null {
 
 /**
  * Turns the WebAssembly kernels off (false) or on again (true, the default) for this thread:
- * `learningKernels` then returns undefined and fitSubspace takes its JS loops. For tests and
- * benchmarks that compare the two paths.
+ * `learningKernels` and `countingKernels` then return undefined, and fitSubspace and new
+ * counters take their JS loops. For tests and benchmarks that compare the two paths.
  */
 export function setKernelsEnabled(on: boolean): void {
   enabled = on;
+}
+
+/** Whether the WebAssembly kernels are on for this thread (see setKernelsEnabled). */
+export function kernelsEnabled(): boolean {
+  return enabled;
 }
 
 const up = (x: number, to: number) => Math.ceil(x / to) * to;

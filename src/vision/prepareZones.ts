@@ -1,5 +1,6 @@
 import type { AnchorPoint, Zone, ZoneKind } from '../counting/zone.ts';
 import { fitPersonArea } from './fitPersonArea.ts';
+import { packMask, type BitMask } from './bitMask.ts';
 import { rasterizeZone } from './rasterizeZone.ts';
 
 /** A zone turned into pixels and pixel counts at one working size, ready for tallying. */
@@ -10,6 +11,11 @@ export interface PreparedZone {
   readonly anchor: AnchorPoint;
   /** Indices (y × width + x) of the pixels whose centres lie in the polygon. */
   readonly pixels: Uint32Array;
+  /** The same pixels as a bit mask (padding bits 0), for tallying a packed foreground mask. */
+  readonly bits: BitMask;
+  /** Words of `bits` from firstWord to lastWord − 1 hold every one of its pixels (the rows it spans). */
+  readonly firstWord: number;
+  readonly lastWord: number;
   /** Foreground threshold in noise units. */
   readonly threshold: number;
   /** Blobs with fewer pixels than this are dropped (strictly smaller). */
@@ -49,6 +55,10 @@ export function prepareZones(
     for (let i = 0; i < frameArea; i++) count += mask.data[i];
     const pixels = new Uint32Array(count);
     for (let i = 0, p = 0; i < frameArea; i++) if (mask.data[i]) pixels[p++] = i;
+    const bits = packMask(mask);
+    const rowOf = (p: number) => Math.floor(p / size.width);
+    const firstWord = count === 0 ? 0 : rowOf(pixels[0]) * bits.words;
+    const lastWord = count === 0 ? 0 : (rowOf(pixels[count - 1]) + 1) * bits.words;
     const room = zone.kind === 'room';
     const person = zone.personArea ?? (room ? personArea : undefined);
     const personPixels = person === undefined ? 0 : person * frameArea;
@@ -63,6 +73,9 @@ export function prepareZones(
       polygon: zone.polygon,
       anchor: zone.anchor ?? (room ? 'foot' : 'centroid'),
       pixels,
+      bits,
+      firstWord,
+      lastWord,
       threshold: zone.threshold ?? threshold,
       minBlobPixels: minBlob * frameArea,
       personPixels,

@@ -106,7 +106,7 @@ export function sampleCoefficientPixels(model: Subspace, stride: number): Coeffi
 }
 
 /** Pixels sampled for the robust noise scale: every 7th. */
-const scaleStride = 7;
+export const scaleStride = 7;
 
 /**
  * Residual of a frame after projecting it onto the empty-scene subspace:
@@ -188,8 +188,8 @@ export function residualEnergy(
  * loops, bit for bit.
  */
 
-/** A frame against a model, with the outputs of the last full residual pass. */
-interface Pass {
+/** A frame against a model, with the outputs of the last full residual pass (also the JS side of countingKernels' sample). */
+export interface Pass {
   readonly z: Float32Array;
   readonly mean: Float32Array;
   readonly basis: Float32Array;
@@ -292,7 +292,7 @@ function residualPass(pass: Pass, y: Float64Array, limit: number, outliers: Outl
 }
 
 /** (r/σ)² as Float32s at every scaleStride-th pixel (0, scaleStride, …) into sample. */
-function samplePass(pass: Pass, y: Float64Array, sample: Float32Array): void {
+export function samplePass(pass: Pass, y: Float64Array, sample: Float32Array): void {
   const { z, mean, basis, k, weight } = pass;
   const d = z.length;
   const width = kernelWidth(k);
@@ -486,7 +486,7 @@ function sample12(pass: Pass, y: Float64Array, sample: Float32Array, end: number
  * then z − μ) and subtracted from the normal equations: normal = I − B_Oᵀ B_O and
  * rhs = Bᵀ(z − μ) − B_Oᵀ(z − μ)_O.
  */
-class Outliers {
+export class Outliers {
   private run = 0;
   private readonly gathered: Float64Array;
 
@@ -610,7 +610,7 @@ function subtractOuter(gathered: Float64Array, m: number, k: number, normal: Flo
 }
 
 /** A y for symmetric A (lower triangle given, row-major k×k). */
-function symmetricTimes(a: Float64Array, y: Float64Array, k: number): Float64Array {
+export function symmetricTimes(a: Float64Array, y: Float64Array, k: number): Float64Array {
   const out = new Float64Array(k);
   for (let p = 0; p < k; p++) {
     let sum = 0;

@@ -1,4 +1,5 @@
 import type { Mask } from '../frames/frame.ts';
+import { popcount32, type BitMask } from './bitMask.ts';
 import type { Blob } from './labelComponents.ts';
 import { pointInPolygon } from './pointInPolygon.ts';
 import type { PreparedZone } from './prepareZones.ts';
@@ -36,20 +37,20 @@ export function peopleInBlob(area: number, personPixels: number): number {
  * normalised coordinates; zones drop blobs smaller than their minimum. A room counts people by
  * {@link peopleInBlob} (against the person area at the blob's foot row when the zone has a
  * perspective model); a shelf counts item blobs the same way (one each when it has no item area)
- * and reports its fill, the foreground share of its pixels.
+ * and reports its fill, the foreground share of its pixels. The mask is a byte mask or a packed
+ * one (then the fill is a population count of mask AND zone, 32 pixels a word).
  */
 export function tallyZones(
   blobs: readonly Blob[],
-  mask: Mask,
+  mask: Mask | BitMask,
   zones: readonly PreparedZone[],
 ): FrameTally {
-  const { width, height, data } = mask;
+  const { width, height } = mask;
   const result: Record<string, ZoneTally> = {};
   const claimed = new Map<number, number>();
   for (const zone of zones) {
-    let foreground = 0;
     const pixels = zone.pixels;
-    for (let p = 0; p < pixels.length; p++) foreground += data[pixels[p]];
+    const foreground = 'words' in mask ? foregroundBits(mask, zone) : foregroundBytes(mask, pixels);
     let count = 0;
     let kept = 0;
     for (const blob of blobs) {
@@ -66,4 +67,25 @@ export function tallyZones(
   let total = 0;
   for (const people of claimed.values()) total += people;
   return { total, zones: result };
+}
+
+/** Set pixels of a byte mask among the zone's pixels. */
+function foregroundBytes(mask: Mask, pixels: Uint32Array): number {
+  const data = mask.data;
+  let foreground = 0;
+  for (let p = 0; p < pixels.length; p++) foreground += data[pixels[p]];
+  return foreground;
+}
+
+/** Set pixels of a packed mask among the zone's pixels: popcount(mask ∧ zone) over the rows it spans. */
+function foregroundBits(mask: BitMask, zone: PreparedZone): number {
+  const data = mask.data;
+  const bits = zone.bits.data;
+  if (zone.bits.words !== mask.words || bits.length !== data.length) throw new RangeError(`zone ${zone.id}: prepared for another size than the ${mask.width}×${mask.height} mask`);
+  let foreground = 0;
+  for (let w = zone.firstWord; w < zone.lastWord; w++) {
+    const v = data[w] & bits[w];
+    if (v !== 0) foreground += popcount32(v);
+  }
+  return foreground;
 }

@@ -60,11 +60,18 @@ describe('createCameraHost', () => {
       expect(host.model()?.components).toBe(4);
       expect(host.model()?.mean.buffer).toBeInstanceOf(SharedArrayBuffer);
       expect(host.utilization()).toBeGreaterThanOrEqual(0);
+      // The worker's own heap, from its heartbeats (one a second; three samples took over two).
+      await waitUntil(() => host.heap() !== undefined, { what: 'a heartbeat with the heap' });
+      const heap = host.heap()!;
+      expect(heap.usedBytes).toBeGreaterThan(0);
+      expect(heap.totalBytes).toBeGreaterThanOrEqual(heap.usedBytes);
+      expect(heap.externalBytes).toBeGreaterThanOrEqual(0);
     } finally {
       await host.stop();
       store.close();
     }
     expect(host.live().state).toBe('stopped');
+    expect(host.heap()).toBeUndefined();
   });
 
   it('names the option for a watchdog shorter than two heartbeats', () => {

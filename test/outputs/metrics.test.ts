@@ -220,9 +220,20 @@ describe('createMetrics: camera worker threads', () => {
     expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'hall' })).toBeUndefined();
   });
 
+  it('exports each worker heap at scrape time, by space, and leaves out cameras without one', async () => {
+    const m = createMetrics({ processMetrics: false, threadHeap: () => [['door', { usedBytes: 1000, totalBytes: 4000, externalBytes: 250 }], ['hall', undefined]] });
+    const e = parseExposition(await m.render());
+    expect(e.types.get('residuum_camera_thread_heap_bytes')).toBe('gauge');
+    expect(valueOf(e, 'residuum_camera_thread_heap_bytes', { camera: 'door', space: 'used' })).toBe(1000);
+    expect(valueOf(e, 'residuum_camera_thread_heap_bytes', { camera: 'door', space: 'total' })).toBe(4000);
+    expect(valueOf(e, 'residuum_camera_thread_heap_bytes', { camera: 'door', space: 'external' })).toBe(250);
+    expect(valueOf(e, 'residuum_camera_thread_heap_bytes', { camera: 'hall', space: 'used' })).toBeUndefined();
+  });
+
   it('has no utilization metric without the option', async () => {
     const e = parseExposition(await createMetrics({ processMetrics: false }).render());
     expect(e.types.has('residuum_camera_thread_utilization')).toBe(false);
+    expect(e.types.has('residuum_camera_thread_heap_bytes')).toBe(false);
     expect(e.types.get('residuum_camera_worker_restarts_total')).toBe('counter');
   });
 });

@@ -1,7 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import type { Mask } from '../../src/frames/frame.ts';
 import type { ElementShape } from '../../src/vision/erode.ts';
-import { morphologyBits, type MorphologyStep } from '../../src/vision/morphologyBits.ts';
+import { packMask, popcount32, unpackMask } from '../../src/vision/bitMask.ts';
+import { morphologyBitMask, morphologyBits, type MorphologyStep } from '../../src/vision/morphologyBits.ts';
 import { mulberry } from '../helpers/random.ts';
 
 /**
@@ -86,5 +87,48 @@ describe('morphologyBits', () => {
   it('handles empty images', () => {
     expect(morphologyBits({ width: 0, height: 0, data: new Uint8Array(0) }, { steps: ['erode'] }).data.length).toBe(0);
     expect(morphologyBits({ width: 3, height: 0, data: new Uint8Array(0) }, { steps: ['dilate'] }).data.length).toBe(0);
+  });
+});
+
+describe('morphologyBitMask', () => {
+  it('agrees with the definitions on packed masks, ignores the input padding, and may write over its input', () => {
+    // check: direct evaluation of the definitions above (simple reference implementation).
+    const rand = mulberry(91);
+    for (const width of [1, 31, 32, 33, 65, 100]) {
+      for (const radius of [0, 1, 2, 33]) {
+        for (const shape of ['square', 'cross'] as const) {
+          const steps: MorphologyStep[] = rand() < 0.5 ? ['erode', 'dilate'] : ['dilate', 'erode'];
+          const height = 1 + Math.floor(rand() * 10);
+          const mask: Mask = { width, height, data: Uint8Array.from({ length: width * height }, () => (rand() < 0.5 ? 1 : 0)) };
+          const packed = packMask(mask);
+          // Padding bits set: they must not leak into the result.
+          if (width % 32 !== 0) for (let w = packed.words - 1; w < packed.data.length; w += packed.words) packed.data[w] |= ~((1 << (width % 32)) - 1);
+          const before = Int32Array.from(packed.data);
+          const result = morphologyBitMask(packed, { steps, radius, shape });
+          expect(packed.data).toEqual(before);
+          const want = Array.from(reference(mask, steps, radius, shape));
+          expect(Array.from(unpackMask(result).data), `${width}×${height} r${radius} ${shape} ${steps.join(',')}`).toEqual(want);
+          expect(Array.from(unpackMask(morphologyBitMask(packed, { steps, radius, shape, out: packed })).data)).toEqual(want);
+        }
+      }
+    }
+  });
+});
+
+describe('packMask and unpackMask', () => {
+  it('put pixel x of row y at bit x mod 32 of word y · ⌈width/32⌉ + ⌊x/32⌋, and round-trip', () => {
+    const mask: Mask = { width: 35, height: 2, data: new Uint8Array(70) };
+    mask.data[0] = 1; // (0, 0): word 0, bit 0
+    mask.data[33] = 7; // (33, 0): word 1, bit 1 (any non-zero byte is set)
+    mask.data[35 + 31] = 1; // (31, 1): word 2, bit 31
+    const packed = packMask(mask);
+    expect(packed.words).toBe(2);
+    expect(Array.from(packed.data)).toEqual([1, 2, 1 << 31, 0]);
+    expect(Array.from(unpackMask(packed).data)).toEqual(Array.from(mask.data, (v) => (v === 0 ? 0 : 1)));
+  });
+
+  it('counts the set bits of a word', () => {
+    // check: common practice — popcount of 0, −1 (all 32 bits), 0x80000001 and 0x0f0f0f0f.
+    expect([0, -1, 0x80000001 | 0, 0x0f0f0f0f].map(popcount32)).toEqual([0, 32, 2, 16]);
   });
 });

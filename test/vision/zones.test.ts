@@ -1,5 +1,6 @@
 import { beforeAll, describe, expect, it } from 'vitest';
 import { createMask } from '../../src/frames/frame.ts';
+import { packMask } from '../../src/vision/bitMask.ts';
 import type { Blob } from '../../src/vision/labelComponents.ts';
 import { pointInPolygon } from '../../src/vision/pointInPolygon.ts';
 import { prepareZones } from '../../src/vision/prepareZones.ts';
@@ -119,6 +120,21 @@ describe('tallyZones', () => {
     expect(tally.zones.shelf).toEqual({ count: 1, fill: 0.25, blobs: 1 });
     // Each blob once, by the first zone claiming it: 1 + 5 (blob 4 as people in "left") + 3.
     expect(tally.total).toBe(9);
+    // The same mask packed 32 pixels a word gives the same tally (fill by population count).
+    expect(tallyZones(blobs, packMask(mask), zones)).toEqual(tally);
+  });
+
+  it('finds the same fill in a packed mask as in the byte mask, for any zone shape and width', () => {
+    const rand = mulberry(29);
+    for (const [width, height] of [[33, 20], [64, 7], [97, 41]] as const) {
+      const zones = prepareZones(Array.from({ length: 5 }, (_, i) => ({ id: `z${i}`, kind: 'shelf' as const, polygon: starPolygon(rand) })), { width, height });
+      const mask = createMask(width, height);
+      for (let i = 0; i < mask.data.length; i++) mask.data[i] = rand() < 0.4 ? 1 : 0;
+      const packed = packMask(mask);
+      // Set padding bits must not count.
+      if (width % 32 !== 0) for (let w = packed.words - 1; w < packed.data.length; w += packed.words) packed.data[w] |= ~((1 << (width % 32)) - 1);
+      expect(tallyZones([], packed, zones)).toEqual(tallyZones([], mask, zones));
+    }
   });
 });
 

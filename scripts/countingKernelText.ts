@@ -1,0 +1,159 @@
+// The WebAssembly text of the counting kernels (src/vision/kernels/counting.wasm, assembled by
+// scripts/buildKernels.ts): the per-frame residual pass, the projection onto the subspace, and the
+// smoothed threshold that writes a packed mask. Four pixels per instruction; see
+// src/vision/countingKernels.ts for the memory layout they run on.
+
+/** Components are taken four at a time; a module has variants for 1, 2 and 3 groups (k ≤ 12). */
+export const COUNTING_GROUPS = [1, 2, 3] as const;
+/** Pixels whose f32 lane sums are added into the f64 totals at a time. */
+export const COUNTING_TILE = 256;
+
+const zero = '(v128.const i32x4 0 0 0 0)';
+const get = (x: string) => `(local.get $${x})`;
+const bump = (x: string, step: string) => `(local.set $${x} (i32.add (local.get $${x}) ${step}))`;
+const loop = (name: string, exit: string, body: string[]) =>
+  `(block $${name}_done (loop $${name}\n(br_if $${name}_done ${exit})\n${body.join('\n')}\n(br $${name})))`;
+/** The four f32 lanes of a v128 local summed in f64: (l0 + l1) + (l2 + l3). */
+const laneSum = (v: string) =>
+  `(f64.add (f64.add (f64.promote_f32 (f32x4.extract_lane 0 ${get(v)})) (f64.promote_f32 (f32x4.extract_lane 1 ${get(v)}))) ` +
+  `(f64.add (f64.promote_f32 (f32x4.extract_lane 2 ${get(v)})) (f64.promote_f32 (f32x4.extract_lane 3 ${get(v)}))))`;
+const range = (n: number) => [...Array(n).keys()];
+
+/**
+ * residual_g{G}(n, z, mean, basis, plane, y, weight, norm, sums, limit, outliers) → count.
+ * Over n pixels (a multiple of 4) of Float32 arrays at byte addresses z, mean, weight (1/σ²) and
+ * the 4G component planes of the basis (plane j at basis + j · plane bytes), with the 4G
+ * coordinates y (Float32; those past k are 0): r = (z − μ) − Σ_j y_j B_j, e = r², v = e · w.
+ * Stores v at norm (n Float32), adds Σ e and Σ v (f32 lanes over COUNTING_TILE pixels, tiles
+ * added in f64) into sums[0] and sums[1] (Float64, set by the caller), and writes the index of
+ * every pixel whose v is not ≤ limit (NaN included) to outliers (i32, in increasing order);
+ * returns how many it wrote.
+ */
+function residualText(groups: number): string {
+  const k = 4 * groups;
+  const js = range(k);
+  return `(func (export "residual_g${groups}") (param $n i32) (param $z i32) (param $mean i32) (param $basis i32) (param $plane i32) (param $y i32) (param $weight i32) (param $norm i32) (param $sums i32) (param $limit f32) (param $outliers i32) (result i32)
+  (local $p i32) (local $end i32) (local $tile i32) (local $count i32) (local $bad i32) (local $bp i32)
+  (local $r v128) (local $e v128) (local $v v128) (local $ae v128) (local $av v128) (local $lim v128) (local $se f64) (local $sv f64)
+  ${js.map((j) => `(local $y${j} v128) (local $o${j} i32)`).join(' ')}
+  ${js.map((j) => `(local.set $y${j} (v128.load32_splat offset=${4 * j} ${get('y')}))`).join(' ')}
+  ${js.map((j) => `(local.set $o${j} (i32.mul ${get('plane')} (i32.const ${j})))`).join(' ')}
+  (local.set $lim (f32x4.splat ${get('limit')}))
+  (local.set $se (f64.load ${get('sums')}))
+  (local.set $sv (f64.load offset=8 ${get('sums')}))
+  (local.set $end (i32.shl ${get('n')} (i32.const 2)))
+  (local.set $p (i32.const 0))
+  ${loop('tiles', `(i32.ge_u ${get('p')} ${get('end')})`, [
+    `(local.set $tile (select ${get('end')} (i32.add ${get('p')} (i32.const ${4 * COUNTING_TILE})) (i32.lt_u ${get('end')} (i32.add ${get('p')} (i32.const ${4 * COUNTING_TILE})))))`,
+    `(local.set $ae ${zero}) (local.set $av ${zero})`,
+    loop('pixels', `(i32.ge_u ${get('p')} ${get('tile')})`, [
+      `(local.set $r (f32x4.sub (v128.load (i32.add ${get('z')} ${get('p')})) (v128.load (i32.add ${get('mean')} ${get('p')}))))`,
+      `(local.set $bp (i32.add ${get('basis')} ${get('p')}))`,
+      ...js.map((j) => `(local.set $r (f32x4.sub ${get('r')} (f32x4.mul (v128.load (i32.add ${get('bp')} ${get(`o${j}`)})) ${get(`y${j}`)})))`),
+      `(local.set $e (f32x4.mul ${get('r')} ${get('r')}))`,
+      `(local.set $v (f32x4.mul ${get('e')} (v128.load (i32.add ${get('weight')} ${get('p')}))))`,
+      `(v128.store (i32.add ${get('norm')} ${get('p')}) ${get('v')})`,
+      `(local.set $ae (f32x4.add ${get('ae')} ${get('e')}))`,
+      `(local.set $av (f32x4.add ${get('av')} ${get('v')}))`,
+      `(local.set $bad (i32x4.bitmask (v128.not (f32x4.le ${get('v')} ${get('lim')}))))`,
+      `(if (local.get $bad) (then
+        ${loop('lanes', `(i32.eqz ${get('bad')})`, [
+          `(i32.store (i32.add ${get('outliers')} (i32.shl ${get('count')} (i32.const 2))) (i32.add (i32.shr_u ${get('p')} (i32.const 2)) (i32.ctz ${get('bad')})))`,
+          bump('count', '(i32.const 1)'),
+          `(local.set $bad (i32.and ${get('bad')} (i32.sub ${get('bad')} (i32.const 1))))`,
+        ])}))`,
+      bump('p', '(i32.const 16)'),
+    ]),
+    `(local.set $se (f64.add ${get('se')} ${laneSum('ae')}))`,
+    `(local.set $sv (f64.add ${get('sv')} ${laneSum('av')}))`,
+  ])}
+  (f64.store ${get('sums')} ${get('se')})
+  (f64.store offset=8 ${get('sums')} ${get('sv')})
+  ${get('count')})`;
+}
+
+/**
+ * project_g{G}(n, z, mean, basis, plane, out): out[j] = Σ_i B_j[i] (z_i − μ_i) for the 4G
+ * component planes, over n pixels (a multiple of 4), laid out as in residual; the products summed
+ * in f32 lanes over COUNTING_TILE pixels, tiles added in f64 into out (4G Float64, zeroed here).
+ */
+function projectText(groups: number): string {
+  const k = 4 * groups;
+  const js = range(k);
+  return `(func (export "project_g${groups}") (param $n i32) (param $z i32) (param $mean i32) (param $basis i32) (param $plane i32) (param $out i32)
+  (local $p i32) (local $end i32) (local $tile i32) (local $bp i32) (local $c v128)
+  ${js.map((j) => `(local $a${j} v128) (local $o${j} i32) (local $s${j} f64)`).join(' ')}
+  ${js.map((j) => `(local.set $o${j} (i32.mul ${get('plane')} (i32.const ${j})))`).join(' ')}
+  (local.set $end (i32.shl ${get('n')} (i32.const 2)))
+  (local.set $p (i32.const 0))
+  ${loop('tiles', `(i32.ge_u ${get('p')} ${get('end')})`, [
+    `(local.set $tile (select ${get('end')} (i32.add ${get('p')} (i32.const ${4 * COUNTING_TILE})) (i32.lt_u ${get('end')} (i32.add ${get('p')} (i32.const ${4 * COUNTING_TILE})))))`,
+    js.map((j) => `(local.set $a${j} ${zero})`).join(' '),
+    loop('pixels', `(i32.ge_u ${get('p')} ${get('tile')})`, [
+      `(local.set $c (f32x4.sub (v128.load (i32.add ${get('z')} ${get('p')})) (v128.load (i32.add ${get('mean')} ${get('p')}))))`,
+      `(local.set $bp (i32.add ${get('basis')} ${get('p')}))`,
+      ...js.map((j) => `(local.set $a${j} (f32x4.add ${get(`a${j}`)} (f32x4.mul (v128.load (i32.add ${get('bp')} ${get(`o${j}`)})) ${get('c')})))`),
+      bump('p', '(i32.const 16)'),
+    ]),
+    ...js.map((j) => `(local.set $s${j} (f64.add ${get(`s${j}`)} ${laneSum(`a${j}`)}))`),
+  ])}
+  ${js.map((j) => `(f64.store offset=${8 * j} ${get('out')} ${get(`s${j}`)})`).join(' ')})`;
+}
+
+/**
+ * threshold(v, h, stride, rows, words, tn, ts, scale, bits): the 3×3 box mean of the normalised
+ * energy against a per-pixel threshold, written as a packed mask.
+ *
+ * v: `rows` rows of `stride` Float32 values (stride a multiple of 32, greater than the image
+ * width, the values past the width 0), with one zero row before and after and 4 zero values
+ * before and after those: so the neighbours of every image pixel are inside the array and those
+ * outside the image are 0. h: a work array of the same shape. First h = the sum of each value and
+ * its left and right neighbours, over the guard rows too; then per pixel s = h above + h + h below,
+ * the 3×3 sum of the in-image values, and the pixel is set when s > tn · scale and v > ts · scale
+ * (tn = t² × the number of in-image pixels of the window, ts = t² × share²; both `rows` × stride
+ * without guards, tn = +∞ past the width). Bit x of word y · words + ⌊x/32⌋ of `bits` (i32) is
+ * pixel (x, y), least significant bit leftmost.
+ */
+function thresholdText(): string {
+  const blocks = range(8);
+  return `(func (export "threshold") (param $v i32) (param $h i32) (param $stride i32) (param $rows i32) (param $words i32) (param $tn i32) (param $ts i32) (param $scale f32) (param $bits i32)
+  (local $p i32) (local $end i32) (local $rowBytes i32) (local $y i32) (local $w i32) (local $q i32) (local $word i32) (local $sc v128) (local $out i32)
+  (local.set $rowBytes (i32.shl ${get('stride')} (i32.const 2)))
+  (local.set $sc (f32x4.splat ${get('scale')}))
+  ;; h = left + centre + right over the guard row above, the rows and the guard row below
+  (local.set $p (i32.sub (i32.const 0) ${get('rowBytes')}))
+  (local.set $end (i32.mul ${get('rowBytes')} (i32.add ${get('rows')} (i32.const 1))))
+  ${loop('horizontal', `(i32.ge_s ${get('p')} ${get('end')})`, [
+    `(local.set $q (i32.add ${get('v')} ${get('p')}))`,
+    `(v128.store (i32.add ${get('h')} ${get('p')}) (f32x4.add (f32x4.add (v128.load (i32.sub ${get('q')} (i32.const 4))) (v128.load ${get('q')})) (v128.load (i32.add ${get('q')} (i32.const 4)))))`,
+    bump('p', '(i32.const 16)'),
+  ])}
+  (local.set $out ${get('bits')})
+  (local.set $y (i32.const 0))
+  ${loop('rows', `(i32.ge_u ${get('y')} ${get('rows')})`, [
+    `(local.set $p (i32.mul ${get('y')} ${get('rowBytes')}))`,
+    '(local.set $w (i32.const 0))',
+    loop('words', `(i32.ge_u ${get('w')} ${get('words')})`, [
+      '(local.set $word (i32.const 0))',
+      ...blocks.map((b) => {
+        const at = (base: string, offset: string) => `(v128.load offset=${16 * b} (i32.add ${get(base)} ${offset}))`;
+        const s = `(f32x4.add (f32x4.add ${at('h', `(i32.sub ${get('p')} ${get('rowBytes')})`)} ${at('h', get('p'))}) ${at('h', `(i32.add ${get('p')} ${get('rowBytes')})`)})`;
+        const set = `(v128.and (f32x4.gt ${s} (f32x4.mul ${at('tn', get('p'))} ${get('sc')})) (f32x4.gt ${at('v', get('p'))} (f32x4.mul ${at('ts', get('p'))} ${get('sc')})))`;
+        return `(local.set $word (i32.or ${get('word')} (i32.shl (i32x4.bitmask ${set}) (i32.const ${4 * b}))))`;
+      }),
+      `(i32.store ${get('out')} ${get('word')})`,
+      bump('out', '(i32.const 4)'),
+      bump('p', '(i32.const 128)'),
+      bump('w', '(i32.const 1)'),
+    ]),
+    bump('y', '(i32.const 1)'),
+  ])})`;
+}
+
+/** The text of the counting module: the functions above, sharing one imported memory. */
+export function countingKernelText(): string {
+  return `(module
+  (memory (import "env" "memory") 1)
+  ${[...COUNTING_GROUPS.flatMap((g) => [residualText(g), projectText(g)]), thresholdText()].join('\n  ')})
+`;
+}

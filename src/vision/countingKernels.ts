@@ -1,0 +1,299 @@
+import { readFileSync } from 'node:fs';
+import type { GreyFrame } from '../frames/frame.ts';
+import { outputBitMask, wordsPerRow, type BitMask } from './bitMask.ts';
+import { chiSquare1Median, noiseScaleOfSample } from './frameNoiseScale.ts';
+import { kernelsEnabled } from './learningKernels.ts';
+import { quickselect } from './quickselect.ts';
+import { Outliers, samplePass, scaleStride, symmetricTimes, type CoefficientSample, type Pass } from './residualEnergy.ts';
+import { solveSymmetric } from './solveSymmetric.ts';
+import type { Subspace } from './subspace.ts';
+
+/** The largest number of components the kernels take (three groups of four). */
+export const MAX_KERNEL_COMPONENTS = 12;
+
+export interface CountingKernelsOptions {
+  /** The coordinates' pixel sample (sampleCoefficientPixels of the same model); required. */
+  coefficientSample: CoefficientSample;
+  /** Foreground threshold per pixel, noise units, width × height (see thresholdResidual); required. */
+  thresholds: Float32Array;
+  /** The pixel itself must exceed this share of its threshold, 0..1 (see thresholdResidual); default 0.5. */
+  pixelShare?: number;
+}
+
+export interface KernelResidualOptions {
+  /** Robust projection steps after the plain one, whole number ≥ 0; default 3 (as residualEnergy). */
+  robustSteps?: number;
+  /** Pixels above this many noise units (times the sample's noise scale) are left out, > 0; default 3. */
+  robustCutoff?: number;
+}
+
+/** The per-frame figures of residualEnergy, without the per-pixel energy (it stays in the kernels' memory). */
+export interface KernelResidual {
+  /** The robust coordinates y of the frame's background, length k (the kernels' own buffer). */
+  readonly coefficients: Float64Array;
+  /** Σ r_i², grey levels². */
+  readonly dffs: number;
+  /** Σ y_j² / λ_j. */
+  readonly difs: number;
+  /** Mean of (r_i / σ_i)² over the frame. */
+  readonly normalisedEnergy: number;
+  /** Share of the sampled pixels left out of the last robust step. */
+  readonly outlierShare: number;
+}
+
+/** The per-frame stages of a subspace counter, from frame to packed foreground mask, in WebAssembly SIMD. */
+export interface CountingKernels {
+  /** Loads the frame, solves the robust coordinates on the pixel sample and computes (r/σ)² at every pixel. */
+  residual(frame: GreyFrame, options?: KernelResidualOptions): KernelResidual;
+  /** frameNoiseScale of the last residual: the median (r/σ)² of every 7th pixel over the median of χ²₁. */
+  noiseScale(): number;
+  /** The foreground of the last residual as thresholdResidual with radius 1 would mark it, packed into `out`. */
+  threshold(noiseScale: number, out?: BitMask): BitMask;
+}
+
+interface Exports {
+  residual_g1: ResidualKernel;
+  residual_g2: ResidualKernel;
+  residual_g3: ResidualKernel;
+  project_g1: ProjectKernel;
+  project_g2: ProjectKernel;
+  project_g3: ProjectKernel;
+  threshold(v: number, h: number, stride: number, rows: number, words: number, tn: number, ts: number, scale: number, bits: number): void;
+}
+type ResidualKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, norm: number, sums: number, limit: number, outliers: number) => number;
+type ProjectKernel = (n: number, z: number, mean: number, basis: number, plane: number, out: number) => void;
+
+let compiled: WebAssembly.Module | null | undefined;
+
+/** The counting module (scripts/countingKernelText.ts), compiled once per thread; null where WebAssembly SIMD is missing. */
+function countingModule(): WebAssembly.Module | null {
+  if (compiled !== undefined) return compiled;
+  try {
+    compiled = new WebAssembly.Module(readFileSync(new URL('./kernels/counting.wasm', import.meta.url)));
+  } catch {
+    compiled = null;
+  }
+  return compiled;
+}
+
+/** Bump allocation of 16-byte aligned Float32 / Int32 / Float64 regions in one memory. */
+class Layout {
+  bytes = 16; // address 0 stays unused
+  take(count: number, size = 4): number {
+    const at = this.bytes;
+    this.bytes += Math.ceil((count * size) / 16) * 16;
+    return at;
+  }
+}
+
+const up4 = (n: number) => Math.ceil(n / 4) * 4;
+
+/**
+ * The per-frame work of createCounter — residualEnergy with a pixel sample, frameNoiseScale and
+ * thresholdResidual (radius 1) — as WebAssembly SIMD kernels (scripts/countingKernelText.ts) on
+ * one counter's own memory, writing the foreground as a packed mask ({@link BitMask}) for the
+ * bitmapped morphology and the run labelling that follow.
+ *
+ * The method is that of the JS stages, step for step: the robust coordinates of the frame's
+ * background from the sample (Leonardis & Bischof 2000, see residualEnergy), then at every pixel
+ * r = (z − μ) − B y and v = r² / σ², the noise scale from every 7th v, and the 3×3 box mean of v
+ * against the per-pixel threshold with the pixel's own check. What differs is the arithmetic:
+ * r and v in f32 lanes (the JS loops use f64), y rounded to f32 for the residual, sums in f32
+ * over 256 pixels added in f64, and the box mean compared as s > t² · n rather than s / n > t².
+ * A pixel whose v lies within a few units in the seventh digit of its threshold can therefore
+ * fall on the other side; the tests bound how many.
+ *
+ * Layout in the kernels' memory: each image row padded to a stride of 32 · ⌈(width + 1) / 32⌉
+ * values (so a row always ends in zeros, which are the left neighbour of the next row's first
+ * pixel), the component planes of the basis one after the other (k rounded up to a multiple of
+ * 4, the extra planes and coordinates 0), and v with a zero guard row above and below.
+ *
+ * The model's mean is copied in on every frame, so a mean changed in place (createDriftingCounter)
+ * is followed; the basis and noise are copied once (a changed basis needs new kernels, as it
+ * needs a new coefficient sample).
+ *
+ * Returns undefined where the kernels cannot run (no WebAssembly SIMD; turned off with
+ * setKernelsEnabled(false); k = 0 or k > 12); the counter then takes the JS stages.
+ */
+export function countingKernels(model: Subspace, options: CountingKernelsOptions): CountingKernels | undefined {
+  const { coefficientSample: sample, thresholds, pixelShare = 0.5 } = options;
+  const { width, height, components: k, basis, noise, eigenvalues } = model;
+  const d = width * height;
+  if (thresholds.length !== d) throw new RangeError(`thresholds has length ${thresholds.length}, expected ${d}`);
+  if (sample.basis !== basis) throw new RangeError('coefficientSample was built for another model');
+  if (!(pixelShare >= 0 && pixelShare <= 1)) throw new RangeError(`pixelShare: expected a share in 0..1, got ${String(pixelShare)}`);
+  if (k === 0 || k > MAX_KERNEL_COMPONENTS || !kernelsEnabled()) return undefined;
+  const module = countingModule();
+  if (module === null) return undefined;
+
+  const groups = Math.ceil(k / 4);
+  const kp = 4 * groups;
+  const stride = 32 * Math.ceil((width + 1) / 32);
+  const n = height * stride;
+  const words = wordsPerRow(width);
+  const ns = sample.pixels.length;
+  const ns4 = up4(ns);
+
+  const layout = new Layout();
+  const at = {
+    z: layout.take(n),
+    mean: layout.take(n),
+    weight: layout.take(n),
+    tn: layout.take(n),
+    ts: layout.take(n),
+    basis: layout.take(kp * n),
+    // v and its work array h, each with 4 values and a row of zeros before and after.
+    v: layout.take(n + 2 * stride + 8) + 4 * (4 + stride),
+    h: layout.take(n + 2 * stride + 8) + 4 * (4 + stride),
+    outliers: layout.take(n),
+    bits: layout.take(height * words),
+    y: layout.take(kp),
+    sums: layout.take(2, 8),
+    projected: layout.take(kp, 8),
+    zS: layout.take(ns4),
+    meanS: layout.take(ns4),
+    weightS: layout.take(ns4),
+    normS: layout.take(ns4),
+    basisS: layout.take(kp * ns4),
+  };
+  let memory: WebAssembly.Memory;
+  let run: Exports;
+  try {
+    memory = new WebAssembly.Memory({ initial: Math.ceil(layout.bytes / 65536) });
+    run = new WebAssembly.Instance(module, { env: { memory } }).exports as unknown as Exports;
+  } catch {
+    return undefined;
+  }
+  const f32 = (address: number, length: number) => new Float32Array(memory.buffer, address, length);
+  const z = f32(at.z, n);
+  const mean = f32(at.mean, n);
+  const v = f32(at.v, n);
+  const zS = f32(at.zS, ns);
+  const meanS = f32(at.meanS, ns);
+  const yKernel = f32(at.y, kp);
+  const sums = new Float64Array(memory.buffer, at.sums, 2);
+  const projected = new Float64Array(memory.buffer, at.projected, kp);
+  const outlierIndex = new Int32Array(memory.buffer, at.outliers, n);
+  const bitWords = new Int32Array(memory.buffer, at.bits, height * words);
+
+  // Once per model: the noise weights, the basis planes, the thresholds, the sample's planes.
+  {
+    const weight = f32(at.weight, n);
+    const tn = f32(at.tn, n).fill(Infinity);
+    const ts = f32(at.ts, n);
+    const planes = f32(at.basis, kp * n);
+    const share2 = pixelShare * pixelShare;
+    for (let y = 0; y < height; y++) {
+      const ny = Math.min(y + 1, height - 1) - Math.max(y - 1, 0) + 1;
+      for (let x = 0; x < width; x++) {
+        const i = y * width + x;
+        const p = y * stride + x;
+        weight[p] = 1 / (noise[i] * noise[i]);
+        const nx = Math.min(x + 1, width - 1) - Math.max(x - 1, 0) + 1;
+        const t2 = thresholds[i] * thresholds[i];
+        tn[p] = t2 * nx * ny;
+        // Without the pixel's own check (share 0) every pixel passes it: v ≥ 0 > −1.
+        ts[p] = share2 === 0 ? -1 : t2 * share2;
+        for (let j = 0; j < k; j++) planes[j * n + p] = basis[i * k + j];
+      }
+    }
+    const weightS = f32(at.weightS, ns);
+    const planesS = f32(at.basisS, kp * ns4);
+    for (let s = 0; s < ns; s++) {
+      const i = sample.pixels[s];
+      weightS[s] = 1 / (noise[i] * noise[i]);
+      for (let j = 0; j < k; j++) planesS[j * ns4 + s] = basis[i * k + j];
+    }
+  }
+  const residualKernel = run[`residual_g${groups}` as 'residual_g1'];
+  const projectKernel = run[`project_g${groups}` as 'project_g1'];
+
+  // The JS side of the robust steps on the sample: its noise-scale pass reads the sample's
+  // values in the kernels' memory, and its left-out pixels update the normal equations.
+  const subPass: Pass = { z: zS, mean: meanS, basis: sample.sampledBasis, k, weight: f32(at.weightS, ns), energy: sample.energy, dffs: 0, normalised: 0 };
+  const outliers = new Outliers(sample.sampledBasis, k, new Float64Array(k * k), new Float64Array(k), sample.gram);
+  const y = new Float64Array(k);
+  const rhs = new Float64Array(k);
+  const noiseSample = new Float32Array(Math.ceil(d / scaleStride));
+
+  function setCoordinates(): void {
+    yKernel.fill(0);
+    for (let j = 0; j < k; j++) yKernel[j] = y[j];
+  }
+
+  return {
+    residual(frame, residualOptions = {}) {
+      const { robustSteps = 3, robustCutoff = 3 } = residualOptions;
+      if (frame.width !== width || frame.height !== height) throw new RangeError(`frame is ${frame.width}×${frame.height}, the model is ${width}×${height}`);
+      const data = frame.data;
+      const modelMean = model.mean;
+      for (let row = 0; row < height; row++) {
+        z.set(data.subarray(row * width, row * width + width), row * stride);
+        mean.set(modelMean.subarray(row * width, row * width + width), row * stride);
+      }
+      const pixels = sample.pixels;
+      for (let s = 0; s < ns; s++) {
+        const i = pixels[s];
+        zS[s] = data[i];
+        meanS[s] = modelMean[i];
+      }
+      // The least-squares coordinates on the sample, y = (B_Sᵀ B_S)⁻¹ B_Sᵀ (z − μ)_S…
+      projectKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.projected);
+      for (let j = 0; j < k; j++) rhs[j] = projected[j];
+      if (!solveSymmetric(sample.gram, rhs, k, y)) y.fill(0);
+      // …then the robust steps, as residualEnergy's on a pixel sample.
+      let share = 0;
+      if (robustSteps > 0) {
+        const full = symmetricTimes(sample.gram, y, k);
+        const noiseS = sample.noiseSample;
+        let lastCount = -1;
+        for (let step = 0; step < robustSteps; step++) {
+          samplePass(subPass, y, noiseS);
+          const scale = Math.max(1, quickselect(noiseS, noiseS.length >> 1, { scratch: noiseS }) / chiSquare1Median);
+          const limit = robustCutoff * robustCutoff * scale;
+          outliers.reset(full);
+          setCoordinates();
+          sums[0] = sums[1] = 0;
+          const count = residualKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.y, at.weightS, at.normS, at.sums, limit, at.outliers);
+          for (let o = 0; o < count; o++) {
+            const s = outlierIndex[o];
+            outliers.add(s, zS[s] - meanS[s]);
+          }
+          outliers.flush();
+          share = count / ns;
+          if (share < 0.001 || share > 0.8) break;
+          if (!solveSymmetric(outliers.normal, outliers.rhs, k, y)) break;
+          if (count === lastCount) break;
+          lastCount = count;
+        }
+      }
+      // The full pass: v = (r/σ)² at every pixel, with Σ r² and Σ v.
+      setCoordinates();
+      sums[0] = sums[1] = 0;
+      residualKernel(n, at.z, at.mean, at.basis, 4 * n, at.y, at.weight, at.v, at.sums, Infinity, at.outliers);
+      let difs = 0;
+      for (let j = 0; j < k; j++) if (eigenvalues[j] > 0) difs += (y[j] * y[j]) / eigenvalues[j];
+      return { coefficients: y, dffs: sums[0], difs, normalisedEnergy: sums[1] / d, outlierShare: share };
+    },
+
+    noiseScale() {
+      // Every 7th pixel in raster order, as frameNoiseScale samples.
+      for (let i = 0, s = 0, row = 0, x = 0; i < d; i += scaleStride, s++) {
+        noiseSample[s] = v[row * stride + x];
+        x += scaleStride;
+        while (x >= width) {
+          x -= width;
+          row++;
+        }
+      }
+      return noiseScaleOfSample(noiseSample);
+    },
+
+    threshold(noiseScale, out) {
+      const mask = outputBitMask(width, height, out);
+      run.threshold(at.v, at.h, stride, height, words, at.tn, at.ts, noiseScale, at.bits);
+      mask.data.set(bitWords);
+      return mask;
+    },
+  };
+}
