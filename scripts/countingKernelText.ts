@@ -150,10 +150,158 @@ function thresholdText(): string {
   ])})`;
 }
 
+/**
+ * robust_g{G}(n, z, mean, basis, plane, y, weight, limit, acc, outer, rhs) → count: one robust
+ * step's left-out pixels and their sums, in the same pass that finds them. Over n pixels laid out
+ * as in residual: r, v as there; for every pixel whose v is not ≤ limit (NaN included), with
+ * c = z − μ and b its 4G basis values, adds b_p · b_q into outer[q · 4G + p] for p ≤ q and b_p · c
+ * into rhs[p] (Float64, set by the caller), and returns how many pixels there were. The products
+ * are summed in f32 lanes over COUNTING_TILE pixels in `acc` (work memory: 4G(4G + 1)/2 + 4G
+ * vectors, zeroed here) and added into the f64 sums after each tile that had any.
+ */
+function robustText(groups: number): string {
+  const k = 4 * groups;
+  const js = range(k);
+  const pairs = js.flatMap((q) => js.filter((p) => p <= q).map((p) => [p, q] as const));
+  const accumulators = pairs.length + k;
+  const accAt = (slot: number) => `(i32.add ${get('acc')} (i32.const ${16 * slot}))`;
+  const addTo = (slot: number, product: string) => `(v128.store ${accAt(slot)} (f32x4.add (v128.load ${accAt(slot)}) ${product}))`;
+  const flushTo = (slot: number, target: string) =>
+    `(local.set $t (v128.load ${accAt(slot)}))
+(f64.store ${target} (f64.add (f64.load ${target}) ${laneSum('t')}))
+(v128.store ${accAt(slot)} ${zero})`;
+  return `(func (export "robust_g${groups}") (param $n i32) (param $z i32) (param $mean i32) (param $basis i32) (param $plane i32) (param $y i32) (param $weight i32) (param $limit f32) (param $acc i32) (param $outer i32) (param $rhs i32) (result i32)
+  (local $p i32) (local $end i32) (local $tile i32) (local $count i32) (local $any i32) (local $bp i32) (local $slot i32)
+  (local $c v128) (local $r v128) (local $v v128) (local $bad v128) (local $lim v128) (local $t v128)
+  ${js.map((j) => `(local $y${j} v128) (local $o${j} i32) (local $b${j} v128)`).join(' ')}
+  ${js.map((j) => `(local.set $y${j} (v128.load32_splat offset=${4 * j} ${get('y')}))`).join(' ')}
+  ${js.map((j) => `(local.set $o${j} (i32.mul ${get('plane')} (i32.const ${j})))`).join(' ')}
+  (local.set $lim (f32x4.splat ${get('limit')}))
+  (local.set $slot (i32.const 0))
+  ${loop('clear', `(i32.ge_u ${get('slot')} (i32.const ${16 * accumulators}))`, [`(v128.store (i32.add ${get('acc')} ${get('slot')}) ${zero})`, bump('slot', '(i32.const 16)')])}
+  (local.set $end (i32.shl ${get('n')} (i32.const 2)))
+  (local.set $p (i32.const 0))
+  ${loop('tiles', `(i32.ge_u ${get('p')} ${get('end')})`, [
+    `(local.set $tile (select ${get('end')} (i32.add ${get('p')} (i32.const ${4 * COUNTING_TILE})) (i32.lt_u ${get('end')} (i32.add ${get('p')} (i32.const ${4 * COUNTING_TILE})))))`,
+    '(local.set $any (i32.const 0))',
+    loop('pixels', `(i32.ge_u ${get('p')} ${get('tile')})`, [
+      `(local.set $c (f32x4.sub (v128.load (i32.add ${get('z')} ${get('p')})) (v128.load (i32.add ${get('mean')} ${get('p')}))))`,
+      `(local.set $bp (i32.add ${get('basis')} ${get('p')}))`,
+      ...js.map((j) => `(local.set $b${j} (v128.load (i32.add ${get('bp')} ${get(`o${j}`)})))`),
+      `(local.set $r ${get('c')})`,
+      ...js.map((j) => `(local.set $r (f32x4.sub ${get('r')} (f32x4.mul ${get(`b${j}`)} ${get(`y${j}`)})))`),
+      `(local.set $v (f32x4.mul (f32x4.mul ${get('r')} ${get('r')}) (v128.load (i32.add ${get('weight')} ${get('p')}))))`,
+      `(local.set $bad (v128.not (f32x4.le ${get('v')} ${get('lim')})))`,
+      `(if (v128.any_true ${get('bad')}) (then
+        (local.set $count (i32.add ${get('count')} (i32.popcnt (i32x4.bitmask ${get('bad')}))))
+        (local.set $any (i32.const 1))
+        (local.set $c (v128.and ${get('c')} ${get('bad')}))
+        ${pairs.map(([p, q], slot) => addTo(slot, `(f32x4.mul (v128.and ${get(`b${p}`)} ${get('bad')}) ${get(`b${q}`)})`)).join('\n        ')}
+        ${js.map((p) => addTo(pairs.length + p, `(f32x4.mul ${get(`b${p}`)} ${get('c')})`)).join('\n        ')}))`,
+      bump('p', '(i32.const 16)'),
+    ]),
+    `(if ${get('any')} (then
+      ${pairs.map(([p, q], slot) => flushTo(slot, `(i32.add ${get('outer')} (i32.const ${8 * (q * k + p)}))`)).join('\n      ')}
+      ${js.map((p) => flushTo(pairs.length + p, `(i32.add ${get('rhs')} (i32.const ${8 * p}))`)).join('\n      ')}))`,
+  ])}
+  ${get('count')})`;
+}
+
+/** gather(src, index, n, dst): dst[s] = src[index[s]] for s < n (Float32 values, i32 indices). */
+function gatherText(): string {
+  return `(func (export "gather") (param $src i32) (param $index i32) (param $n i32) (param $dst i32)
+  (local $s i32) (local $end i32)
+  (local.set $end (i32.shl ${get('n')} (i32.const 2)))
+  ${loop('values', `(i32.ge_u ${get('s')} ${get('end')})`, [
+    `(f32.store (i32.add ${get('dst')} ${get('s')}) (f32.load (i32.add ${get('src')} (i32.shl (i32.load (i32.add ${get('index')} ${get('s')})) (i32.const 2)))))`,
+    bump('s', '(i32.const 4)'),
+  ])})`;
+}
+
+/**
+ * morph(src, dst, tmp, rows, rowBytes, vectors, words, keep, radius, erode): one erosion (erode ≠ 0)
+ * or dilation of a packed mask by the (2 · radius + 1)² square, radius 1..31, as morphologyBits
+ * does it (a row pass of shifts, then a column pass), four words per instruction.
+ *
+ * Layout of src, dst and tmp: `rows` rows of rowBytes bytes from their address; each row's
+ * `vectors` × 4 words hold its `words` words of pixels (bit x mod 32 of word ⌊x/32⌋), and the
+ * 4 words before a row's address (the end of the previous row, for row 0 memory reserved by the
+ * caller) and after its last vector are guards, as are 4 words after the last row. This sets
+ * the guards, the words past `words` and the bits of the last word not in `keep` to the step's
+ * outside value (set for an erosion, unset for a dilation), so the border is opencv's default.
+ * dst gets the result (its guards are not set); tmp is work memory.
+ */
+function morphText(): string {
+  const body = (op: string, outside: string) => `
+    ;; guards, the words past the row end, and the row end's padding bits
+    (local.set $y (i32.const 0))
+    ${loop(`guards_${op}`, `(i32.gt_u ${get('y')} ${get('rows')})`, [
+      `(local.set $row (i32.add ${get('src')} (i32.mul ${get('y')} ${get('rowBytes')})))`,
+      `(v128.store (i32.sub ${get('row')} (i32.const 16)) ${outside})`,
+      `(if (i32.lt_u ${get('y')} ${get('rows')}) (then
+        (local.set $w ${get('words')})
+        ${loop(`extra_${op}`, `(i32.ge_u ${get('w')} (i32.shl ${get('vectors')} (i32.const 2)))`, [
+          `(i32.store (i32.add ${get('row')} (i32.shl ${get('w')} (i32.const 2))) (i32x4.extract_lane 0 ${outside}))`,
+          bump('w', '(i32.const 1)'),
+        ])}
+        (local.set $q (i32.add ${get('row')} (i32.shl (i32.sub ${get('words')} (i32.const 1)) (i32.const 2))))
+        (i32.store ${get('q')} (i32.or (i32.and (i32.load ${get('q')}) ${get('keep')}) (i32.and (i32x4.extract_lane 0 ${outside}) (i32.xor ${get('keep')} (i32.const -1)))))))`,
+      bump('y', '(i32.const 1)'),
+    ])}
+    ;; rows: each word with its neighbours shifted by 1..radius pixels either way
+    (local.set $y (i32.const 0))
+    ${loop(`rows_${op}`, `(i32.ge_u ${get('y')} ${get('rows')})`, [
+      `(local.set $off (i32.mul ${get('y')} ${get('rowBytes')}))`,
+      `(local.set $end (i32.add ${get('off')} (i32.shl ${get('vectors')} (i32.const 4))))`,
+      loop(`row_vectors_${op}`, `(i32.ge_u ${get('off')} ${get('end')})`, [
+        `(local.set $q (i32.add ${get('src')} ${get('off')}))`,
+        `(local.set $a (v128.load ${get('q')}))`,
+        `(local.set $right (v128.load (i32.add ${get('q')} (i32.const 4))))`,
+        `(local.set $left (v128.load (i32.sub ${get('q')} (i32.const 4))))`,
+        `(local.set $acc ${get('a')})`,
+        '(local.set $s (i32.const 1))',
+        loop(`shifts_${op}`, `(i32.gt_u ${get('s')} ${get('radius')})`, [
+          `(local.set $acc (${op} ${get('acc')} (v128.or (i32x4.shr_u ${get('a')} ${get('s')}) (i32x4.shl ${get('right')} (i32.sub (i32.const 32) ${get('s')})))))`,
+          `(local.set $acc (${op} ${get('acc')} (v128.or (i32x4.shl ${get('a')} ${get('s')}) (i32x4.shr_u ${get('left')} (i32.sub (i32.const 32) ${get('s')})))))`,
+          bump('s', '(i32.const 1)'),
+        ]),
+        `(v128.store (i32.add ${get('tmp')} ${get('off')}) ${get('acc')})`,
+        bump('off', '(i32.const 16)'),
+      ]),
+      bump('y', '(i32.const 1)'),
+    ])}
+    ;; columns: rows y − radius … y + radius inside the image
+    (local.set $y (i32.const 0))
+    ${loop(`columns_${op}`, `(i32.ge_u ${get('y')} ${get('rows')})`, [
+      `(local.set $t0 (select (i32.sub ${get('y')} ${get('radius')}) (i32.const 0) (i32.ge_s (i32.sub ${get('y')} ${get('radius')}) (i32.const 0))))`,
+      `(local.set $t1 (select (i32.add ${get('y')} ${get('radius')}) (i32.sub ${get('rows')} (i32.const 1)) (i32.lt_s (i32.add ${get('y')} ${get('radius')}) ${get('rows')})))`,
+      '(local.set $v (i32.const 0))',
+      loop(`column_vectors_${op}`, `(i32.ge_u ${get('v')} (i32.shl ${get('vectors')} (i32.const 4)))`, [
+        `(local.set $acc ${outside})`,
+        `(local.set $q (i32.add (i32.add ${get('tmp')} (i32.mul ${get('t0')} ${get('rowBytes')})) ${get('v')}))`,
+        `(local.set $t ${get('t0')})`,
+        loop(`column_rows_${op}`, `(i32.gt_s ${get('t')} ${get('t1')})`, [
+          `(local.set $acc (${op} ${get('acc')} (v128.load ${get('q')})))`,
+          bump('q', get('rowBytes')),
+          bump('t', '(i32.const 1)'),
+        ]),
+        `(v128.store (i32.add (i32.add ${get('dst')} (i32.mul ${get('y')} ${get('rowBytes')})) ${get('v')}) ${get('acc')})`,
+        bump('v', '(i32.const 16)'),
+      ]),
+      bump('y', '(i32.const 1)'),
+    ])}`;
+  return `(func (export "morph") (param $src i32) (param $dst i32) (param $tmp i32) (param $rows i32) (param $rowBytes i32) (param $vectors i32) (param $words i32) (param $keep i32) (param $radius i32) (param $erode i32)
+  (local $y i32) (local $row i32) (local $w i32) (local $q i32) (local $off i32) (local $end i32) (local $s i32) (local $t i32) (local $t0 i32) (local $t1 i32) (local $v i32)
+  (local $a v128) (local $left v128) (local $right v128) (local $acc v128)
+  (if ${get('erode')}
+    (then ${body('v128.and', '(v128.const i32x4 -1 -1 -1 -1)')})
+    (else ${body('v128.or', zero)})))`;
+}
+
 /** The text of the counting module: the functions above, sharing one imported memory. */
 export function countingKernelText(): string {
   return `(module
   (memory (import "env" "memory") 1)
-  ${[...COUNTING_GROUPS.flatMap((g) => [residualText(g), projectText(g)]), thresholdText()].join('\n  ')})
+  ${[...COUNTING_GROUPS.flatMap((g) => [residualText(g), projectText(g), robustText(g)]), thresholdText(), gatherText(), morphText()].join('\n  ')})
 `;
 }

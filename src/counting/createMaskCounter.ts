@@ -2,6 +2,7 @@ import { createMask, type Mask } from '../frames/frame.ts';
 import { createBitMask, unpackMask, type BitMask } from '../vision/bitMask.ts';
 import { createLabelBitRunsScratch, labelBitRuns } from '../vision/labelBitRuns.ts';
 import { morphologyBitMask } from '../vision/morphologyBits.ts';
+import { MAX_KERNEL_RADIUS, morphologyKernels, type SquareStep } from '../vision/morphologyKernels.ts';
 import { closeMask } from '../vision/closeMask.ts';
 import { labelComponents, type Blob } from '../vision/labelComponents.ts';
 import { openMask } from '../vision/openMask.ts';
@@ -22,6 +23,8 @@ export interface MaskCounterOptions extends PrepareZonesOptions {
    * default none (no clock is read).
    */
   stageTimes?: Float64Array;
+  /** Run the packed-mask morphology in the WebAssembly SIMD kernels when they run here (see setKernelsEnabled); default true. */
+  kernels?: boolean;
 }
 
 /** The stages of a counted frame, as indices into a counter's stage times. */
@@ -79,6 +82,12 @@ export function createMaskCounter(
   const closedBits = createBitMask(width, height);
   const bitScratch = new Int32Array(3 * closedBits.data.length);
   const runScratch = createLabelBitRunsScratch(width, height);
+  // The opening then the closing as one chain of square steps, in the kernels when they run here.
+  const squareSteps: SquareStep[] = [
+    ...(openRadius > 0 ? (['erode', 'dilate'] as const).map((step) => ({ step, radius: openRadius })) : []),
+    ...(closeRadius > 0 ? (['dilate', 'erode'] as const).map((step) => ({ step, radius: closeRadius })) : []),
+  ];
+  const morphology = Math.max(openRadius, closeRadius) <= MAX_KERNEL_RADIUS && options.kernels !== false ? morphologyKernels(size) : undefined;
   let last: Mask = closed;
   /** The packed cleaned mask of the last countBits, until lastMask() unpacks it. */
   let lastBits: BitMask | undefined;
@@ -88,9 +97,12 @@ export function createMaskCounter(
       if (raw.width !== width || raw.height !== height) throw new RangeError(`mask is ${raw.width}×${raw.height}, expected ${width}×${height}`);
       const t0 = stageTimes === undefined ? 0 : performance.now();
       let mask: BitMask = raw;
-      if (openRadius > 0) mask = morphologyBitMask(mask, { steps: ['erode', 'dilate'], radius: openRadius, out: openedBits, scratch: bitScratch });
-      if (closeRadius > 0) mask = morphologyBitMask(mask, { steps: ['dilate', 'erode'], radius: closeRadius, out: closedBits, scratch: bitScratch });
-      if (mask === raw) mask = morphologyBitMask(raw, { out: closedBits, scratch: bitScratch });
+      if (morphology !== undefined) mask = morphology.apply(raw, squareSteps, closedBits);
+      else {
+        if (openRadius > 0) mask = morphologyBitMask(mask, { steps: ['erode', 'dilate'], radius: openRadius, out: openedBits, scratch: bitScratch });
+        if (closeRadius > 0) mask = morphologyBitMask(mask, { steps: ['dilate', 'erode'], radius: closeRadius, out: closedBits, scratch: bitScratch });
+        if (mask === raw) mask = morphologyBitMask(raw, { out: closedBits, scratch: bitScratch });
+      }
       lastBits = mask;
       const t1 = stageTimes === undefined ? 0 : performance.now();
       const components = labelBitRuns(mask, { connectivity, scratch: runScratch });

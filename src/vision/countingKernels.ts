@@ -4,7 +4,7 @@ import { outputBitMask, wordsPerRow, type BitMask } from './bitMask.ts';
 import { chiSquare1Median, noiseScaleOfSample } from './frameNoiseScale.ts';
 import { kernelsEnabled } from './learningKernels.ts';
 import { quickselect } from './quickselect.ts';
-import { Outliers, samplePass, scaleStride, symmetricTimes, type CoefficientSample, type Pass } from './residualEnergy.ts';
+import { samplePass, scaleStride, symmetricTimes, type CoefficientSample, type Pass } from './residualEnergy.ts';
 import { solveSymmetric } from './solveSymmetric.ts';
 import type { Subspace } from './subspace.ts';
 
@@ -58,15 +58,20 @@ interface Exports {
   project_g1: ProjectKernel;
   project_g2: ProjectKernel;
   project_g3: ProjectKernel;
+  robust_g1: RobustKernel;
+  robust_g2: RobustKernel;
+  robust_g3: RobustKernel;
+  gather(src: number, index: number, n: number, dst: number): void;
   threshold(v: number, h: number, stride: number, rows: number, words: number, tn: number, ts: number, scale: number, bits: number): void;
 }
 type ResidualKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, norm: number, sums: number, limit: number, outliers: number) => number;
+type RobustKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, limit: number, acc: number, outer: number, rhs: number) => number;
 type ProjectKernel = (n: number, z: number, mean: number, basis: number, plane: number, out: number) => void;
 
 let compiled: WebAssembly.Module | null | undefined;
 
 /** The counting module (scripts/countingKernelText.ts), compiled once per thread; null where WebAssembly SIMD is missing. */
-function countingModule(): WebAssembly.Module | null {
+export function countingModule(): WebAssembly.Module | null {
   if (compiled !== undefined) return compiled;
   try {
     compiled = new WebAssembly.Module(readFileSync(new URL('./kernels/counting.wasm', import.meta.url)));
@@ -150,6 +155,12 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     y: layout.take(kp),
     sums: layout.take(2, 8),
     projected: layout.take(kp, 8),
+    outer: layout.take(kp * kp, 8),
+    outerRhs: layout.take(kp, 8),
+    acc: layout.take(4 * ((kp * (kp + 1)) / 2 + kp)),
+    sampleIndex: layout.take(ns),
+    noiseIndex: layout.take(Math.ceil(d / scaleStride)),
+    noiseSample: layout.take(Math.ceil(d / scaleStride)),
     zS: layout.take(ns4),
     meanS: layout.take(ns4),
     weightS: layout.take(ns4),
@@ -167,9 +178,12 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
   const f32 = (address: number, length: number) => new Float32Array(memory.buffer, address, length);
   const z = f32(at.z, n);
   const mean = f32(at.mean, n);
-  const v = f32(at.v, n);
   const zS = f32(at.zS, ns);
   const meanS = f32(at.meanS, ns);
+  const outer = new Float64Array(memory.buffer, at.outer, kp * kp);
+  const outerRhs = new Float64Array(memory.buffer, at.outerRhs, kp);
+  const noiseCount = Math.ceil(d / scaleStride);
+  const noiseSample = f32(at.noiseSample, noiseCount);
   const yKernel = f32(at.y, kp);
   const sums = new Float64Array(memory.buffer, at.sums, 2);
   const projected = new Float64Array(memory.buffer, at.projected, kp);
@@ -199,22 +213,28 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     }
     const weightS = f32(at.weightS, ns);
     const planesS = f32(at.basisS, kp * ns4);
+    const padded = (i: number) => Math.floor(i / width) * stride + (i % width);
+    const sampleIndex = new Int32Array(memory.buffer, at.sampleIndex, ns);
+    const noiseIndex = new Int32Array(memory.buffer, at.noiseIndex, noiseCount);
+    // Every 7th pixel in raster order, as frameNoiseScale samples.
+    for (let s = 0; s < noiseCount; s++) noiseIndex[s] = padded(s * scaleStride);
     for (let s = 0; s < ns; s++) {
       const i = sample.pixels[s];
+      sampleIndex[s] = padded(i);
       weightS[s] = 1 / (noise[i] * noise[i]);
       for (let j = 0; j < k; j++) planesS[j * ns4 + s] = basis[i * k + j];
     }
   }
   const residualKernel = run[`residual_g${groups}` as 'residual_g1'];
   const projectKernel = run[`project_g${groups}` as 'project_g1'];
+  const robustKernel = run[`robust_g${groups}` as 'robust_g1'];
 
   // The JS side of the robust steps on the sample: its noise-scale pass reads the sample's
-  // values in the kernels' memory, and its left-out pixels update the normal equations.
+  // values in the kernels' memory (the left-out pixels' sums come from the kernel).
   const subPass: Pass = { z: zS, mean: meanS, basis: sample.sampledBasis, k, weight: f32(at.weightS, ns), energy: sample.energy, dffs: 0, normalised: 0 };
-  const outliers = new Outliers(sample.sampledBasis, k, new Float64Array(k * k), new Float64Array(k), sample.gram);
+  const normal = new Float64Array(k * k);
   const y = new Float64Array(k);
   const rhs = new Float64Array(k);
-  const noiseSample = new Float32Array(Math.ceil(d / scaleStride));
 
   function setCoordinates(): void {
     yKernel.fill(0);
@@ -231,38 +251,35 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
         z.set(data.subarray(row * width, row * width + width), row * stride);
         mean.set(modelMean.subarray(row * width, row * width + width), row * stride);
       }
-      const pixels = sample.pixels;
-      for (let s = 0; s < ns; s++) {
-        const i = pixels[s];
-        zS[s] = data[i];
-        meanS[s] = modelMean[i];
-      }
+      run.gather(at.z, at.sampleIndex, ns, at.zS);
+      run.gather(at.mean, at.sampleIndex, ns, at.meanS);
       // The least-squares coordinates on the sample, y = (B_Sᵀ B_S)⁻¹ B_Sᵀ (z − μ)_S…
       projectKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.projected);
       for (let j = 0; j < k; j++) rhs[j] = projected[j];
       if (!solveSymmetric(sample.gram, rhs, k, y)) y.fill(0);
-      // …then the robust steps, as residualEnergy's on a pixel sample.
+      // …then the robust steps, as residualEnergy's on a pixel sample: the normal equations of
+      // the kept pixels are those of the sample minus the left-out pixels' sums.
       let share = 0;
       if (robustSteps > 0) {
         const full = symmetricTimes(sample.gram, y, k);
         const noiseS = sample.noiseSample;
+        const gram = sample.gram;
         let lastCount = -1;
         for (let step = 0; step < robustSteps; step++) {
           samplePass(subPass, y, noiseS);
           const scale = Math.max(1, quickselect(noiseS, noiseS.length >> 1, { scratch: noiseS }) / chiSquare1Median);
           const limit = robustCutoff * robustCutoff * scale;
-          outliers.reset(full);
           setCoordinates();
-          sums[0] = sums[1] = 0;
-          const count = residualKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.y, at.weightS, at.normS, at.sums, limit, at.outliers);
-          for (let o = 0; o < count; o++) {
-            const s = outlierIndex[o];
-            outliers.add(s, zS[s] - meanS[s]);
+          outer.fill(0);
+          outerRhs.fill(0);
+          const count = robustKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.y, at.weightS, limit, at.acc, at.outer, at.outerRhs);
+          for (let p = 0; p < k; p++) {
+            for (let q = 0; q <= p; q++) normal[p * k + q] = gram[p * k + q] - outer[p * kp + q];
+            rhs[p] = full[p] - outerRhs[p];
           }
-          outliers.flush();
           share = count / ns;
           if (share < 0.001 || share > 0.8) break;
-          if (!solveSymmetric(outliers.normal, outliers.rhs, k, y)) break;
+          if (!solveSymmetric(normal, rhs, k, y)) break;
           if (count === lastCount) break;
           lastCount = count;
         }
@@ -277,15 +294,7 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     },
 
     noiseScale() {
-      // Every 7th pixel in raster order, as frameNoiseScale samples.
-      for (let i = 0, s = 0, row = 0, x = 0; i < d; i += scaleStride, s++) {
-        noiseSample[s] = v[row * stride + x];
-        x += scaleStride;
-        while (x >= width) {
-          x -= width;
-          row++;
-        }
-      }
+      run.gather(at.v, at.noiseIndex, noiseCount, at.noiseSample);
       return noiseScaleOfSample(noiseSample);
     },
 

@@ -486,7 +486,7 @@ function sample12(pass: Pass, y: Float64Array, sample: Float32Array, end: number
  * then z − μ) and subtracted from the normal equations: normal = I − B_Oᵀ B_O and
  * rhs = Bᵀ(z − μ) − B_Oᵀ(z − μ)_O.
  */
-export class Outliers {
+class Outliers {
   private run = 0;
   private readonly gathered: Float64Array;
 

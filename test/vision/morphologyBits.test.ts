@@ -2,7 +2,9 @@ import { describe, expect, it } from 'vitest';
 import type { Mask } from '../../src/frames/frame.ts';
 import type { ElementShape } from '../../src/vision/erode.ts';
 import { packMask, popcount32, unpackMask } from '../../src/vision/bitMask.ts';
+import { setKernelsEnabled } from '../../src/vision/learningKernels.ts';
 import { morphologyBitMask, morphologyBits, type MorphologyStep } from '../../src/vision/morphologyBits.ts';
+import { morphologyKernels } from '../../src/vision/morphologyKernels.ts';
 import { mulberry } from '../helpers/random.ts';
 
 /**
@@ -130,5 +132,39 @@ describe('packMask and unpackMask', () => {
   it('counts the set bits of a word', () => {
     // check: common practice — popcount of 0, −1 (all 32 bits), 0x80000001 and 0x0f0f0f0f.
     expect([0, -1, 0x80000001 | 0, 0x0f0f0f0f].map(popcount32)).toEqual([0, 32, 2, 16]);
+  });
+});
+
+describe('morphologyKernels', () => {
+  it('gives morphologyBitMask’s result bit for bit, for chains of square steps at any width', () => {
+    // check: direct evaluation of the definitions above (simple reference implementation).
+    const rand = mulberry(123);
+    for (const width of [1, 5, 31, 32, 33, 64, 100, 129, 320]) {
+      const height = 1 + Math.floor(rand() * 30);
+      const kernels = morphologyKernels({ width, height })!;
+      expect(kernels).toBeDefined();
+      for (let trial = 0; trial < 4; trial++) {
+        const steps = Array.from({ length: 1 + Math.floor(rand() * 4) }, () => ({ step: (rand() < 0.5 ? 'erode' : 'dilate') as MorphologyStep, radius: Math.floor(rand() * 4) }));
+        if (trial === 3) steps.push({ step: 'dilate', radius: 31 });
+        const mask: Mask = { width, height, data: Uint8Array.from({ length: width * height }, () => (rand() < 0.5 ? 1 : 0)) };
+        const packed = packMask(mask);
+        if (width % 32 !== 0) for (let w = packed.words - 1; w < packed.data.length; w += packed.words) packed.data[w] |= ~((1 << (width % 32)) - 1);
+        let want = mask;
+        for (const { step, radius } of steps) want = { width, height, data: reference(want, [step], radius, 'square') };
+        const got = kernels.apply(packed, steps);
+        expect(Array.from(unpackMask(got).data), `${width}×${height} ${JSON.stringify(steps)}`).toEqual(Array.from(want.data));
+      }
+    }
+  });
+
+  it('is not offered with the kernels turned off, and names a radius it cannot take', () => {
+    setKernelsEnabled(false);
+    try {
+      expect(morphologyKernels({ width: 10, height: 10 })).toBeUndefined();
+    } finally {
+      setKernelsEnabled(true);
+    }
+    const kernels = morphologyKernels({ width: 10, height: 10 })!;
+    expect(() => kernels.apply(packMask({ width: 10, height: 10, data: new Uint8Array(100) }), [{ step: 'erode', radius: 32 }])).toThrow(/radius: expected a whole number 0..31, got 32/);
   });
 });
