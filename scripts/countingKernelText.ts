@@ -3,6 +3,8 @@
 // smoothed threshold that writes a packed mask. Four pixels per instruction; see
 // src/vision/countingKernels.ts for the memory layout they run on.
 
+import { SELECT_BINS as KERNEL_SELECT_BINS } from '../src/vision/countingKernels.ts';
+
 /** Components are taken four at a time; a module has variants for 1, 2 and 3 groups (k ≤ 12). */
 export const COUNTING_GROUPS = [1, 2, 3] as const;
 /** Pixels whose f32 lane sums are added into the f64 totals at a time. */
@@ -104,8 +106,8 @@ function projectText(groups: number): string {
  * threshold(v, h, stride, rows, words, tn, ts, scale, bits): the 3×3 box mean of the normalised
  * energy against a per-pixel threshold, written as a packed mask.
  *
- * v: `rows` rows of `stride` Float32 values (stride a multiple of 32, greater than the image
- * width, the values past the width 0), with one zero row before and after and 4 zero values
+ * v: `rows` rows of `stride` Float32 values (stride a multiple of 4, at least 32 · words and
+ * greater than the image width, the values past the width 0), with one zero row before and after and 4 zero values
  * before and after those: so the neighbours of every image pixel are inside the array and those
  * outside the image are 0. h: a work array of the same shape. First h = the sum of each value and
  * its left and right neighbours, over the guard rows too; then per pixel s = h above + h + h below,
@@ -151,11 +153,15 @@ function thresholdText(): string {
 }
 
 /**
- * robust_g{G}(n, z, mean, basis, plane, y, weight, limit, acc, outer, rhs) → count: one robust
- * step's left-out pixels and their sums, in the same pass that finds them. Over n pixels laid out
- * as in residual: r, v as there; for every pixel whose v is not ≤ limit (NaN included), with
- * c = z − μ and b its 4G basis values, adds b_p · b_q into outer[q · 4G + p] for p ≤ q and b_p · c
- * into rhs[p] (Float64, set by the caller), and returns how many pixels there were. The products
+ * robust_g{G}(n, z, mean, basis, plane, y, weight, limit, left, acc, outer, rhs) → count: one
+ * robust step's left-out pixels and the change of their sums, in the same pass that finds them.
+ * Over n pixels laid out as in residual: r, v as there; a pixel is left out when its v is not
+ * ≤ limit (NaN included). `left` (n i32, all bits set for a pixel left out) holds the previous
+ * step's left-out set on entry (all 0 before the first step) and this step's on return. For every
+ * pixel that joined the set (w = +1) or left it (w = −1), with c = z − μ and b its 4G basis
+ * values, adds w · b_p · b_q into outer[q · 4G + p] for p ≤ q and w · b_p · c into rhs[p]
+ * (Float64, kept by the caller from step to step): so outer and rhs are always the sums over the
+ * current set, at the cost of the pixels that changed. Returns the size of the set. The products
  * are summed in f32 lanes over COUNTING_TILE pixels in `acc` (work memory: 4G(4G + 1)/2 + 4G
  * vectors, zeroed here) and added into the f64 sums after each tile that had any.
  */
@@ -170,9 +176,9 @@ function robustText(groups: number): string {
     `(local.set $t (v128.load ${accAt(slot)}))
 (f64.store ${target} (f64.add (f64.load ${target}) ${laneSum('t')}))
 (v128.store ${accAt(slot)} ${zero})`;
-  return `(func (export "robust_g${groups}") (param $n i32) (param $z i32) (param $mean i32) (param $basis i32) (param $plane i32) (param $y i32) (param $weight i32) (param $limit f32) (param $acc i32) (param $outer i32) (param $rhs i32) (result i32)
+  return `(func (export "robust_g${groups}") (param $n i32) (param $z i32) (param $mean i32) (param $basis i32) (param $plane i32) (param $y i32) (param $weight i32) (param $limit f32) (param $left i32) (param $acc i32) (param $outer i32) (param $rhs i32) (result i32)
   (local $p i32) (local $end i32) (local $tile i32) (local $count i32) (local $any i32) (local $bp i32) (local $slot i32)
-  (local $c v128) (local $r v128) (local $v v128) (local $bad v128) (local $lim v128) (local $t v128)
+  (local $c v128) (local $r v128) (local $v v128) (local $bad v128) (local $lim v128) (local $t v128) (local $was v128) (local $w v128)
   ${js.map((j) => `(local $y${j} v128) (local $o${j} i32) (local $b${j} v128)`).join(' ')}
   ${js.map((j) => `(local.set $y${j} (v128.load32_splat offset=${4 * j} ${get('y')}))`).join(' ')}
   ${js.map((j) => `(local.set $o${j} (i32.mul ${get('plane')} (i32.const ${j})))`).join(' ')}
@@ -192,11 +198,15 @@ function robustText(groups: number): string {
       ...js.map((j) => `(local.set $r (f32x4.sub ${get('r')} (f32x4.mul ${get(`b${j}`)} ${get(`y${j}`)})))`),
       `(local.set $v (f32x4.mul (f32x4.mul ${get('r')} ${get('r')}) (v128.load (i32.add ${get('weight')} ${get('p')}))))`,
       `(local.set $bad (v128.not (f32x4.le ${get('v')} ${get('lim')})))`,
-      `(if (v128.any_true ${get('bad')}) (then
-        (local.set $count (i32.add ${get('count')} (i32.popcnt (i32x4.bitmask ${get('bad')}))))
+      `(local.set $count (i32.add ${get('count')} (i32.popcnt (i32x4.bitmask ${get('bad')}))))`,
+      `(local.set $was (v128.load (i32.add ${get('left')} ${get('p')})))`,
+      `(v128.store (i32.add ${get('left')} ${get('p')}) ${get('bad')})`,
+      `(if (v128.any_true (v128.xor ${get('bad')} ${get('was')})) (then
         (local.set $any (i32.const 1))
-        (local.set $c (v128.and ${get('c')} ${get('bad')}))
-        ${pairs.map(([p, q], slot) => addTo(slot, `(f32x4.mul (v128.and ${get(`b${p}`)} ${get('bad')}) ${get(`b${q}`)})`)).join('\n        ')}
+        ;; w = +1 where the pixel joined, −1 where it left, 0 where it stayed (the +0.0 bit pattern)
+        (local.set $w (v128.and (v128.bitselect (v128.const f32x4 1 1 1 1) (v128.const f32x4 -1 -1 -1 -1) ${get('bad')}) (v128.xor ${get('bad')} ${get('was')})))
+        (local.set $c (f32x4.mul ${get('c')} ${get('w')}))
+        ${pairs.map(([p, q], slot) => addTo(slot, `(f32x4.mul (f32x4.mul ${get(`b${p}`)} ${get('w')}) ${get(`b${q}`)})`)).join('\n        ')}
         ${js.map((p) => addTo(pairs.length + p, `(f32x4.mul ${get(`b${p}`)} ${get('c')})`)).join('\n        ')}))`,
       bump('p', '(i32.const 16)'),
     ]),
@@ -298,10 +308,78 @@ function morphText(): string {
     (else ${body('v128.or', zero)})))`;
 }
 
+/** Histogram bins of `select`: the top 12 bits of a Float32 (sign, exponent, 3 bits of mantissa). */
+const SELECT_BINS = KERNEL_SELECT_BINS;
+
+/**
+ * select(values, n, kth, hist, out, result): the first half of an exact selection of the kth
+ * smallest (0-based) of n non-negative Float32 values, by their bit patterns (which order as the
+ * values do for non-negative floats; a radix selection): a histogram of the top 12 bits into
+ * hist (SELECT_BINS i32, cleared here), the bin that holds the kth smallest, and its values
+ * copied to out in their order. Writes the number of values in that bin to result[0] and the
+ * rank of the kth smallest among them to result[1] (i32); selecting that rank among out[0 …
+ * result[0]) gives the kth smallest of all n.
+ */
+function selectText(): string {
+  return `(func (export "select") (param $values i32) (param $n i32) (param $kth i32) (param $hist i32) (param $out i32) (param $result i32)
+  (local $s i32) (local $end i32) (local $b i32) (local $at i32) (local $cum i32) (local $c i32) (local $m i32) (local $x i32)
+  (local.set $s (i32.const 0))
+  ${loop('clear', `(i32.ge_u ${get('s')} (i32.const ${4 * SELECT_BINS}))`, [`(v128.store (i32.add ${get('hist')} ${get('s')}) ${zero})`, bump('s', '(i32.const 16)')])}
+  (local.set $end (i32.shl ${get('n')} (i32.const 2)))
+  (local.set $s (i32.const 0))
+  ${loop('count', `(i32.ge_u ${get('s')} ${get('end')})`, [
+    `(local.set $at (i32.add ${get('hist')} (i32.shl (i32.shr_u (i32.load (i32.add ${get('values')} ${get('s')})) (i32.const 20)) (i32.const 2))))`,
+    `(i32.store ${get('at')} (i32.add (i32.load ${get('at')}) (i32.const 1)))`,
+    bump('s', '(i32.const 4)'),
+  ])}
+  (local.set $b (i32.const 0))
+  (block $found (loop $scan
+    (local.set $c (i32.load (i32.add ${get('hist')} (i32.shl ${get('b')} (i32.const 2)))))
+    (br_if $found (i32.gt_u (i32.add ${get('cum')} ${get('c')}) ${get('kth')}))
+    (local.set $cum (i32.add ${get('cum')} ${get('c')}))
+    ${bump('b', '(i32.const 1)')}
+    (br_if $scan (i32.lt_u ${get('b')} (i32.const ${SELECT_BINS})))))
+  (local.set $s (i32.const 0))
+  ${loop('collect', `(i32.ge_u ${get('s')} ${get('end')})`, [
+    `(local.set $x (i32.load (i32.add ${get('values')} ${get('s')})))`,
+    `(if (i32.eq (i32.shr_u ${get('x')} (i32.const 20)) ${get('b')}) (then
+      (i32.store (i32.add ${get('out')} (i32.shl ${get('m')} (i32.const 2))) ${get('x')})
+      ${bump('m', '(i32.const 1)')}))`,
+    bump('s', '(i32.const 4)'),
+  ])}
+  (i32.store ${get('result')} ${get('m')})
+  (i32.store offset=4 ${get('result')} (i32.sub ${get('kth')} ${get('cum')})))`;
+}
+
+/**
+ * pad(src, width, rows, stride, dst): copies `rows` rows of `width` Float32 values, one after the
+ * other at src, to rows `stride` values apart at dst (the values past the width are not touched).
+ */
+function padText(): string {
+  return `(func (export "pad") (param $src i32) (param $width i32) (param $rows i32) (param $stride i32) (param $dst i32)
+  (local $y i32) (local $x i32) (local $bulk i32) (local $rowBytes i32) (local $from i32) (local $to i32)
+  (local.set $rowBytes (i32.shl ${get('width')} (i32.const 2)))
+  (local.set $bulk (i32.and ${get('rowBytes')} (i32.const -16)))
+  ${loop('rows', `(i32.ge_u ${get('y')} ${get('rows')})`, [
+    `(local.set $from (i32.add ${get('src')} (i32.mul ${get('y')} ${get('rowBytes')})))`,
+    `(local.set $to (i32.add ${get('dst')} (i32.shl (i32.mul ${get('y')} ${get('stride')}) (i32.const 2))))`,
+    '(local.set $x (i32.const 0))',
+    loop('vectors', `(i32.ge_u ${get('x')} ${get('bulk')})`, [
+      `(v128.store (i32.add ${get('to')} ${get('x')}) (v128.load (i32.add ${get('from')} ${get('x')})))`,
+      bump('x', '(i32.const 16)'),
+    ]),
+    loop('rest', `(i32.ge_u ${get('x')} ${get('rowBytes')})`, [
+      `(f32.store (i32.add ${get('to')} ${get('x')}) (f32.load (i32.add ${get('from')} ${get('x')})))`,
+      bump('x', '(i32.const 4)'),
+    ]),
+    bump('y', '(i32.const 1)'),
+  ])})`;
+}
+
 /** The text of the counting module: the functions above, sharing one imported memory. */
 export function countingKernelText(): string {
   return `(module
   (memory (import "env" "memory") 1)
-  ${[...COUNTING_GROUPS.flatMap((g) => [residualText(g), projectText(g), robustText(g)]), thresholdText(), gatherText(), morphText()].join('\n  ')})
+  ${[...COUNTING_GROUPS.flatMap((g) => [residualText(g), projectText(g), robustText(g)]), thresholdText(), gatherText(), morphText(), selectText(), padText()].join('\n  ')})
 `;
 }

@@ -28,9 +28,11 @@ export interface CounterOptions extends MaskCounterOptions {
   adaptToFrameNoise?: boolean;
   /**
    * Solve the subspace coordinates on every n-th pixel (see sampleCoefficientPixels), a whole
-   * number ≥ 1; the residual is still computed at every pixel. Default 3: a third of the cost of
-   * the robust projection, with coordinates that differ from the all-pixel ones by far less than
-   * the noise. 1 uses every pixel.
+   * number ≥ 1; the residual is still computed at every pixel. Default 7: a seventh of the cost
+   * of the robust projection, with coordinates that differ from the all-pixel ones by far less
+   * than the noise (k coordinates fitted on d / 7 pixels; on both synthetic scenes the counts
+   * match those of strides 1 and 3 to 0.1 % of zone-frames). 7 is prime to the usual widths, so
+   * the sampled pixels slant across every column. 1 uses every pixel.
    */
   coefficientStride?: number;
   /**
@@ -103,7 +105,7 @@ export interface Counter {
  * (computed at the foreground pixels only).
  */
 export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): Counter {
-  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 3, timeStages = false, colourModel, shadows = {}, kernels: useKernels = true } = options;
+  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 7, timeStages = false, colourModel, shadows = {}, kernels: useKernels = true } = options;
   if (colourModel !== undefined) assertSameSize(model, colourModel, 'colour model');
   const { width, height } = model;
   const d = width * height;

@@ -1,12 +1,15 @@
 import { readFileSync } from 'node:fs';
 import type { GreyFrame } from '../frames/frame.ts';
 import { outputBitMask, wordsPerRow, type BitMask } from './bitMask.ts';
-import { chiSquare1Median, noiseScaleOfSample } from './frameNoiseScale.ts';
+import { chiSquare1Median } from './frameNoiseScale.ts';
 import { kernelsEnabled } from './learningKernels.ts';
 import { quickselect } from './quickselect.ts';
-import { samplePass, scaleStride, symmetricTimes, type CoefficientSample, type Pass } from './residualEnergy.ts';
+import { scaleStride, settled, symmetricTimes, type CoefficientSample } from './residualEnergy.ts';
 import { solveSymmetric } from './solveSymmetric.ts';
 import type { Subspace } from './subspace.ts';
+
+/** Histogram bins of the `select` kernel: the top 12 bits of a Float32 (scripts/countingKernelText.ts builds it with this). */
+export const SELECT_BINS = 4096;
 
 /** The largest number of components the kernels take (three groups of four). */
 export const MAX_KERNEL_COMPONENTS = 12;
@@ -62,10 +65,12 @@ interface Exports {
   robust_g2: RobustKernel;
   robust_g3: RobustKernel;
   gather(src: number, index: number, n: number, dst: number): void;
+  pad(src: number, width: number, rows: number, stride: number, dst: number): void;
+  select(values: number, n: number, kth: number, hist: number, out: number, result: number): void;
   threshold(v: number, h: number, stride: number, rows: number, words: number, tn: number, ts: number, scale: number, bits: number): void;
 }
 type ResidualKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, norm: number, sums: number, limit: number, outliers: number) => number;
-type RobustKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, limit: number, acc: number, outer: number, rhs: number) => number;
+type RobustKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, limit: number, left: number, acc: number, outer: number, rhs: number) => number;
 type ProjectKernel = (n: number, z: number, mean: number, basis: number, plane: number, out: number) => void;
 
 let compiled: WebAssembly.Module | null | undefined;
@@ -108,9 +113,9 @@ const up4 = (n: number) => Math.ceil(n / 4) * 4;
  * A pixel whose v lies within a few units in the seventh digit of its threshold can therefore
  * fall on the other side; the tests bound how many.
  *
- * Layout in the kernels' memory: each image row padded to a stride of 32 · ⌈(width + 1) / 32⌉
- * values (so a row always ends in zeros, which are the left neighbour of the next row's first
- * pixel), the component planes of the basis one after the other (k rounded up to a multiple of
+ * Layout in the kernels' memory: each image row padded to a stride of max(32 · ⌈width / 32⌉,
+ * 4 · ⌈(width + 1) / 4⌉) values (whole words of the packed mask, and a row always ends in at
+ * least one zero, the left neighbour of the next row's first pixel), the component planes of the basis one after the other (k rounded up to a multiple of
  * 4, the extra planes and coordinates 0), and v with a zero guard row above and below.
  *
  * The model's mean is copied in on every frame, so a mean changed in place (createDriftingCounter)
@@ -133,16 +138,24 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
 
   const groups = Math.ceil(k / 4);
   const kp = 4 * groups;
-  const stride = 32 * Math.ceil((width + 1) / 32);
-  const n = height * stride;
   const words = wordsPerRow(width);
+  // Rows padded to whole words of the packed mask and at least one zero past the width.
+  const stride = Math.max(32 * words, up4(width + 1));
+  const n = height * stride;
   const ns = sample.pixels.length;
   const ns4 = up4(ns);
+  // The robust steps' noise scale is taken on every 7th pixel of the sample (as residualEnergy's).
+  const nss = Math.ceil(ns / scaleStride);
+  const nss4 = up4(nss);
+  const noiseCount = Math.ceil(d / scaleStride);
 
   const layout = new Layout();
   const at = {
     z: layout.take(n),
     mean: layout.take(n),
+    // The frame and the mean as given (rows of `width`), before pad lays them out.
+    zRaw: layout.take(d),
+    meanRaw: layout.take(d),
     weight: layout.take(n),
     tn: layout.take(n),
     ts: layout.take(n),
@@ -157,10 +170,20 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     projected: layout.take(kp, 8),
     outer: layout.take(kp * kp, 8),
     outerRhs: layout.take(kp, 8),
+    left: layout.take(ns4),
     acc: layout.take(4 * ((kp * (kp + 1)) / 2 + kp)),
     sampleIndex: layout.take(ns),
-    noiseIndex: layout.take(Math.ceil(d / scaleStride)),
-    noiseSample: layout.take(Math.ceil(d / scaleStride)),
+    noiseIndex: layout.take(noiseCount),
+    noiseSample: layout.take(noiseCount),
+    hist: layout.take(SELECT_BINS),
+    selected: layout.take(Math.max(noiseCount, nss)),
+    selectResult: layout.take(2),
+    stepIndex: layout.take(nss),
+    zSS: layout.take(nss4),
+    meanSS: layout.take(nss4),
+    weightSS: layout.take(nss4),
+    normSS: layout.take(nss4),
+    basisSS: layout.take(kp * nss4),
     zS: layout.take(ns4),
     meanS: layout.take(ns4),
     weightS: layout.take(ns4),
@@ -176,14 +199,15 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     return undefined;
   }
   const f32 = (address: number, length: number) => new Float32Array(memory.buffer, address, length);
-  const z = f32(at.z, n);
-  const mean = f32(at.mean, n);
+  const zRaw = f32(at.zRaw, d);
+  const meanRaw = f32(at.meanRaw, d);
   const zS = f32(at.zS, ns);
   const meanS = f32(at.meanS, ns);
   const outer = new Float64Array(memory.buffer, at.outer, kp * kp);
   const outerRhs = new Float64Array(memory.buffer, at.outerRhs, kp);
-  const noiseCount = Math.ceil(d / scaleStride);
-  const noiseSample = f32(at.noiseSample, noiseCount);
+  const left = new Int32Array(memory.buffer, at.left, ns4);
+  const selected = f32(at.selected, Math.max(noiseCount, nss));
+  const selectResult = new Int32Array(memory.buffer, at.selectResult, 2);
   const yKernel = f32(at.y, kp);
   const sums = new Float64Array(memory.buffer, at.sums, 2);
   const projected = new Float64Array(memory.buffer, at.projected, kp);
@@ -218,6 +242,15 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     const noiseIndex = new Int32Array(memory.buffer, at.noiseIndex, noiseCount);
     // Every 7th pixel in raster order, as frameNoiseScale samples.
     for (let s = 0; s < noiseCount; s++) noiseIndex[s] = padded(s * scaleStride);
+    const stepIndex = new Int32Array(memory.buffer, at.stepIndex, nss);
+    const weightSS = f32(at.weightSS, nss);
+    const planesSS = f32(at.basisSS, kp * nss4);
+    for (let t = 0; t < nss; t++) {
+      const i = sample.pixels[t * scaleStride];
+      stepIndex[t] = t * scaleStride;
+      weightSS[t] = 1 / (noise[i] * noise[i]);
+      for (let j = 0; j < k; j++) planesSS[j * nss4 + t] = basis[i * k + j];
+    }
     for (let s = 0; s < ns; s++) {
       const i = sample.pixels[s];
       sampleIndex[s] = padded(i);
@@ -229,12 +262,19 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
   const projectKernel = run[`project_g${groups}` as 'project_g1'];
   const robustKernel = run[`robust_g${groups}` as 'robust_g1'];
 
-  // The JS side of the robust steps on the sample: its noise-scale pass reads the sample's
-  // values in the kernels' memory (the left-out pixels' sums come from the kernel).
-  const subPass: Pass = { z: zS, mean: meanS, basis: sample.sampledBasis, k, weight: f32(at.weightS, ns), energy: sample.energy, dffs: 0, normalised: 0 };
   const normal = new Float64Array(k * k);
   const y = new Float64Array(k);
   const rhs = new Float64Array(k);
+
+  /**
+   * The kth smallest (0-based) of the n non-negative values at byte address `values`: the
+   * kernel's radix pass narrows them to one histogram bin, quickselect finishes within it.
+   */
+  function select(values: number, n: number, kth: number): number {
+    run.select(values, n, kth, at.hist, at.selected, at.selectResult);
+    const inBin = selected.subarray(0, selectResult[0]);
+    return quickselect(inBin, selectResult[1], { scratch: inBin });
+  }
 
   function setCoordinates(): void {
     yKernel.fill(0);
@@ -247,12 +287,14 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
       if (frame.width !== width || frame.height !== height) throw new RangeError(`frame is ${frame.width}×${frame.height}, the model is ${width}×${height}`);
       const data = frame.data;
       const modelMean = model.mean;
-      for (let row = 0; row < height; row++) {
-        z.set(data.subarray(row * width, row * width + width), row * stride);
-        mean.set(modelMean.subarray(row * width, row * width + width), row * stride);
-      }
+      zRaw.set(data);
+      meanRaw.set(modelMean);
+      run.pad(at.zRaw, width, height, stride, at.z);
+      run.pad(at.meanRaw, width, height, stride, at.mean);
       run.gather(at.z, at.sampleIndex, ns, at.zS);
       run.gather(at.mean, at.sampleIndex, ns, at.meanS);
+      run.gather(at.zS, at.stepIndex, nss, at.zSS);
+      run.gather(at.meanS, at.stepIndex, nss, at.meanSS);
       // The least-squares coordinates on the sample, y = (B_Sᵀ B_S)⁻¹ B_Sᵀ (z − μ)_S…
       projectKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.projected);
       for (let j = 0; j < k; j++) rhs[j] = projected[j];
@@ -262,17 +304,21 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
       let share = 0;
       if (robustSteps > 0) {
         const full = symmetricTimes(sample.gram, y, k);
-        const noiseS = sample.noiseSample;
         const gram = sample.gram;
+        // The left-out set and its sums, updated by each step with the pixels that changed.
+        left.fill(0);
+        outer.fill(0);
+        outerRhs.fill(0);
         let lastCount = -1;
         for (let step = 0; step < robustSteps; step++) {
-          samplePass(subPass, y, noiseS);
-          const scale = Math.max(1, quickselect(noiseS, noiseS.length >> 1, { scratch: noiseS }) / chiSquare1Median);
-          const limit = robustCutoff * robustCutoff * scale;
+          // The noise scale of the step: the median (r/σ)² of every 7th sampled pixel, the
+          // element ⌊n/2⌋ of their sorted values, as residualEnergy's.
           setCoordinates();
-          outer.fill(0);
-          outerRhs.fill(0);
-          const count = robustKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.y, at.weightS, limit, at.acc, at.outer, at.outerRhs);
+          sums[0] = sums[1] = 0;
+          residualKernel(nss4, at.zSS, at.meanSS, at.basisSS, 4 * nss4, at.y, at.weightSS, at.normSS, at.sums, Infinity, at.outliers);
+          const scale = Math.max(1, select(at.normSS, nss, nss >> 1) / chiSquare1Median);
+          const limit = robustCutoff * robustCutoff * scale;
+          const count = robustKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.y, at.weightS, limit, at.left, at.acc, at.outer, at.outerRhs);
           for (let p = 0; p < k; p++) {
             for (let q = 0; q <= p; q++) normal[p * k + q] = gram[p * k + q] - outer[p * kp + q];
             rhs[p] = full[p] - outerRhs[p];
@@ -280,7 +326,7 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
           share = count / ns;
           if (share < 0.001 || share > 0.8) break;
           if (!solveSymmetric(normal, rhs, k, y)) break;
-          if (count === lastCount) break;
+          if (settled(count, lastCount)) break;
           lastCount = count;
         }
       }
@@ -294,8 +340,21 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     },
 
     noiseScale() {
+      // The median of every 7th pixel's (r/σ)², as frameNoiseScale: for an even count the mean
+      // of the two middle values.
       run.gather(at.v, at.noiseIndex, noiseCount, at.noiseSample);
-      return noiseScaleOfSample(noiseSample);
+      if (noiseCount === 0) return 1;
+      const half = noiseCount >> 1;
+      if (noiseCount % 2 === 1) return select(at.noiseSample, noiseCount, half) / chiSquare1Median;
+      // The lower middle; the upper one is the smallest value after it in its bin (quickselect
+      // left the bin partitioned there), or, when it was the bin's last, the next bin's first.
+      const lower = select(at.noiseSample, noiseCount, half - 1);
+      const inBin = selectResult[0];
+      let upper = Infinity;
+      for (let s = selectResult[1] + 1; s < inBin; s++) if (selected[s] < upper) upper = selected[s];
+      if (upper === Infinity) upper = select(at.noiseSample, noiseCount, half);
+      const median = (lower + upper) / 2;
+      return median / chiSquare1Median;
     },
 
     threshold(noiseScale, out) {

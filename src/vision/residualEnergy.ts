@@ -123,7 +123,9 @@ export const scaleStride = 7;
  * Jepson (1998), with hard rejection at `robustCutoff` noise units scaled by the frame's median
  * (r/σ)² (see frameNoiseScale). Since BᵀB = I, B_KᵀB_K = I − B_Oᵀ B_O over the left-out pixels O,
  * so a step costs one pass over the frame plus k² per left-out pixel. Steps stop early once the
- * left-out set is below 0.1 % of the frame or no longer changes in size.
+ * left-out set is below 0.1 % of the frame or has settled: its size changed by at most 1 % from
+ * the step before (then the fit barely moves: the next step would leave out nearly the same
+ * pixels).
  *
  * Cost: the noise scale of a step needs only the sampled pixels (every 7th), so they are
  * projected first, and the full pass of the step then computes e_i, finds the left-out pixels
@@ -561,10 +563,18 @@ function robustProject(
     // Nothing worth leaving out, or too little left to trust.
     if (share < 0.001 || share > 0.8) return { share, current: true };
     if (!solveSymmetric(outliers.normal, outliers.rhs, k, y)) return { share, current: true };
-    if (count === lastCount) break;
+    if (settled(count, lastCount)) break;
     lastCount = count;
   }
   return { share, current: false };
+}
+
+/**
+ * Whether a robust step's left-out set has settled: its size within 1 % (inclusive) of the
+ * previous step's (never for the first step, whose previous count is −1).
+ */
+export function settled(count: number, lastCount: number): boolean {
+  return lastCount >= 0 && Math.abs(count - lastCount) <= 0.01 * count;
 }
 
 /** Left-out pixels gathered before their products are subtracted from the normal equations. */
