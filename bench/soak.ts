@@ -1,4 +1,4 @@
-// `npm run soak [-- --frames N] [--cameras C] [--main-thread] [--slow-camera MS] [--json]`: runs C
+// `npm run soak [-- --frames N] [--cameras C] [--main-thread] [--slow-camera MS] [--young-mb MB] [--json]`: runs C
 // synthetic cameras (default 4) as fast as they go, N frames in all (default 200 000), writing
 // samples to a temporary database, and reports the frame rate, the use of the machine's cores,
 // resident memory growth after warm-up (the trend: median of the last tenth of the run against the
@@ -12,6 +12,7 @@
 // scene frames and scene time (one sample per zone every 100 frames), as before the workers, for
 // comparison. `--slow-camera MS` (workers only) makes camera 0 block its thread MS ms after every
 // frame, a camera with a slow decoder: the others' rates show whether it holds them up.
+// `--young-mb MB` bounds each camera worker's young generation (workerYoungGenerationMb).
 import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import { availableParallelism, tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -27,12 +28,14 @@ import { fitSubspace } from '../src/vision/fitSubspace.ts';
 import type { Subspace } from '../src/vision/subspace.ts';
 
 const { values } = parseArgs({
-  options: { frames: { type: 'string' }, cameras: { type: 'string' }, json: { type: 'boolean' }, 'main-thread': { type: 'boolean' }, 'slow-camera': { type: 'string' } },
+  options: { frames: { type: 'string' }, cameras: { type: 'string' }, json: { type: 'boolean' }, 'main-thread': { type: 'boolean' }, 'slow-camera': { type: 'string' }, 'young-mb': { type: 'string' } },
 });
 const total = Number(values.frames ?? 200_000);
 const cameraCount = Number(values.cameras ?? 4);
 const slowMs = values['slow-camera'] === undefined ? undefined : Number(values['slow-camera']);
 const mode = values['main-thread'] ? 'main-thread' : 'workers';
+const youngMb = values['young-mb'] === undefined ? undefined : Number(values['young-mb']);
+if (youngMb !== undefined && !(youngMb >= 1 && mode === 'workers')) throw new RangeError('--young-mb: expected MB ≥ 1, with the worker threads (not --main-thread)');
 if (!(Number.isInteger(total) && total >= 100)) throw new RangeError(`--frames: expected a whole number ≥ 100, got ${values.frames}`);
 if (!(Number.isInteger(cameraCount) && cameraCount >= 1 && cameraCount <= 32)) throw new RangeError(`--cameras: expected a whole number 1..32, got ${values.cameras}`);
 if (slowMs !== undefined && !(slowMs > 0 && mode === 'workers')) throw new RangeError('--slow-camera: expected milliseconds > 0, with the worker threads (not --main-thread)');
@@ -139,7 +142,7 @@ if (mode === 'workers') {
     server: { host: '127.0.0.1', port: 0, viewToken: false },
     cameras: cameras.map((c) => c.config),
   };
-  const service = await startService(config, { dataDir: dir, port: 0, ...(slowMs !== undefined && { workerFaults: { 'cam-0': { slowFrameMs: slowMs } } }) });
+  const service = await startService(config, { dataDir: dir, port: 0, ...(youngMb !== undefined && { workerYoungGenerationMb: youngMb }), ...(slowMs !== undefined && { workerFaults: { 'cam-0': { slowFrameMs: slowMs } } }) });
   const last = new Map<string, number | undefined>();
   for (const host of service.cameras.values()) {
     host.utilization();
@@ -238,6 +241,7 @@ const report = {
   frames: counted,
   cameras: cameraCount,
   ...(slowMs !== undefined && { slowCamera: { camera: 'cam-0', blockedMsPerFrame: slowMs } }),
+  ...(youngMb !== undefined && { workerYoungGenerationMb: youngMb }),
   seconds: Math.round(seconds),
   framesPerSecond: Math.round(counted / seconds),
   framesPerSecondByCamera: Object.fromEntries([...frames].map(([id, n]) => [id, Math.round(n / seconds)])),

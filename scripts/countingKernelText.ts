@@ -22,25 +22,22 @@ const laneSum = (v: string) =>
 const range = (n: number) => [...Array(n).keys()];
 
 /**
- * residual_g{G}(n, z, mean, basis, plane, y, weight, norm, sums, limit, outliers) → count.
+ * residual_g{G}(n, z, mean, basis, plane, y, weight, norm, sums).
  * Over n pixels (a multiple of 4) of Float32 arrays at byte addresses z, mean, weight (1/σ²) and
  * the 4G component planes of the basis (plane j at basis + j · plane bytes), with the 4G
  * coordinates y (Float32; those past k are 0): r = (z − μ) − Σ_j y_j B_j, e = r², v = e · w.
  * Stores v at norm (n Float32), adds Σ e and Σ v (f32 lanes over COUNTING_TILE pixels, tiles
- * added in f64) into sums[0] and sums[1] (Float64, set by the caller), and writes the index of
- * every pixel whose v is not ≤ limit (NaN included) to outliers (i32, in increasing order);
- * returns how many it wrote.
+ * added in f64) into sums[0] and sums[1] (Float64, set by the caller).
  */
 function residualText(groups: number): string {
   const k = 4 * groups;
   const js = range(k);
-  return `(func (export "residual_g${groups}") (param $n i32) (param $z i32) (param $mean i32) (param $basis i32) (param $plane i32) (param $y i32) (param $weight i32) (param $norm i32) (param $sums i32) (param $limit f32) (param $outliers i32) (result i32)
-  (local $p i32) (local $end i32) (local $tile i32) (local $count i32) (local $bad i32) (local $bp i32)
-  (local $r v128) (local $e v128) (local $v v128) (local $ae v128) (local $av v128) (local $lim v128) (local $se f64) (local $sv f64)
+  return `(func (export "residual_g${groups}") (param $n i32) (param $z i32) (param $mean i32) (param $basis i32) (param $plane i32) (param $y i32) (param $weight i32) (param $norm i32) (param $sums i32)
+  (local $p i32) (local $end i32) (local $tile i32) (local $bp i32)
+  (local $r v128) (local $e v128) (local $v v128) (local $ae v128) (local $av v128) (local $se f64) (local $sv f64)
   ${js.map((j) => `(local $y${j} v128) (local $o${j} i32)`).join(' ')}
   ${js.map((j) => `(local.set $y${j} (v128.load32_splat offset=${4 * j} ${get('y')}))`).join(' ')}
   ${js.map((j) => `(local.set $o${j} (i32.mul ${get('plane')} (i32.const ${j})))`).join(' ')}
-  (local.set $lim (f32x4.splat ${get('limit')}))
   (local.set $se (f64.load ${get('sums')}))
   (local.set $sv (f64.load offset=8 ${get('sums')}))
   (local.set $end (i32.shl ${get('n')} (i32.const 2)))
@@ -57,21 +54,13 @@ function residualText(groups: number): string {
       `(v128.store (i32.add ${get('norm')} ${get('p')}) ${get('v')})`,
       `(local.set $ae (f32x4.add ${get('ae')} ${get('e')}))`,
       `(local.set $av (f32x4.add ${get('av')} ${get('v')}))`,
-      `(local.set $bad (i32x4.bitmask (v128.not (f32x4.le ${get('v')} ${get('lim')}))))`,
-      `(if (local.get $bad) (then
-        ${loop('lanes', `(i32.eqz ${get('bad')})`, [
-          `(i32.store (i32.add ${get('outliers')} (i32.shl ${get('count')} (i32.const 2))) (i32.add (i32.shr_u ${get('p')} (i32.const 2)) (i32.ctz ${get('bad')})))`,
-          bump('count', '(i32.const 1)'),
-          `(local.set $bad (i32.and ${get('bad')} (i32.sub ${get('bad')} (i32.const 1))))`,
-        ])}))`,
       bump('p', '(i32.const 16)'),
     ]),
     `(local.set $se (f64.add ${get('se')} ${laneSum('ae')}))`,
     `(local.set $sv (f64.add ${get('sv')} ${laneSum('av')}))`,
   ])}
   (f64.store ${get('sums')} ${get('se')})
-  (f64.store offset=8 ${get('sums')} ${get('sv')})
-  ${get('count')})`;
+  (f64.store offset=8 ${get('sums')} ${get('sv')}))`;
 }
 
 /**

@@ -91,6 +91,8 @@ export interface StartServiceOptions {
   readonly workerRestart?: BackoffOptions;
   /** A camera worker that sent nothing (not even its 1 s heartbeat) for this long is restarted, ms; 0 = never; default 30 000. */
   readonly workerStallMs?: number;
+  /** Largest young generation of each camera worker's heap, MB, ≥ 1 (see CameraHostOptions.youngGenerationMb); default none (V8's). */
+  readonly workerYoungGenerationMb?: number;
   /** Tests and the soak benchmark only: a fault to simulate, by camera id (see WorkerFault); default none. */
   readonly workerFaults?: Readonly<Record<string, WorkerFault>>;
 }
@@ -107,7 +109,7 @@ export interface StartServiceOptions {
  * and is started again with backoff; the other cameras keep counting.
  */
 export async function startService(config: ResiduumConfig, options: StartServiceOptions): Promise<RunningService> {
-  const { dataDir, log = () => {}, workerRestart = {}, workerStallMs = 30_000, workerFaults = {} } = options;
+  const { dataDir, log = () => {}, workerRestart = {}, workerStallMs = 30_000, workerYoungGenerationMb, workerFaults = {} } = options;
   const dbFile = join(resolve(dataDir), 'residuum.db');
   const store = openStore(dbFile, { timeZone: config.site.timeZone });
   const hosts = new Map<string, CameraHost>();
@@ -151,6 +153,7 @@ export async function startService(config: ResiduumConfig, options: StartService
         log,
         restartBackoff: workerRestart,
         stallMs: workerStallMs,
+        ...(workerYoungGenerationMb !== undefined && { youngGenerationMb: workerYoungGenerationMb }),
         ...(fault && { fault }),
       });
       hosts.set(camera.id, host);

@@ -37,6 +37,13 @@ export interface CameraHostOptions {
   readonly stableMs?: number;
   /** How long `stop()` waits for the worker to close its source and store before terminating it, ms ≥ 0; default 5000. */
   readonly stopTimeoutMs?: number;
+  /**
+   * Largest young generation of the worker's JavaScript heap, MB, ≥ 1; default none (V8's own,
+   * which grows it to some 32 MB under a high allocation rate). The worker's frames and buffers
+   * are typed arrays outside the heap, so a few MB suffice; a bound keeps the worker's resident
+   * memory from swinging with V8's resizing of it.
+   */
+  readonly youngGenerationMb?: number;
   /** Tests and the soak benchmark only: a fault the worker simulates; default none. */
   readonly fault?: WorkerFault;
 }
@@ -95,8 +102,10 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     heartbeatMs = 1000,
     stableMs = 60_000,
     stopTimeoutMs = 5000,
+    youngGenerationMb,
     fault,
   } = options;
+  if (youngGenerationMb !== undefined && !(Number.isFinite(youngGenerationMb) && youngGenerationMb >= 1)) throw new RangeError(`youngGenerationMb: expected MB ≥ 1, got ${String(youngGenerationMb)}`);
   if (!(Number.isFinite(stallMs) && stallMs >= 0)) throw new RangeError(`stallMs: expected milliseconds ≥ 0, got ${String(stallMs)}`);
   if (!(Number.isFinite(heartbeatMs) && heartbeatMs >= 10)) throw new RangeError(`heartbeatMs: expected milliseconds ≥ 10, got ${String(heartbeatMs)}`);
   if (stallMs > 0 && stallMs < 2 * heartbeatMs) throw new RangeError(`stallMs: expected 0 or at least two heartbeats (${2 * heartbeatMs} ms), got ${stallMs}`);
@@ -170,6 +179,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     try {
       w = new Worker(new URL('./workerBootstrap.mjs', import.meta.url), {
         workerData: { module: new URL('./cameraWorker.ts', import.meta.url).href, ...data },
+        ...(youngGenerationMb !== undefined && { resourceLimits: { maxYoungGenerationSizeMb: youngGenerationMb } }),
       });
     } catch (error) {
       failed(`could not be started (${(error as Error).message})`);

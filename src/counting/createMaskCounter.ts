@@ -81,7 +81,8 @@ export function createMaskCounter(
   const openedBits = createBitMask(width, height);
   const closedBits = createBitMask(width, height);
   const bitScratch = new Int32Array(3 * closedBits.data.length);
-  const runScratch = createLabelBitRunsScratch(width, height);
+  // Room for a sixteenth of the worst case (every other pixel a run); it grows if a mask needs more.
+  const runScratch = createLabelBitRunsScratch(width, Math.ceil(height / 16));
   // The opening then the closing as one chain of square steps, in the kernels when they run here.
   const squareSteps: SquareStep[] = [
     ...(openRadius > 0 ? (['erode', 'dilate'] as const).map((step) => ({ step, radius: openRadius })) : []),

@@ -69,7 +69,7 @@ interface Exports {
   select(values: number, n: number, kth: number, hist: number, out: number, result: number): void;
   threshold(v: number, h: number, stride: number, rows: number, words: number, tn: number, ts: number, scale: number, bits: number): void;
 }
-type ResidualKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, norm: number, sums: number, limit: number, outliers: number) => number;
+type ResidualKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, norm: number, sums: number) => void;
 type RobustKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, limit: number, left: number, acc: number, outer: number, rhs: number) => number;
 type ProjectKernel = (n: number, z: number, mean: number, basis: number, plane: number, out: number) => void;
 
@@ -163,7 +163,6 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     // v and its work array h, each with 4 values and a row of zeros before and after.
     v: layout.take(n + 2 * stride + 8) + 4 * (4 + stride),
     h: layout.take(n + 2 * stride + 8) + 4 * (4 + stride),
-    outliers: layout.take(n),
     bits: layout.take(height * words),
     y: layout.take(kp),
     sums: layout.take(2, 8),
@@ -211,7 +210,6 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
   const yKernel = f32(at.y, kp);
   const sums = new Float64Array(memory.buffer, at.sums, 2);
   const projected = new Float64Array(memory.buffer, at.projected, kp);
-  const outlierIndex = new Int32Array(memory.buffer, at.outliers, n);
   const bitWords = new Int32Array(memory.buffer, at.bits, height * words);
 
   // Once per model: the noise weights, the basis planes, the thresholds, the sample's planes.
@@ -315,7 +313,7 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
           // element ⌊n/2⌋ of their sorted values, as residualEnergy's.
           setCoordinates();
           sums[0] = sums[1] = 0;
-          residualKernel(nss4, at.zSS, at.meanSS, at.basisSS, 4 * nss4, at.y, at.weightSS, at.normSS, at.sums, Infinity, at.outliers);
+          residualKernel(nss4, at.zSS, at.meanSS, at.basisSS, 4 * nss4, at.y, at.weightSS, at.normSS, at.sums);
           const scale = Math.max(1, select(at.normSS, nss, nss >> 1) / chiSquare1Median);
           const limit = robustCutoff * robustCutoff * scale;
           const count = robustKernel(ns4, at.zS, at.meanS, at.basisS, 4 * ns4, at.y, at.weightS, limit, at.left, at.acc, at.outer, at.outerRhs);
@@ -333,7 +331,7 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
       // The full pass: v = (r/σ)² at every pixel, with Σ r² and Σ v.
       setCoordinates();
       sums[0] = sums[1] = 0;
-      residualKernel(n, at.z, at.mean, at.basis, 4 * n, at.y, at.weight, at.v, at.sums, Infinity, at.outliers);
+      residualKernel(n, at.z, at.mean, at.basis, 4 * n, at.y, at.weight, at.v, at.sums);
       let difs = 0;
       for (let j = 0; j < k; j++) if (eigenvalues[j] > 0) difs += (y[j] * y[j]) / eigenvalues[j];
       return { coefficients: y, dffs: sums[0], difs, normalisedEnergy: sums[1] / d, outlierShare: share };

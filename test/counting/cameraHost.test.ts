@@ -49,7 +49,8 @@ describe('createCameraHost', () => {
     store.upsertZone(camera.id, camera.zones[0]);
     const model = fitSubspace(Array.from({ length: 40 }, (_, i) => scene.emptyFrameAt(i * 75).data), scene, { components: 4 });
     const relayed: Sample[] = [];
-    const host = createCameraHost({ camera, dbFile, timeZone: 'UTC', model, relayCommits: true, events: store });
+    // With a bounded young generation, as the service may start its workers.
+    const host = createCameraHost({ camera, dbFile, timeZone: 'UTC', model, relayCommits: true, events: store, youngGenerationMb: 4 });
     host.on('sample', (s: Sample) => relayed.push(s));
     try {
       await host.ready();
@@ -76,5 +77,6 @@ describe('createCameraHost', () => {
 
   it('names the option for a watchdog shorter than two heartbeats', () => {
     expect(() => createCameraHost({ camera, dbFile: ':memory:', timeZone: 'UTC', events: { insertEvent: () => 0 }, stallMs: 500, heartbeatMs: 1000 })).toThrow(/^stallMs: expected 0 or at least two heartbeats \(2000 ms\), got 500$/);
+    expect(() => createCameraHost({ camera, dbFile: ':memory:', timeZone: 'UTC', events: { insertEvent: () => 0 }, youngGenerationMb: 0.5 })).toThrow(/^youngGenerationMb: expected MB ≥ 1, got 0.5$/);
   });
 });

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { Matrix, solve } from 'ml-matrix';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
-import { residualEnergy, sampleCoefficientPixels } from '../../src/vision/residualEnergy.ts';
+import { residualEnergy, sampleCoefficientPixels, settled } from '../../src/vision/residualEnergy.ts';
 import { mulberry } from '../helpers/random.ts';
 
 describe('residualEnergy', () => {
@@ -122,5 +122,16 @@ describe('residualEnergy', () => {
     expect(sampled.outlierShare).toBeGreaterThan(0.1);
     expect(Math.abs(sampled.dffs - all.dffs) / all.dffs).toBeLessThan(0.01);
     expect(() => residualEnergy(model, { width, height, data: z.subarray(0, d) }, { coefficientSample: sampleCoefficientPixels(gainModel, 3) })).toThrow(/another model/);
+  });
+});
+
+describe('settled', () => {
+  it('calls a left-out set settled once its size is within 1 % of the step before, never on the first step', () => {
+    // check: common practice — a relative change bound as a stopping rule of an iteration.
+    expect(settled(1000, 1010)).toBe(true);
+    expect(settled(1000, 990)).toBe(true);
+    expect(settled(1000, 1011)).toBe(false);
+    expect(settled(0, 0)).toBe(true);
+    expect(settled(5, -1)).toBe(false);
   });
 });
