@@ -21,7 +21,8 @@
  *   model, collects garbage and reads its RSS; then creates `cameras` cameras, each with its own
  *   copy of the model (as if loaded from its file) and its own counter, and counts 30 frames on
  *   each; collects garbage again and reads the RSS. rss_mb = growth / cameras. `model_mb` and
- *   `buffers_mb` are the byte sizes of the model's arrays and of the counter's own buffers.
+ *   `buffers_mb` are the byte sizes of the model's arrays and of the counter's own buffers (its
+ *   JS arrays and the WebAssembly memory of its kernels).
  *
  * Frames are rendered (and converted to 8-bit for opencv.js) before timing, so that rendering
  * costs nothing in the timed loop. Nothing is written to disk.
@@ -321,7 +322,9 @@ function rssChild(): void {
     const modelBytes = model.mean.byteLength + model.basis.byteLength + model.noise.byteLength + model.eigenvalues.byteLength;
     // createCounter's buffers: 1/σ², thresholds, energy, scratch (Float32 d each), samples (d/7),
     // three masks (d bytes each), labels (Int32 d), union–find table (Int32 d/2), morphology (2d bytes).
-    const bufferBytes = 4 * d * 4 + 4 * Math.ceil(d / 7) + 3 * d + 4 * d + 4 * (Math.ceil(d / 2) + 1) + 2 * d;
+    // Plus the WebAssembly memory of its kernels (the model in kernel layout, the per-frame buffers).
+    const kernelBytes = (cameras[0] as { counter: { kernelBytes: number } }).counter.kernelBytes;
+    const bufferBytes = 4 * d * 4 + 4 * Math.ceil(d / 7) + 3 * d + 4 * d + 4 * (Math.ceil(d / 2) + 1) + 2 * d + kernelBytes;
     const mb = 1024 * 1024;
     process.send?.({ rssMb: (after - before) / cameras.length / mb, modelMb: modelBytes / mb, buffersMb: bufferBytes / mb } satisfies Memory, () => {
       process.exit(0);

@@ -84,6 +84,8 @@ export interface Counter {
    * required. The returned blobs are fresh; internal buffers are reused.
    */
   count(frame: GreyFrame, colour?: ColourFrame): FrameCount;
+  /** Bytes of WebAssembly memory the counter's kernels hold (0 where it takes the JS stages). */
+  readonly kernelBytes: number;
   /** The foreground mask of the last counted frame (a view of an internal buffer, overwritten by the next count). */
   lastMask(): Mask;
   /**
@@ -140,6 +142,7 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     width,
     height,
     zones: prepared,
+    kernelBytes: (kernels?.memoryBytes ?? 0) + stages.kernelBytes,
     count(frame, colour) {
       if (colourBuffers !== undefined) {
         if (colour === undefined) throw new RangeError('this counter is in colour mode: count(frame, colour) needs the colour frame');

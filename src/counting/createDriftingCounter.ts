@@ -268,6 +268,9 @@ export function createDriftingCounter(
       return result;
     },
     lastMask: () => inner.lastMask(),
+    get kernelBytes() {
+      return inner.kernelBytes;
+    },
     stageTimes,
     model: () => own,
     driftState: () => ({ updates, meanShift, absorbedPixels, rescales }),

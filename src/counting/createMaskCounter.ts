@@ -55,6 +55,8 @@ export interface MaskCounter {
    * labelBitRuns, tallyZones on the packed mask), with the same result.
    */
   countBits(raw: BitMask): MaskTally;
+  /** Bytes of WebAssembly memory the morphology kernels hold (0 without them). */
+  readonly kernelBytes: number;
   /** The cleaned mask of the last call (an internal buffer; after countBits, unpacked on the first call). */
   lastMask(): Mask;
 }
@@ -94,6 +96,7 @@ export function createMaskCounter(
   let lastBits: BitMask | undefined;
   return {
     zones: prepared,
+    kernelBytes: morphology?.memoryBytes ?? 0,
     countBits(raw) {
       if (raw.width !== width || raw.height !== height) throw new RangeError(`mask is ${raw.width}×${raw.height}, expected ${width}×${height}`);
       const t0 = stageTimes === undefined ? 0 : performance.now();

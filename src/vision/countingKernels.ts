@@ -46,6 +46,8 @@ export interface KernelResidual {
 
 /** The per-frame stages of a subspace counter, from frame to packed foreground mask, in WebAssembly SIMD. */
 export interface CountingKernels {
+  /** Bytes of the kernels' own memory (the model's copy in kernel layout and the per-frame buffers). */
+  readonly memoryBytes: number;
   /** Loads the frame, solves the robust coordinates on the pixel sample and computes (r/σ)² at every pixel. */
   residual(frame: GreyFrame, options?: KernelResidualOptions): KernelResidual;
   /** frameNoiseScale of the last residual: the median (r/σ)² of every 7th pixel over the median of χ²₁. */
@@ -280,6 +282,7 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
   }
 
   return {
+    memoryBytes: memory.buffer.byteLength,
     residual(frame, residualOptions = {}) {
       const { robustSteps = 3, robustCutoff = 3 } = residualOptions;
       if (frame.width !== width || frame.height !== height) throw new RangeError(`frame is ${frame.width}×${frame.height}, the model is ${width}×${height}`);

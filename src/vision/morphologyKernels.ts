@@ -12,6 +12,8 @@ export interface SquareStep {
 
 /** A chain of square erosions and dilations on packed masks of one size, in WebAssembly SIMD. */
 export interface MorphologyKernels {
+  /** Bytes of the kernels' own memory. */
+  readonly memoryBytes: number;
   /** Applies the steps in order to `mask` (not changed) and writes the result to `out` (may be `mask`). */
   apply(mask: BitMask, steps: readonly SquareStep[], out?: BitMask): BitMask;
 }
@@ -60,6 +62,7 @@ export function morphologyKernels(size: { width: number; height: number }): Morp
   const views = planes.map(wordsOf);
   const rowWords = rowBytes / 4;
   return {
+    memoryBytes: memory.buffer.byteLength,
     apply(mask, steps, out) {
       if (mask.width !== width || mask.height !== height) throw new RangeError(`mask is ${mask.width}×${mask.height}, expected ${width}×${height}`);
       for (const { radius } of steps) {

@@ -184,6 +184,35 @@ describe('camera pipeline', () => {
     expect(logs.filter((l) => /writable again/.test(l))).toEqual([expect.stringMatching(/stored 12 samples from the backlog/)]);
   });
 
+  it('keeps counting when the database turns read-only, and stores the backlog when it is writable again', () => {
+    const { store, camera } = setup();
+    let readOnly = true;
+    const logs: string[] = [];
+    // What SQLite answers when its file or filesystem became read-only under it (result code
+    // SQLITE_READONLY, message as sqlite3_errstr gives it; recalled from memory).
+    const failing = new Proxy(store, {
+      get(target, key, receiver) {
+        if (key === 'insertSamples' && readOnly) {
+          return () => {
+            throw Object.assign(new Error('attempt to write a readonly database'), { code: 'SQLITE_READONLY' });
+          };
+        }
+        const value = Reflect.get(target, key, receiver);
+        return typeof value === 'function' ? value.bind(target) : value;
+      },
+    });
+    const pipeline = createCameraPipeline({ camera, store: failing, model, log: (l) => logs.push(l) });
+    let t = t0;
+    for (let i = 0; i <= 40; i++, t += 100) pipeline.handlers.frame(scene.frameAt(600 + i).frame, t);
+    expect(store.listSamples({ camera: 'cam', zone: 'tables' })).toEqual([]);
+    expect(pipeline.live().state).toBe('online');
+    expect(logs.some((l) => /cannot write the database \(attempt to write a readonly database\); keeping samples in memory/.test(l))).toBe(true);
+    readOnly = false;
+    for (let i = 0; i <= 12; i++, t += 100) pipeline.handlers.frame(scene.frameAt(650 + i).frame, t);
+    expect(store.listSamples({ camera: 'cam', zone: 'tables' }).length).toBe(5);
+    expect(logs.filter((l) => /writable again/.test(l))).toEqual([expect.stringMatching(/stored 12 samples from the backlog/)]);
+  });
+
   it('applies new zones at once', () => {
     const { pipeline } = setup();
     pipeline.handlers.frame(scene.frameAt(600).frame, t0);

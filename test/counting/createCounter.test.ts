@@ -49,6 +49,9 @@ describe('createCounter', () => {
       const model = fitSubspace(Array.from({ length: 60 }, (_, i) => scene.emptyFrameAt(i * 50).data), scene, { components: 6 });
       const withKernels = createCounter(model, scene.zones);
       const withJs = createCounter(model, scene.zones, { kernels: false });
+      // The kernels hold the model in their own layout: at least a copy of the basis.
+      expect(withKernels.kernelBytes).toBeGreaterThan(model.basis.byteLength);
+      expect(withJs.kernelBytes).toBe(0);
       let zoneFrames = 0;
       let sameCount = 0;
       let fillError = 0;
