@@ -12,7 +12,8 @@
 // scene frames and scene time (one sample per zone every 100 frames), as before the workers, for
 // comparison. `--slow-camera MS` (workers only) makes camera 0 block its thread MS ms after every
 // frame, a camera with a slow decoder: the others' rates show whether it holds them up.
-// `--young-mb MB` bounds each camera worker's young generation (workerYoungGenerationMb).
+// `--young-mb MB` sets the bound of each camera worker's young generation (workerYoungGenerationMb,
+// default 8 MB).
 import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import { availableParallelism, tmpdir } from 'node:os';
 import { join } from 'node:path';
