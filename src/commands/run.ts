@@ -318,7 +318,10 @@ function serviceControl(store: Store, hosts: ReadonlyMap<string, CameraHost>): S
         for (const zone of zones) store.upsertZone(camera, zone);
         for (const old of store.listZones({ camera })) if (!keep.has(old.zone.id)) store.removeZone(camera, old.zone.id);
       });
-      tx();
+      // IMMEDIATE: take the write lock first (waiting up to busy_timeout for the camera threads'
+      // writes). A deferred transaction that read first and then wrote would fail at once with
+      // SQLITE_BUSY whenever a camera thread committed in between (WAL: the read snapshot is stale).
+      tx.immediate();
       h.setZones(zones);
       return zones;
     },
