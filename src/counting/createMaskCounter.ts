@@ -94,6 +94,23 @@ export function createMaskCounter(
   let last: Mask = closed;
   /** The packed cleaned mask of the last countBits, until lastMask() unpacks it. */
   let lastBits: BitMask | undefined;
+
+  /** The zone tally of a cleaned mask's blobs, with the stage times from t0 (morphology) and t1 (labelling). */
+  function tallyCleaned(blobs: Blob[], mask: Mask | BitMask, t0: number, t1: number): MaskTally {
+    // Every set pixel of the mask lies in exactly one blob.
+    let foreground = 0;
+    for (const blob of blobs) foreground += blob.area;
+    const t2 = stageTimes === undefined ? 0 : performance.now();
+    const tally = tallyZones(blobs, mask, prepared);
+    if (stageTimes !== undefined) {
+      const t3 = performance.now();
+      stageTimes[CounterStage.morphology] += t1 - t0;
+      stageTimes[CounterStage.labelling] += t2 - t1;
+      stageTimes[CounterStage.zones] += t3 - t2;
+    }
+    return { ...tally, blobs, foregroundShare: foreground / d };
+  }
+
   return {
     zones: prepared,
     kernelBytes: morphology?.memoryBytes ?? 0,
@@ -109,18 +126,8 @@ export function createMaskCounter(
       }
       lastBits = mask;
       const t1 = stageTimes === undefined ? 0 : performance.now();
-      const components = labelBitRuns(mask, { connectivity, scratch: runScratch });
-      let foreground = 0;
-      for (const blob of components.blobs) foreground += blob.area;
-      const t2 = stageTimes === undefined ? 0 : performance.now();
-      const tally = tallyZones(components.blobs, mask, prepared);
-      if (stageTimes !== undefined) {
-        const t3 = performance.now();
-        stageTimes[CounterStage.morphology] += t1 - t0;
-        stageTimes[CounterStage.labelling] += t2 - t1;
-        stageTimes[CounterStage.zones] += t3 - t2;
-      }
-      return { ...tally, blobs: components.blobs, foregroundShare: foreground / d };
+      const { blobs } = labelBitRuns(mask, { connectivity, scratch: runScratch });
+      return tallyCleaned(blobs, mask, t0, t1);
     },
     count(raw) {
       lastBits = undefined;
@@ -134,19 +141,8 @@ export function createMaskCounter(
       }
       last = mask;
       const t1 = stageTimes === undefined ? 0 : performance.now();
-      const components = labelComponents(mask, { connectivity, out: labels, scratch: labelScratch });
-      // Every set pixel of the mask lies in exactly one blob.
-      let foreground = 0;
-      for (const blob of components.blobs) foreground += blob.area;
-      const t2 = stageTimes === undefined ? 0 : performance.now();
-      const tally = tallyZones(components.blobs, mask, prepared);
-      if (stageTimes !== undefined) {
-        const t3 = performance.now();
-        stageTimes[CounterStage.morphology] += t1 - t0;
-        stageTimes[CounterStage.labelling] += t2 - t1;
-        stageTimes[CounterStage.zones] += t3 - t2;
-      }
-      return { ...tally, blobs: components.blobs, foregroundShare: foreground / d };
+      const { blobs } = labelComponents(mask, { connectivity, out: labels, scratch: labelScratch });
+      return tallyCleaned(blobs, mask, t0, t1);
     },
     lastMask() {
       if (lastBits !== undefined) {

@@ -1,5 +1,5 @@
 import { wordsPerRow, type BitMask } from './bitMask.ts';
-import type { Blob, Connectivity } from './labelComponents.ts';
+import { blobsFromSums, type Blob, type Connectivity } from './labelComponents.ts';
 
 export interface LabelBitRunsOptions {
   /** Pixel adjacency, 4 or 8; default 8. */
@@ -253,22 +253,7 @@ export function labelBitRuns(mask: BitMask, options: LabelBitRunsOptions = {}): 
     }
   }
 
-  const blobs: Blob[] = new Array(count);
-  for (let l = 1; l <= count; l++) {
-    const a = area[l];
-    blobs[l - 1] = {
-      label: l,
-      area: a,
-      x0: minX[l],
-      y0: minY[l],
-      x1: maxX[l],
-      y1: maxY[l],
-      cx: sumX[l] / a,
-      cy: sumY[l] / a,
-      footX: (minX[l] + maxX[l]) / 2,
-      footY: maxY[l],
-    };
-  }
+  const blobs = blobsFromSums(count, { area, minX, minY, maxX, maxY, sumX, sumY });
   return { count, blobs };
 }
 

@@ -152,22 +152,7 @@ export function labelComponents(mask: Mask, options: LabelComponentsOptions = {}
     }
   }
 
-  const blobs: Blob[] = new Array(count);
-  for (let l = 1; l <= count; l++) {
-    const a = area[l];
-    blobs[l - 1] = {
-      label: l,
-      area: a,
-      x0: minX[l],
-      y0: minY[l],
-      x1: maxX[l],
-      y1: maxY[l],
-      cx: sumX[l] / a,
-      cy: sumY[l] / a,
-      footX: (minX[l] + maxX[l]) / 2,
-      footY: maxY[l],
-    };
-  }
+  const blobs = blobsFromSums(count, { area, minX, minY, maxX, maxY, sumX, sumY });
   return { labels, count, blobs };
 }
 
@@ -255,4 +240,38 @@ function firstPass8(data: Uint8Array, width: number, height: number, labels: Int
     }
   }
   return next;
+}
+
+/** Per-label sums of a labelling, indexed by final label 1..count. */
+export interface LabelSums {
+  readonly area: ArrayLike<number>;
+  readonly minX: ArrayLike<number>;
+  readonly minY: ArrayLike<number>;
+  readonly maxX: ArrayLike<number>;
+  readonly maxY: ArrayLike<number>;
+  /** Σ x and Σ y of each label's pixels. */
+  readonly sumX: ArrayLike<number>;
+  readonly sumY: ArrayLike<number>;
+}
+
+/** The blobs of labels 1..count from their sums (the measures of {@link Blob}); shared with labelBitRuns. */
+export function blobsFromSums(count: number, sums: LabelSums): Blob[] {
+  const { area, minX, minY, maxX, maxY, sumX, sumY } = sums;
+  const blobs: Blob[] = new Array(count);
+  for (let l = 1; l <= count; l++) {
+    const a = area[l];
+    blobs[l - 1] = {
+      label: l,
+      area: a,
+      x0: minX[l],
+      y0: minY[l],
+      x1: maxX[l],
+      y1: maxY[l],
+      cx: sumX[l] / a,
+      cy: sumY[l] / a,
+      footX: (minX[l] + maxX[l]) / 2,
+      footY: maxY[l],
+    };
+  }
+  return blobs;
 }

@@ -154,62 +154,38 @@ describe('camera pipeline', () => {
     expect(store.listSamples({ camera: 'cam', zone: 'tables' }).length).toBeGreaterThan(0);
   });
 
-  it('keeps counting through a full disk and stores the backlog when space returns', () => {
+  // What SQLite answers when the disk is full and when its file or filesystem became read-only
+  // under it (result codes SQLITE_FULL and SQLITE_READONLY, better-sqlite3 puts them on
+  // error.code; messages as sqlite3_errstr gives them, recalled from memory).
+  it.each([
+    ['a full disk', 'SQLITE_FULL', 'database or disk is full'],
+    ['a database that turned read-only', 'SQLITE_READONLY', 'attempt to write a readonly database'],
+  ])('keeps counting through %s and stores the backlog when writing works again', (_, code, message) => {
     const { store, camera } = setup();
-    let full = true;
+    let failing = true;
     const logs: string[] = [];
-    // A store whose disk is full: SQLite answers SQLITE_FULL (better-sqlite3 puts the result code on error.code).
-    const failing = new Proxy(store, {
+    const faulty = new Proxy(store, {
       get(target, key, receiver) {
-        if (key === 'insertSamples' && full) {
+        if (key === 'insertSamples' && failing) {
           return () => {
-            throw Object.assign(new Error('database or disk is full'), { code: 'SQLITE_FULL' });
+            throw Object.assign(new Error(message), { code });
           };
         }
         const value = Reflect.get(target, key, receiver);
         return typeof value === 'function' ? value.bind(target) : value;
       },
     });
-    const pipeline = createCameraPipeline({ camera, store: failing, model, log: (l) => logs.push(l) });
+    const pipeline = createCameraPipeline({ camera, store: faulty, model, log: (l) => logs.push(l) });
     let t = t0;
     for (let i = 0; i <= 40; i++, t += 100) pipeline.handlers.frame(scene.frameAt(600 + i).frame, t);
     expect(store.listSamples({ camera: 'cam', zone: 'tables' })).toEqual([]);
     expect(pipeline.live().state).toBe('online');
-    expect(logs.some((l) => /cannot write the database \(database or disk is full\); keeping samples in memory/.test(l))).toBe(true);
-    full = false;
+    expect(logs.some((l) => l.includes(`cannot write the database (${message}); keeping samples in memory`))).toBe(true);
+    failing = false;
     for (let i = 0; i <= 12; i++, t += 100) pipeline.handlers.frame(scene.frameAt(650 + i).frame, t);
     const stored = store.listSamples({ camera: 'cam', zone: 'tables' });
     expect(stored.length).toBe(5);
     for (let i = 1; i < stored.length; i++) expect(stored[i].time - stored[i].intervalMs).toBe(stored[i - 1].time);
-    expect(logs.filter((l) => /writable again/.test(l))).toEqual([expect.stringMatching(/stored 12 samples from the backlog/)]);
-  });
-
-  it('keeps counting when the database turns read-only, and stores the backlog when it is writable again', () => {
-    const { store, camera } = setup();
-    let readOnly = true;
-    const logs: string[] = [];
-    // What SQLite answers when its file or filesystem became read-only under it (result code
-    // SQLITE_READONLY, message as sqlite3_errstr gives it; recalled from memory).
-    const failing = new Proxy(store, {
-      get(target, key, receiver) {
-        if (key === 'insertSamples' && readOnly) {
-          return () => {
-            throw Object.assign(new Error('attempt to write a readonly database'), { code: 'SQLITE_READONLY' });
-          };
-        }
-        const value = Reflect.get(target, key, receiver);
-        return typeof value === 'function' ? value.bind(target) : value;
-      },
-    });
-    const pipeline = createCameraPipeline({ camera, store: failing, model, log: (l) => logs.push(l) });
-    let t = t0;
-    for (let i = 0; i <= 40; i++, t += 100) pipeline.handlers.frame(scene.frameAt(600 + i).frame, t);
-    expect(store.listSamples({ camera: 'cam', zone: 'tables' })).toEqual([]);
-    expect(pipeline.live().state).toBe('online');
-    expect(logs.some((l) => /cannot write the database \(attempt to write a readonly database\); keeping samples in memory/.test(l))).toBe(true);
-    readOnly = false;
-    for (let i = 0; i <= 12; i++, t += 100) pipeline.handlers.frame(scene.frameAt(650 + i).frame, t);
-    expect(store.listSamples({ camera: 'cam', zone: 'tables' }).length).toBe(5);
     expect(logs.filter((l) => /writable again/.test(l))).toEqual([expect.stringMatching(/stored 12 samples from the backlog/)]);
   });
 
