@@ -5,18 +5,8 @@ import { createLabelBitRunsScratch, labelBitRuns, type LabelBitRunsScratch } fro
 import { labelComponents, type Blob } from '../../src/vision/labelComponents.ts';
 import { loadOpenCv } from '../helpers/opencv.ts';
 import { mulberry } from '../helpers/random.ts';
+import { maskOf } from '../helpers/masks.ts';
 
-/** A mask from rows of '#' (set) and '.' (unset). */
-function maskOf(rows: string[]): Mask {
-  const height = rows.length;
-  const width = height === 0 ? 0 : rows[0].length;
-  const data = new Uint8Array(width * height);
-  rows.forEach((row, y) => {
-    if (row.length !== width) throw new Error(`row ${y} has ${row.length} columns, expected ${width}`);
-    for (let x = 0; x < width; x++) data[y * width + x] = row[x] === '#' ? 1 : 0;
-  });
-  return { width, height, data };
-}
 
 /** Each pixel set with probability `density`. */
 function randomMask(width: number, height: number, density: number, rand: () => number): Mask {

@@ -3,18 +3,8 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import type { Mask } from '../../src/frames/frame.ts';
 import { labelComponents, type Components } from '../../src/vision/labelComponents.ts';
 import { loadOpenCv } from '../helpers/opencv.ts';
+import { maskOf } from '../helpers/masks.ts';
 
-/** A mask from rows of '#' (set) and '.' (unset). */
-function maskOf(rows: string[]): Mask {
-  const height = rows.length;
-  const width = height === 0 ? 0 : rows[0].length;
-  const data = new Uint8Array(width * height);
-  rows.forEach((row, y) => {
-    if (row.length !== width) throw new Error(`row ${y} has ${row.length} columns, expected ${width}`);
-    for (let x = 0; x < width; x++) data[y * width + x] = row[x] === '#' ? 1 : 0;
-  });
-  return { width, height, data };
-}
 
 /** The labels as rows of digits ('.' for background), for readable expectations. */
 function labelRows(c: Components, width: number): string[] {

@@ -6,18 +6,8 @@ import { dilate } from '../../src/vision/dilate.ts';
 import { erode, type ElementShape } from '../../src/vision/erode.ts';
 import { openMask } from '../../src/vision/openMask.ts';
 import { loadOpenCv } from '../helpers/opencv.ts';
+import { maskOf } from '../helpers/masks.ts';
 
-/** A mask from rows of '#' (set) and '.' (unset). */
-function maskOf(rows: string[]): Mask {
-  const height = rows.length;
-  const width = height === 0 ? 0 : rows[0].length;
-  const data = new Uint8Array(width * height);
-  rows.forEach((row, y) => {
-    if (row.length !== width) throw new Error(`row ${y} has ${row.length} columns, expected ${width}`);
-    for (let x = 0; x < width; x++) data[y * width + x] = row[x] === '#' ? 1 : 0;
-  });
-  return { width, height, data };
-}
 
 /** The mask as rows of '#' and '.'; any value other than 0 or 1 shows as '?'. */
 function rowsOf(mask: Mask): string[] {
