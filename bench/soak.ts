@@ -2,8 +2,9 @@
 // synthetic cameras (default 4) as fast as they go, N frames in all (default 200 000), writing
 // samples to a temporary database, and reports the frame rate, the use of the machine's cores,
 // resident memory growth after warm-up (the trend: median of the last tenth of the run against the
-// tenth after warm-up; and the peak), open file descriptors, active handles and threads before
-// and after. Not part of `npm test`.
+// tenth after warm-up; and the peak), each thread's V8 heap early and late in the run (`heaps`:
+// the main thread's, and each camera worker's from its heartbeats), open file descriptors, active
+// handles and threads before and after. Not part of `npm test`.
 //
 // By default the cameras run as the service runs them (startService): each in its own worker
 // thread, with its source, counting and sample writes there, the main thread serving HTTP. Frames
