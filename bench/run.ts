@@ -320,11 +320,13 @@ function rssChild(): void {
     const after = process.memoryUsage().rss;
     const d = model.width * model.height;
     const modelBytes = model.mean.byteLength + model.basis.byteLength + model.noise.byteLength + model.eigenvalues.byteLength;
-    // createCounter's buffers: 1/σ², thresholds, energy, scratch (Float32 d each), samples (d/7),
-    // three masks (d bytes each), labels (Int32 d), union–find table (Int32 d/2), morphology (2d bytes).
-    // Plus the WebAssembly memory of its kernels (the model in kernel layout, the per-frame buffers).
+    // createCounter's buffers: thresholds (Float32 d), three masks (d bytes each), labels (Int32 d),
+    // union–find table (Int32 d/2), morphology (2d bytes); with the kernels, the WebAssembly memory
+    // of its kernels (the model in kernel layout, the per-frame buffers), else the JS stages' 1/σ²,
+    // energy and scratch (Float32 d each) and samples (d/7).
     const kernelBytes = (cameras[0] as { counter: { kernelBytes: number } }).counter.kernelBytes;
-    const bufferBytes = 4 * d * 4 + 4 * Math.ceil(d / 7) + 3 * d + 4 * d + 4 * (Math.ceil(d / 2) + 1) + 2 * d + kernelBytes;
+    const jsStageBytes = kernelBytes > 0 ? 0 : 3 * 4 * d + 4 * Math.ceil(d / 7);
+    const bufferBytes = 4 * d + 3 * d + 4 * d + 4 * (Math.ceil(d / 2) + 1) + 2 * d + kernelBytes + jsStageBytes;
     const mb = 1024 * 1024;
     process.send?.({ rssMb: (after - before) / cameras.length / mb, modelMb: modelBytes / mb, buffersMb: bufferBytes / mb } satisfies Memory, () => {
       process.exit(0);

@@ -116,18 +116,13 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
   const stages = createMaskCounter(model, zones.length > 0 ? zones : [wholeFrameZone], { ...options, stageTimes: timed });
   const prepared = stages.zones;
 
-  const inverseNoiseVariance = new Float32Array(d);
-  for (let i = 0; i < d; i++) inverseNoiseVariance[i] = 1 / (model.noise[i] * model.noise[i]);
   // Where zones overlap, the lower (more sensitive) threshold applies; elsewhere the default.
   const thresholds = new Float32Array(d).fill(options.threshold ?? 3);
   for (const zone of prepared) {
     for (const p of zone.pixels) thresholds[p] = Math.min(thresholds[p], zone.threshold);
   }
 
-  const energy = new Float32Array(d);
   const coefficients = new Float64Array(model.components);
-  const scratch = new Float32Array(d);
-  const sampleScratch = new Float32Array(Math.ceil(d / 7));
   const raw = createMask(width, height);
   const colourBuffers = colourModel === undefined ? undefined : {
     unshadowed: createMask(width, height),
@@ -137,6 +132,13 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
   const coefficientSample = coefficientStride > 1 ? sampleCoefficientPixels(model, coefficientStride) : undefined;
   const kernels = useKernels && coefficientSample !== undefined && smoothRadius === 1 ? countingKernels(model, { coefficientSample, thresholds }) : undefined;
   const rawBits = createBitMask(width, height);
+  // The JS stages' buffers, only where the kernels do not run.
+  const js = kernels !== undefined ? undefined : {
+    inverseNoiseVariance: Float32Array.from(model.noise, (sigma) => 1 / (sigma * sigma)),
+    energy: new Float32Array(d),
+    scratch: new Float32Array(d),
+    sampleScratch: new Float32Array(Math.ceil(d / 7)),
+  };
 
   return {
     width,
@@ -148,7 +150,8 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
         if (colour === undefined) throw new RangeError('this counter is in colour mode: count(frame, colour) needs the colour frame');
         assertSameSize(model, colour, 'colour frame');
       }
-      if (kernels !== undefined) return countWithKernels(kernels, frame, colour);
+      if (js === undefined) return countWithKernels(kernels!, frame, colour);
+      const { inverseNoiseVariance, energy, scratch, sampleScratch } = js;
       const t0 = timed === undefined ? 0 : performance.now();
       const residual = residualEnergy(model, frame, { out: energy, outCoefficients: coefficients, inverseNoiseVariance, scratch: sampleScratch, coefficientSample });
       const t1 = timed === undefined ? 0 : performance.now();

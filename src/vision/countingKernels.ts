@@ -188,7 +188,6 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     zS: layout.take(ns4),
     meanS: layout.take(ns4),
     weightS: layout.take(ns4),
-    normS: layout.take(ns4),
     basisS: layout.take(kp * ns4),
   };
   let memory: WebAssembly.Memory;

@@ -1,5 +1,6 @@
 import { wordsPerRow, type BitMask } from './bitMask.ts';
 import { blobsFromSums, type Blob, type Connectivity } from './labelComponents.ts';
+import { unionSets } from './unionFind.ts';
 
 export interface LabelBitRunsOptions {
   /** Pixel adjacency, 4 or 8; default 8. */
@@ -207,7 +208,7 @@ export function labelBitRuns(mask: BitMask, options: LabelBitRunsOptions = {}): 
       const s = runStart[r] - k;
       const e = runEnd[r] + k;
       while (j < prevEnd && runEnd[j] <= s) j++;
-      for (let q = j; q < prevEnd && runStart[q] < e; q++) union(parent, r, q);
+      for (let q = j; q < prevEnd && runStart[q] < e; q++) unionSets(parent, r, q);
     }
   }
   rowStart[height] = n;
@@ -296,20 +297,3 @@ function growRuns(work: LabelBitRunsScratch, used: number, needed: number, most:
   work.parent = parent;
 }
 
-/** Root of run `r`, halving the path on the way (Tarjan's path halving). */
-function find(parent: Int32Array, r: number): number {
-  while (parent[r] !== r) {
-    const g = parent[parent[r]];
-    parent[r] = g;
-    r = g;
-  }
-  return r;
-}
-
-/** Joins the sets of runs `a` and `b`, linking the larger root to the smaller. */
-function union(parent: Int32Array, a: number, b: number): void {
-  const ra = find(parent, a);
-  const rb = find(parent, b);
-  if (ra < rb) parent[rb] = ra;
-  else parent[ra] = rb;
-}

@@ -1,4 +1,5 @@
 import type { Mask } from '../frames/frame.ts';
+import { unionSets } from './unionFind.ts';
 
 /** Which neighbours count as touching: the 4 edge neighbours, or those plus the 4 corner ones. */
 export const Connectivity = {
@@ -156,27 +157,6 @@ export function labelComponents(mask: Mask, options: LabelComponentsOptions = {}
   return { labels, count, blobs };
 }
 
-/** Root of provisional label `l`, halving the path on the way (Tarjan's path halving). */
-function find(parent: Int32Array, l: number): number {
-  while (parent[l] !== l) {
-    const g = parent[parent[l]];
-    parent[l] = g;
-    l = g;
-  }
-  return l;
-}
-
-/** Joins the sets of `a` and `b`, linking the larger root to the smaller; returns the new root. */
-function union(parent: Int32Array, a: number, b: number): number {
-  const ra = find(parent, a);
-  const rb = find(parent, b);
-  if (ra < rb) {
-    parent[rb] = ra;
-    return ra;
-  }
-  parent[ra] = rb;
-  return rb;
-}
 
 /** First pass, 4-connectivity; returns one past the last provisional label used. */
 function firstPass4(data: Uint8Array, width: number, height: number, labels: Int32Array, parent: Int32Array): number {
@@ -190,7 +170,7 @@ function firstPass4(data: Uint8Array, width: number, height: number, labels: Int
       const up = y > 0 ? labels[i - width] : 0;
       const left = x > 0 ? labels[i - 1] : 0;
       if (up !== 0) {
-        labels[i] = left !== 0 && left !== up ? union(parent, up, left) : up;
+        labels[i] = left !== 0 && left !== up ? unionSets(parent, up, left) : up;
       } else if (left !== 0) {
         labels[i] = left;
       } else {
@@ -226,8 +206,8 @@ function firstPass8(data: Uint8Array, width: number, height: number, labels: Int
       const a = hasUp && x > 0 ? labels[i - width - 1] : 0;
       const d = x > 0 ? labels[i - 1] : 0;
       if (c !== 0) {
-        if (a !== 0) labels[i] = union(parent, c, a);
-        else if (d !== 0) labels[i] = union(parent, c, d);
+        if (a !== 0) labels[i] = unionSets(parent, c, a);
+        else if (d !== 0) labels[i] = unionSets(parent, c, d);
         else labels[i] = c;
       } else if (a !== 0) {
         labels[i] = a; // d, if set, is adjacent to a and already in its set

@@ -1,5 +1,5 @@
 import { outputMask, type Mask } from '../frames/frame.ts';
-import { outputBitMask, type BitMask } from './bitMask.ts';
+import { outputBitMask, packMask, unpackMask, type BitMask } from './bitMask.ts';
 import type { ElementShape } from './erode.ts';
 
 /** One step of a morphological sequence. */
@@ -59,8 +59,8 @@ export function morphologyBits(mask: Mask, options: MorphologyBitsOptions = {}):
   const words = (width + 31) >>> 5;
   const planeLength = height * words;
   const planes = planesOf(scratch, planeLength);
-  pack(data, planes[0], width, height);
-  unpack(applySteps(planes, width, height, words, steps, radius, shape), result.data, width, height);
+  packMask(mask, { width, height, words, data: planes[0] });
+  unpackMask({ width, height, words, data: applySteps(planes, width, height, words, steps, radius, shape) }, result);
   return result;
 }
 
@@ -150,29 +150,6 @@ function planesOf(scratch: Uint8Array | undefined, length: number): [Int32Array,
     new Int32Array(buffer, offset + 4 * length, length),
     new Int32Array(buffer, offset + 8 * length, length),
   ];
-}
-
-/** Packs a byte mask (non-zero = set) into bit rows. */
-function pack(src: Uint8Array, dst: Int32Array, width: number, height: number): void {
-  for (let y = 0, i = 0, w = 0; y < height; y++) {
-    for (let x0 = 0; x0 < width; x0 += 32, w++) {
-      const end = Math.min(32, width - x0);
-      let bits = 0;
-      for (let b = 0; b < end; b++, i++) bits |= (-src[i] >>> 31) << b;
-      dst[w] = bits;
-    }
-  }
-}
-
-/** Unpacks bit rows into a 0/1 byte mask (the padding bits are ignored). */
-function unpack(src: Int32Array, dst: Uint8Array, width: number, height: number): void {
-  for (let y = 0, i = 0, w = 0; y < height; y++) {
-    for (let x0 = 0; x0 < width; x0 += 32, w++) {
-      const end = Math.min(32, width - x0);
-      const bits = src[w];
-      for (let b = 0; b < end; b++, i++) dst[i] = (bits >>> b) & 1;
-    }
-  }
 }
 
 /** Sets the bits past the row end in each row's last word to `outside`. */
