@@ -19,8 +19,12 @@ export const EventType = {
   viewRestored: 'view-restored',
   /** A room zone's count went above its capacity. */
   capacityExceeded: 'capacity-exceeded',
-  /** A new empty-scene model was learned and stored. */
+  /** A new empty-scene model was learned, stored and put to use. */
   modelLearned: 'model-learned',
+  /** A model was learned but judged not usable: stored as rejected, the camera kept its model. */
+  learningRejected: 'learning-rejected',
+  /** An admin put a kept model to use (a roll-back). */
+  modelActivated: 'model-activated',
   /** The model is older than its validity or drifted. */
   modelStale: 'model-stale',
   /** Settings (zones, thresholds) were changed. */

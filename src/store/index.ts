@@ -26,7 +26,7 @@ export {
   type RollupStore,
 } from './rollups.ts';
 export { EventType, type EventInput, type EventQuery, type EventStore, type StoredEvent } from './events.ts';
-export { type ModelInfo, type ModelInput, type ModelRecord, type ModelStore } from './models.ts';
+export { type InsertModelOptions, type ModelInfo, type ModelInput, type ModelRecord, type ModelStore } from './models.ts';
 export { SettingKey, type SettingStore } from './settings.ts';
 export { DEFAULT_RETENTION, type PruneResult, type RetentionPolicy, type RetentionStore } from './retention.ts';
 export { ID_PATTERN } from './validate.ts';

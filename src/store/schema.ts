@@ -122,6 +122,20 @@ export const migrations: readonly Migration[] = [
       ) STRICT, WITHOUT ROWID;
     `,
   },
+  {
+    version: 2,
+    description: "models: rejected flag; cameras: the model in use (active_model), set to each camera's newest model",
+    up: `
+      -- A model learned but judged not usable (kept so that an admin may still choose it).
+      ALTER TABLE models ADD COLUMN rejected INTEGER NOT NULL DEFAULT 0 CHECK (rejected IN (0, 1));
+      -- The model the camera counts with. The foreign key keeps it from being deleted.
+      ALTER TABLE cameras ADD COLUMN active_model INTEGER REFERENCES models (id);
+      -- Until now a camera counted with its newest model.
+      UPDATE cameras SET active_model = (
+        SELECT m.id FROM models m WHERE m.camera = cameras.id ORDER BY m.created DESC, m.id DESC LIMIT 1
+      );
+    `,
+  },
 ];
 
 /** The version a database has after all {@link migrations}. */
