@@ -21,6 +21,10 @@ export interface CameraHostOptions {
   readonly timeZone: string;
   /** The model to count with; default none: the worker learns from its first `learnSeconds` of frames. */
   readonly model?: Subspace;
+  /** The stored id of `model`, if it is stored. */
+  readonly modelId?: number;
+  /** Models per camera the store keeps after the worker stored a learned one (config `models.keep`), 1..10 000; default 5. */
+  readonly keepModels?: number;
   /** Where the host writes its own events (worker crashed → `offline`, counting again → `online`); the main thread's store. */
   readonly events: Pick<Store, 'insertEvent'>;
   /** Have the worker post each sample and event it committed (`sample`, `event` events, for MQTT); default false. */
@@ -56,8 +60,9 @@ export interface CameraHostOptions {
  * Events: `live` (CameraLive) after every counted frame and state change, as the pipeline's;
  * `learn` (LearnStatus); `stage` (label, seconds); `sample` (Sample) and `event` (PublishedEvent)
  * after the worker's store committed them (with `relayCommits`); `sourceError` (); `model`
- * (Subspace) when the worker learned one; `restart` ({ reason, attempt, retryInMs }) when a worker
- * failed and another is due.
+ * (Subspace, id) when the worker counts with another model (one it learned and judged usable, or
+ * one given to `useModel`); `restart` ({ reason, attempt, retryInMs }) when a worker failed and
+ * another is due.
  */
 export interface CameraHost extends EventEmitter {
   readonly id: string;
@@ -65,6 +70,13 @@ export interface CameraHost extends EventEmitter {
   ready(): Promise<void>;
   live(): CameraLive;
   model(): Subspace | undefined;
+  /** The stored id of the model counted with, if known. */
+  modelId(): number | undefined;
+  /**
+   * Has the worker count with `model` (stored as `id`, made active in the store by the caller)
+   * from its next frame, without a restart; a worker started later starts with it.
+   */
+  useModel(model: Subspace, id: number): void;
   /** A copy of the last counted frame's foreground mask, if the current worker counted one. */
   lastMask(): Mask | undefined;
   /** As CameraPipeline.relearn; a request made while the worker is down is sent to the next one. */
@@ -103,12 +115,14 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     stableMs = 60_000,
     stopTimeoutMs = 5000,
     youngGenerationMb,
+    keepModels = 5,
     fault,
   } = options;
   if (youngGenerationMb !== undefined && !(Number.isFinite(youngGenerationMb) && youngGenerationMb >= 1)) throw new RangeError(`youngGenerationMb: expected MB ≥ 1, got ${String(youngGenerationMb)}`);
   if (!(Number.isFinite(stallMs) && stallMs >= 0)) throw new RangeError(`stallMs: expected milliseconds ≥ 0, got ${String(stallMs)}`);
   if (!(Number.isFinite(heartbeatMs) && heartbeatMs >= 10)) throw new RangeError(`heartbeatMs: expected milliseconds ≥ 10, got ${String(heartbeatMs)}`);
   if (stallMs > 0 && stallMs < 2 * heartbeatMs) throw new RangeError(`stallMs: expected 0 or at least two heartbeats (${2 * heartbeatMs} ms), got ${stallMs}`);
+  if (!(Number.isInteger(keepModels) && keepModels >= 1 && keepModels <= 10_000)) throw new RangeError(`keepModels: expected a whole number from 1 to 10 000, got ${String(keepModels)}`);
   if (!(Number.isFinite(stableMs) && stableMs >= 0)) throw new RangeError(`stableMs: expected milliseconds ≥ 0, got ${String(stableMs)}`);
   if (!(Number.isFinite(stopTimeoutMs) && stopTimeoutMs >= 0)) throw new RangeError(`stopTimeoutMs: expected milliseconds ≥ 0, got ${String(stopTimeoutMs)}`);
   const id = camera.id;
@@ -116,6 +130,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
   const retry = createRetryScheduler(restartBackoff);
   const mask = sharedMask(camera.source.size);
   let model = options.model && shareModel(options.model);
+  let modelId = model ? options.modelId : undefined;
   let zones = camera.zones;
   let zonesVersion = 0;
   let live: CameraLive = { camera: id, name: camera.name, state: 'connecting', viewChanged: false, zones: zonesLive(zones) };
@@ -163,6 +178,8 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
       dbFile,
       timeZone,
       ...(model && { model }),
+      ...(model && modelId !== undefined && { modelId }),
+      keepModels,
       mask: mask.buffer,
       relayCommits,
       heartbeatMs,
@@ -241,7 +258,8 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
         break;
       case 'model':
         model = message.model;
-        host.emit('model', model);
+        modelId = message.id;
+        host.emit('model', model, modelId);
         break;
       case 'sample':
         host.emit('sample', message.sample);
@@ -309,6 +327,15 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     ready: () => readyPromise,
     live: () => live,
     model: () => model,
+    modelId: () => modelId,
+    useModel(next: Subspace, id: number) {
+      const { width, height } = camera.source.size;
+      if (next.width !== width || next.height !== height) throw new RangeError(`the model is ${next.width}×${next.height} but camera ${camera.id} works at ${width}×${height}`);
+      model = shareModel(next);
+      modelId = id;
+      send({ type: 'model', model, id });
+      host.emit('model', model, modelId);
+    },
     lastMask: () => (worker ? mask.read() : undefined),
     relearn(seconds: number): LearnStatus {
       if (!(seconds > 0 && seconds <= 3600)) throw new RangeError(`seconds must be in (0, 3600], got ${seconds}`);

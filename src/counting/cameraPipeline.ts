@@ -11,6 +11,8 @@ import type { Subspace } from '../vision/subspace.ts';
 import type { Counter } from './createCounter.ts';
 import { createDriftingCounter } from './createDriftingCounter.ts';
 import { createPersonSizeReservoir, type PersonSizeSuggestion } from './createPersonSizeReservoir.ts';
+import { modelVerdict } from './modelVerdict.ts';
+import { learningOutcome, storeModel, type StoredVerdict } from './storeModel.ts';
 import { slidingWindow, type SlidingWindow } from './smoothCounts.ts';
 import type { Zone } from './zone.ts';
 
@@ -40,6 +42,17 @@ export interface CameraLive {
   readonly zones: readonly ZoneLive[];
   /** The person size learned from blobs of people seen alone (numbers only; see createPersonSizeReservoir). */
   readonly personSize?: PersonSizeSuggestion;
+  /** The stored id of the model counted with, when it is stored. */
+  readonly modelId?: number;
+}
+
+/** What became of a model learned from the live source (see CameraPipelineOptions.onModel). */
+export interface LearnedModel {
+  /** Its stored id; undefined when it could not be stored. */
+  readonly id?: number;
+  readonly verdict: StoredVerdict;
+  /** True: the camera counts with it now. False: rejected ('poor' while the camera had a model), the camera kept its model. */
+  readonly active: boolean;
 }
 
 export interface CameraPipelineOptions {
@@ -47,8 +60,16 @@ export interface CameraPipelineOptions {
   readonly store: Store;
   /** The empty-scene model; without one the pipeline learns from its first `learnSeconds` of frames. */
   readonly model?: Subspace;
-  /** Called when the pipeline has learned a model from the live source (to store it). */
-  readonly onModel?: (model: Subspace) => void;
+  /** The stored id of `model`, if it is stored (shown in `live().modelId`). */
+  readonly modelId?: number;
+  /**
+   * Called when the pipeline has learned a model from the live source, judged it (modelVerdict)
+   * and stored it: a usable one ('good', 'fair'; or any when the camera had none) is active and
+   * counted with at once, a 'poor' one is stored rejected and the camera keeps its model.
+   */
+  readonly onModel?: (model: Subspace, learned: LearnedModel) => void;
+  /** Models per camera kept in the store after storing a learned one (config `models.keep`), 1..10 000; default 5. */
+  readonly keepModels?: number;
   /** Fits a model from learning frames (may take the frames over); injected so the pipeline stays free of learning policy. */
   readonly learn?: (frames: Float32Array[], size: { width: number; height: number }) => Subspace | Promise<Subspace>;
   /** Frame noise scale (median (r/σ)² over its expected value) above which a frame counts as a changed view; default 6. */
@@ -59,7 +80,8 @@ export interface CameraPipelineOptions {
 
 /** Where learning the empty scene from the live source stands. */
 export interface LearnStatus {
-  readonly state: 'idle' | 'learning' | 'done' | 'failed';
+  /** `done`: the learned model is in use; `rejected`: it was judged not usable and the camera kept its model. */
+  readonly state: 'idle' | 'learning' | 'done' | 'rejected' | 'failed';
   /** 0..1 of the requested seconds collected. */
   readonly progress: number;
   readonly seconds?: number;
@@ -71,6 +93,12 @@ export interface LearnStatus {
   readonly components?: number;
   readonly retainedVariance?: number;
   readonly frames?: number;
+  /** The learned model's verdict (when done or rejected). */
+  readonly verdict?: StoredVerdict;
+  /** The learned model's stored id (when done or rejected, and it could be stored). */
+  readonly modelId?: number;
+  /** Why the learned model is poor, in plain words (its first finding), when it is. */
+  readonly reason?: string;
 }
 
 /**
@@ -86,6 +114,12 @@ export interface CameraPipeline extends EventEmitter {
   lastMask(): Mask | undefined;
   /** Learns the empty scene again from the next `seconds` of frames; counting goes on with the old model meanwhile. */
   relearn(seconds: number): LearnStatus;
+  /**
+   * Counts with `model` from the next frame on (an admin's roll-back to a kept model; storing
+   * which model is active is the caller's). `id` is its stored id. The model must have the
+   * camera's working size.
+   */
+  useModel(model: Subspace, id?: number): void;
   learnStatus(): LearnStatus;
   /** Replaces the zones; counting continues at once with the new ones. */
   setZones(zones: readonly Zone[]): void;
@@ -125,7 +159,7 @@ interface ZoneAccumulator {
  * is a gap, never zeros.
  */
 export function createCameraPipeline(options: CameraPipelineOptions): CameraPipeline {
-  const { camera, store, onModel, learn, viewChangeScale = 6, log = () => {} } = options;
+  const { camera, store, onModel, learn, viewChangeScale = 6, keepModels = 5, log = () => {} } = options;
   const { width, height } = camera.source.size;
   const sampleMs = Math.round(camera.sampleSeconds * 1000);
   // Frames further apart than this mean the camera was away: the interval is a gap. Slow sources
@@ -133,6 +167,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   const maxGapMs = Math.max(2 * sampleMs, 120_000);
   const emitter = new EventEmitter() as CameraPipeline;
   let model = options.model;
+  let modelId = options.model ? options.modelId : undefined;
   let zones = camera.zones;
   /** Colour mode (shadow suppression): the source delivers colour, and a model with colour statistics uses it. */
   const colourMode = camera.source.colour === true;
@@ -341,22 +376,43 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       const learned = colourMode && colourFrames.length === frames.length
         ? { ...fitted, colour: fitChromaticity(colourFrames, { width, height }, { robust: true }) }
         : fitted;
-      model = learned;
-      counter = makeCounter(model);
-      countsInColour = colourMode && model.colour !== undefined;
-      // A new empty scene may mean the camera moved: sizes seen before no longer apply.
-      personSizes.clear();
-      onModel?.(model);
+      // Judge before switching: a poor model never replaces a working one; with none, it beats nothing.
+      const { level, findings } = modelVerdict(learned);
+      const verdict: StoredVerdict = { level, findings: [...findings] };
+      const { use, event: type, reason, text } = learningOutcome(verdict, model !== undefined);
+      let id: number | undefined;
+      try {
+        id = storeModel(store, camera.id, learned, 'live source', { verdict, activate: use, rejected: !use, keep: keepModels });
+      } catch (error) {
+        log(`camera ${camera.id}: could not store the learned model (${(error as Error).message})${use ? '; it is used until the service stops' : ''}`);
+      }
+      if (use) {
+        model = learned;
+        modelId = id;
+        counter = makeCounter(model);
+        countsInColour = colourMode && model.colour !== undefined;
+        // A new empty scene may mean the camera moved: sizes seen before no longer apply.
+        personSizes.clear();
+      }
+      onModel?.(learned, { ...(id !== undefined && { id }), verdict, active: use });
+      event(type, { model: id ?? null, level, findings: verdict.findings, ...(reason !== undefined && { reason }), text });
       learnState = {
         ...learnState,
-        state: 'done',
+        state: use ? 'done' : 'rejected',
         progress: 1,
         finishedAt: Date.now(),
-        components: model.components,
-        retainedVariance: model.retainedVariance,
-        frames: model.frameCount,
+        components: learned.components,
+        retainedVariance: learned.retainedVariance,
+        frames: learned.frameCount,
+        verdict,
+        ...(id !== undefined && { modelId: id }),
+        ...(reason !== undefined && { reason }),
       };
-      log(`camera ${camera.id}: learned the empty scene from ${model.frameCount} frames (${model.components} components)`);
+      log(
+        use
+          ? `camera ${camera.id}: learned the empty scene from ${learned.frameCount} frames (${learned.components} components, ${level}${level === 'poor' ? `: ${reason}` : ''})`
+          : `camera ${camera.id}: learned a poor model from ${learned.frameCount} frames and kept the one in use (${reason})`,
+      );
       emitter.emit('learn', learnState);
       publish();
     };
@@ -425,6 +481,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
           ...(a.zone.capacity !== undefined && { capacity: a.zone.capacity }),
         })),
         personSize: personSizes.suggestion(),
+        ...(modelId !== undefined && { modelId }),
       };
     },
     model: () => model,
@@ -443,6 +500,17 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       return learnState;
     },
     learnStatus: () => learnState,
+    useModel(next: Subspace, id?: number) {
+      if (next.width !== width || next.height !== height) {
+        throw new RangeError(`the model is ${next.width}×${next.height} but camera ${camera.id} works at ${width}×${height}`);
+      }
+      model = next;
+      modelId = id;
+      counter = makeCounter(model);
+      countsInColour = colourMode && model.colour !== undefined;
+      personSizes.clear();
+      publish();
+    },
     setZones(next: readonly Zone[]) {
       if (lastFrameAt !== undefined) writeInterval(lastFrameAt);
       zones = next;

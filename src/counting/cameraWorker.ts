@@ -21,10 +21,9 @@ import { openStore, type Store } from '../store/index.ts';
 import { createCameraPipeline } from './cameraPipeline.ts';
 import { counterStageDeltas } from './counterStageDeltas.ts';
 import type { CameraWorkerData, FromWorker, ToWorker, WorkerHeap } from './cameraWorkerProtocol.ts';
-import { learnInWorker } from './learnInWorker.ts';
+import { learnInWorker, liveLearning } from './learnInWorker.ts';
 import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
-import { storeModel } from './storeModel.ts';
 
 const data = workerData as CameraWorkerData;
 const port = parentPort!;
@@ -88,16 +87,14 @@ const pipeline = createCameraPipeline({
   camera,
   store,
   ...(data.model && { model: data.model }),
-  // Rooms are rarely quite empty: learning from the live view rejects people passing through. The
-  // model comes back in shared memory, so the main thread's copy costs nothing.
-  learn: async (frames, size) => shareModel(await learnInWorker(frames, size, { robustIterations: 1 })),
-  onModel(model) {
-    try {
-      storeModel(ownStore, camera.id, model, 'live source');
-    } catch (error) {
-      log(`camera ${camera.id}: could not store the learned model (${(error as Error).message}); it is used until the service stops`);
-    }
-    post({ type: 'model', model });
+  ...(data.modelId !== undefined && { modelId: data.modelId }),
+  keepModels: data.keepModels,
+  // Rooms are rarely quite empty: learning from the live view rejects people passing through
+  // (liveLearning: robust). The model comes back in shared memory, so the main thread's copy costs nothing.
+  learn: async (frames, size) => shareModel(await learnInWorker(frames, size, liveLearning)),
+  // The pipeline judged and stored it; the main thread mirrors only a model counted with.
+  onModel(model, learned) {
+    if (learned.active) post({ type: 'model', model, ...(learned.id !== undefined && { id: learned.id }) });
   },
   log,
 });
@@ -151,6 +148,11 @@ port.on('message', (message: ToWorker) => {
         break;
       case 'relearn':
         pipeline.relearn(message.seconds);
+        break;
+      case 'model':
+        pipeline.useModel(message.model, message.id);
+        post({ type: 'model', model: message.model, id: message.id });
+        log(`camera ${camera.id}: counting with model ${message.id} now`);
         break;
       case 'stop':
         void stop();

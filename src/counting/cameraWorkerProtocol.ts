@@ -41,6 +41,10 @@ export interface CameraWorkerData {
   readonly timeZone: string;
   /** The model to count with (its arrays in shared memory, see shareModel); undefined: learn from the first `learnSeconds`. */
   readonly model?: Subspace;
+  /** The stored id of `model`, if it is stored. */
+  readonly modelId?: number;
+  /** Models per camera the store keeps after a learned one is stored (config `models.keep`). */
+  readonly keepModels: number;
   /** The shared buffer of the last foreground mask (see sharedMask). */
   readonly mask: SharedArrayBuffer;
   /** Post every committed sample and event to the main thread (for MQTT). */
@@ -57,8 +61,15 @@ export interface ZonesMessage {
   readonly version: number;
 }
 
+/** Count with this model from now on (an admin chose a kept model; already made active in the store). Its arrays are in shared memory. */
+export interface UseModelMessage {
+  readonly type: 'model';
+  readonly model: Subspace;
+  readonly id: number;
+}
+
 /** Main thread → worker. */
-export type ToWorker = ZonesMessage | { readonly type: 'relearn'; readonly seconds: number } | { readonly type: 'stop' };
+export type ToWorker = ZonesMessage | UseModelMessage | { readonly type: 'relearn'; readonly seconds: number } | { readonly type: 'stop' };
 
 /** Stage timings measured since the last message: [stage label, seconds] pairs. */
 export type StageTimes = readonly (readonly [string, number])[];
@@ -79,8 +90,12 @@ export type FromWorker =
   | { readonly type: 'beat'; readonly stages: StageTimes; readonly heap: WorkerHeap }
   | { readonly type: 'live'; readonly live: CameraLive; readonly zonesVersion: number; readonly stages: StageTimes }
   | { readonly type: 'learn'; readonly status: LearnStatus }
-  /** A model learned from the live source (already stored by the worker); its arrays are in shared memory. */
-  | { readonly type: 'model'; readonly model: Subspace }
+  /**
+   * The worker counts with this model now: one it learned from the live source and judged usable
+   * (already stored), or one the main thread sent (`UseModelMessage`, echoed). Its arrays are in
+   * shared memory. A learned model judged poor (rejected) is not posted.
+   */
+  | { readonly type: 'model'; readonly model: Subspace; readonly id?: number }
   /** A sample the worker's store committed (only with `relayCommits`). */
   | { readonly type: 'sample'; readonly sample: Sample }
   /** An event the worker's store committed (only with `relayCommits`). */

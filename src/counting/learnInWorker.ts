@@ -2,6 +2,13 @@ import { Worker } from 'node:worker_threads';
 import type { FitSubspaceOptions, SubspaceFit } from '../vision/fitSubspace.ts';
 
 /**
+ * How the service learns from a live camera (the dashboard's "Learn again", and a camera's first
+ * start without a model): robustly, rejecting people who pass through (`robustIterations` ≥ 1,
+ * see fitSubspace), since a room is rarely quite empty for the whole learning time.
+ */
+export const liveLearning: FitSubspaceOptions = Object.freeze({ robustIterations: 1 });
+
+/**
  * Fits the empty-scene subspace (after dropping repeated frames) in a worker thread, so that a
  * running service keeps counting its other cameras and answering the dashboard meanwhile: a fit
  * at 320×240 takes seconds. The frames are moved to the worker (the caller's arrays become

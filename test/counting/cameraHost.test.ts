@@ -6,6 +6,7 @@ import type { CameraConfig } from '../../src/config/loadConfig.ts';
 import { createCameraHost } from '../../src/counting/cameraHost.ts';
 import { createScene } from '../../src/frames/synthetic/index.ts';
 import type { EventInput } from '../../src/store/events.ts';
+import { storeModel } from '../../src/counting/storeModel.ts';
 import { openStore } from '../../src/store/index.ts';
 import type { Sample } from '../../src/store/samples.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
@@ -78,5 +79,40 @@ describe('createCameraHost', () => {
   it('names the option for a watchdog shorter than two heartbeats', () => {
     expect(() => createCameraHost({ camera, dbFile: ':memory:', timeZone: 'UTC', events: { insertEvent: () => 0 }, stallMs: 500, heartbeatMs: 1000 })).toThrow(/^stallMs: expected 0 or at least two heartbeats \(2000 ms\), got 500$/);
     expect(() => createCameraHost({ camera, dbFile: ':memory:', timeZone: 'UTC', events: { insertEvent: () => 0 }, youngGenerationMb: 0.5 })).toThrow(/^youngGenerationMb: expected MB ≥ 1, got 0.5$/);
+    expect(() => createCameraHost({ camera, dbFile: ':memory:', timeZone: 'UTC', events: { insertEvent: () => 0 }, keepModels: 0 })).toThrow(/^keepModels: expected a whole number from 1 to 10 000, got 0$/);
+  });
+
+  it('switches the worker to another model without a restart (an admin\'s roll-back): the worker reports the model it counts with', async () => {
+    const dbFile = join(dir, 'switch.db');
+    const store = openStore(dbFile, { timeZone: 'UTC' });
+    store.upsertCamera({ id: camera.id, name: camera.name });
+    store.upsertZone(camera.id, camera.zones[0]);
+    const first = fitSubspace(Array.from({ length: 40 }, (_, i) => scene.emptyFrameAt(i * 75).data), scene, { components: 4 });
+    const other = fitSubspace(Array.from({ length: 40 }, (_, i) => scene.emptyFrameAt(i * 75 + 30).data), scene, { components: 2 });
+    const firstId = storeModel(store, camera.id, first, 'test');
+    const otherId = storeModel(store, camera.id, other, 'test', { activate: false });
+    const host = createCameraHost({ camera, dbFile, timeZone: 'UTC', model: first, modelId: firstId, events: store });
+    const switched: (number | undefined)[] = [];
+    host.on('model', (_model, id?: number) => switched.push(id));
+    try {
+      await host.ready();
+      await waitUntil(() => host.live().modelId === firstId && host.live().lastFrameAt, { what: 'a frame counted with the first model' });
+      const restarts = host.restarts;
+      host.useModel(other, otherId);
+      // The main thread's mirror follows at once (the empty-scene picture, the figures) …
+      expect(host.model()?.components).toBe(2);
+      expect(host.modelId()).toBe(otherId);
+      // … and the worker, counting on in the same thread, reports the model it counts with.
+      const since = host.live().lastFrameAt!;
+      await waitUntil(() => host.live().modelId === otherId && host.live().lastFrameAt! > since, { what: 'the worker counting with the other model' });
+      await waitUntil(() => switched.length >= 2, { what: 'the worker echoing the switch' });
+      expect(switched).toEqual([otherId, otherId]);
+      expect(host.restarts).toBe(restarts);
+      expect(host.running).toBe(true);
+      expect(() => host.useModel(fitSubspace(Array.from({ length: 3 }, (_, i) => new Float32Array(40 * 30).fill(i)), { width: 40, height: 30 }), 7)).toThrow(/^the model is 40×30 but camera shelf works at 80×60$/);
+    } finally {
+      await host.stop();
+      store.close();
+    }
   });
 });
