@@ -3,7 +3,8 @@ import type { GreyFrame } from '../frames/frame.ts';
 import { fitChromaticity } from '../vision/fitChromaticity.ts';
 import { join, resolve } from 'node:path';
 import { loadConfig } from '../config/loadConfig.ts';
-import { encodeModel, modelFormatVersion, saveModel } from '../counting/modelFile.ts';
+import { saveModel } from '../counting/modelFile.ts';
+import { learningOutcome, storeModel, type LearningOutcome } from '../counting/storeModel.ts';
 import { createCameraSource } from '../frames/live/createCameraSource.ts';
 import { openStore } from '../store/index.ts';
 import type { SubspaceFit } from '../vision/fitSubspace.ts';
@@ -190,21 +191,22 @@ async function learnFromCamera(
   const model = fitSubspace(distinct, camera.source.size, { components, variance, maxComponents, robustIterations: v.robust ? 2 : 0 });
   const info = { learnedAt: new Date().toISOString(), source: `camera ${id}`, settings: { seconds, components, variance, maxComponents } };
   const store = openStore(join(resolve((v.data as string | undefined) ?? 'data'), 'residuum.db'), { timeZone: config.site.timeZone });
+  // Judged before it is put to use: a poor model is kept as rejected while the camera has one.
+  const { level, findings } = modelVerdict(model);
+  let outcome: LearningOutcome;
   try {
     store.upsertCamera({ id, name: camera.name });
-    store.insertModel({
-      camera: id,
-      width: model.width,
-      height: model.height,
-      components: model.components,
-      formatVersion: modelFormatVersion,
-      data: encodeModel(model, info),
-      metadata: { source: info.source, frames: model.frameCount, retainedVariance: model.retainedVariance },
-    });
+    outcome = learningOutcome({ level, findings }, store.activeModelId(id) !== undefined);
+    const modelId = storeModel(store, id, model, info.source, { verdict: { level, findings }, activate: outcome.use, rejected: !outcome.use, keep: config.models?.keep ?? 5 });
+    store.insertEvent({ camera: id, type: outcome.event, detail: { model: modelId, level, findings, ...(outcome.reason !== undefined && { reason: outcome.reason }), text: outcome.text } });
   } finally {
     store.close();
   }
   if (v.out) await saveModel(v.out as string, model, info);
   printReport(io.out, model, frames.length - distinct.length, 0, v.out ? `${v.out} and the database` : 'the database');
+  if (!outcome.use) {
+    io.err.write(`residuum learn: ${outcome.text} It is kept in the database as rejected; an admin can still choose it in the dashboard.\n`);
+    return 1;
+  }
   return 0;
 }

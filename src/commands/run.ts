@@ -14,14 +14,14 @@ import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
 import { siteSlug } from '../outputs/mqtt/topics.ts';
 import { decodeModel, encodeModel, loadModel } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
-import { storeModel } from '../counting/storeModel.ts';
+import { storedVerdict, storeModel, type StoredVerdict } from '../counting/storeModel.ts';
 import type { BackoffOptions } from '../frames/live/backoff.ts';
 import { createScene } from '../frames/synthetic/index.ts';
 import { createApp } from '../server/createApp.ts';
-import type { ServiceControl, SmallImage } from '../server/serviceControl.ts';
+import { ModelChoiceError, type KeptModel, type ServiceControl, type SmallImage } from '../server/serviceControl.ts';
 import { prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts';
 import { validateZones } from '../counting/parseZones.ts';
-import { openStore, type Store } from '../store/index.ts';
+import { openStore, type ModelInfo, type Store } from '../store/index.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
 
@@ -114,6 +114,7 @@ export interface StartServiceOptions {
  */
 export async function startService(config: ResiduumConfig, options: StartServiceOptions): Promise<RunningService> {
   const { dataDir, log = () => {}, workerRestart = {}, workerStallMs = 30_000, workerYoungGenerationMb = 8, workerFaults = {} } = options;
+  const keepModels = config.models?.keep ?? 5;
   const dbFile = join(resolve(dataDir), 'residuum.db');
   const store = openStore(dbFile, { timeZone: config.site.timeZone });
   const hosts = new Map<string, CameraHost>();
@@ -142,16 +143,22 @@ export async function startService(config: ResiduumConfig, options: StartService
       for (const zone of camera.zones) store.upsertZone(camera.id, zone);
       for (const old of store.listZones({ camera: camera.id })) if (!known.has(old.zone.id)) store.removeZone(camera.id, old.zone.id);
     }
-    const models = new Map<string, Subspace | undefined>();
-    for (const camera of config.cameras) models.set(camera.id, await cameraModel(camera, store, log));
+    const models = new Map<string, CameraModel | undefined>();
     for (const camera of config.cameras) {
-      const model = models.get(camera.id);
+      models.set(camera.id, await cameraModel(camera, store, keepModels, log));
+      // A lowered models.keep applies at once.
+      const pruned = store.pruneModels(camera.id, keepModels);
+      if (pruned.length > 0) log(`camera ${camera.id}: deleted ${pruned.length} older model${pruned.length === 1 ? '' : 's'} (models.keep is ${keepModels})`);
+    }
+    for (const camera of config.cameras) {
+      const chosen = models.get(camera.id);
       const fault = workerFaults[camera.id];
       const host = createCameraHost({
         camera,
         dbFile,
         timeZone: store.timeZone,
-        ...(model && { model }),
+        ...(chosen && { model: chosen.model, ...(chosen.id !== undefined && { modelId: chosen.id }) }),
+        keepModels,
         events: mainEvents,
         relayCommits: mqtt !== undefined,
         log,
@@ -199,7 +206,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     store.close();
     throw error;
   }
-  const control = serviceControl(store, hosts);
+  const control = serviceControl(store, mainEvents, hosts, config.cameras);
   const app = createApp({
     store,
     control,
@@ -249,12 +256,24 @@ export async function startService(config: ResiduumConfig, options: StartService
   };
 }
 
+/** A camera's model at start and its stored id (undefined when it could not be stored). */
+interface CameraModel {
+  readonly model: Subspace;
+  readonly id?: number;
+}
+
+/** The model with its colour statistics in `colour` (as the pipeline takes it). */
+function withColour({ model, colour }: { model: Subspace; colour?: ChromaticityModel }): Subspace {
+  return colour ? { ...model, colour } : model;
+}
+
 /**
- * The camera's empty-scene model: the configured model file (stored in the database when new),
- * else the newest stored one, else — for a synthetic scene — one learned from its empty frames.
- * Undefined means: learn from the live source at start.
+ * The camera's empty-scene model: the configured model file (it becomes the active model at every
+ * start; stored when no kept model has the same content), else the camera's active stored one,
+ * else — for a synthetic scene — one learned from its empty frames. Undefined means: learn from
+ * the live source at start. Storing keeps at most `keep` models per camera.
  */
-async function cameraModel(camera: CameraConfig, store: Store, log: (line: string) => void): Promise<Subspace | undefined> {
+async function cameraModel(camera: CameraConfig, store: Store, keep: number, log: (line: string) => void): Promise<CameraModel | undefined> {
   const { width, height } = camera.source.size;
   const check = (model: Subspace, from: string) => {
     if (model.width !== width || model.height !== height) {
@@ -262,16 +281,17 @@ async function cameraModel(camera: CameraConfig, store: Store, log: (line: strin
     }
     return model;
   };
-  const withColour = ({ model, colour }: { model: Subspace; colour?: ChromaticityModel }): Subspace => (colour ? { ...model, colour } : model);
   if (camera.model) {
-    const model = withColour(await loadModel(camera.model));
-    const latest = store.latestModel(camera.id);
-    const bytes = encodeModel(model, {}, model.colour);
-    if (!latest || !Buffer.from(latest.data).equals(bytes)) storeModel(store, camera.id, model, camera.model);
-    return check(model, camera.model);
+    const model = check(withColour(await loadModel(camera.model)), camera.model);
+    const same = keptCopy(store, camera.id, camera.model, model);
+    if (same !== undefined) {
+      if (store.activeModelId(camera.id) !== same) store.activateModel(camera.id, same);
+      return { model, id: same };
+    }
+    return { model, id: storeModel(store, camera.id, model, camera.model, { keep }) };
   }
-  const stored = store.latestModel(camera.id);
-  if (stored) return check(withColour(decodeModel(Buffer.from(stored.data), `stored model ${stored.id}`)), 'the database');
+  const stored = store.activeModel(camera.id);
+  if (stored) return { model: check(withColour(decodeModel(Buffer.from(stored.data), `stored model ${stored.id}`)), 'the database'), id: stored.id };
   if (camera.source.kind === 'synthetic') {
     const sceneOptions = { width, height, ...(camera.source.seed !== undefined && { seed: camera.source.seed }) };
     const period = 3000;
@@ -287,17 +307,57 @@ async function cameraModel(camera: CameraConfig, store: Store, log: (line: strin
       const scene = createScene(camera.source.scene, sceneOptions);
       model = await learnInWorker(times.map((t) => scene.emptyFrameAt(t).data), { width, height });
     }
-    storeModel(store, camera.id, model, `synthetic:${camera.source.scene}:empty`);
+    const id = storeModel(store, camera.id, model, `synthetic:${camera.source.scene}:empty`, { keep });
     log(`camera ${camera.id}: learned the empty synthetic scene (${model.components} components, ${modelVerdict(model).level})`);
-    return model;
+    return { model, id };
   }
   log(`camera ${camera.id}: no model yet; learning from the first ${camera.learnSeconds} s of frames — keep the view empty`);
   return undefined;
 }
 
+/** The id of a kept model stored from `file` with the same content as `model`, if any. */
+function keptCopy(store: Store, camera: string, file: string, model: Subspace): number | undefined {
+  const bytes = encodeModel(model, {}, model.colour);
+  for (const info of store.listModels(camera).reverse()) {
+    if ((info.metadata as { source?: unknown } | null)?.source !== file) continue;
+    const record = store.getModel(info.id);
+    if (!record) continue;
+    try {
+      const kept = withColour(decodeModel(Buffer.from(record.data), `stored model ${info.id}`));
+      if (encodeModel(kept, {}, kept.colour).equals(bytes)) return info.id;
+    } catch {
+      // an unreadable kept model is no copy of the file
+    }
+  }
+  return undefined;
+}
+
 /** The service as the HTTP layer sees it (see ServiceControl). */
-function serviceControl(store: Store, hosts: ReadonlyMap<string, CameraHost>): ServiceControl {
+function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts: ReadonlyMap<string, CameraHost>, cameras: readonly CameraConfig[]): ServiceControl {
   const control = new EventEmitter() as ServiceControl;
+  const sizes = new Map(cameras.map((c) => [c.id, c.source.size]));
+  /** Verdicts of kept models by id (models stored before their findings were kept are decoded once). */
+  const verdicts = new Map<number, StoredVerdict>();
+  const kept = (info: ModelInfo): KeptModel => {
+    let verdict = verdicts.get(info.id);
+    if (!verdict) {
+      verdict = storedVerdict(info, () => store.getModel(info.id)?.data);
+      verdicts.set(info.id, verdict);
+    }
+    const m = (info.metadata ?? {}) as { frames?: unknown; source?: unknown };
+    return {
+      id: info.id,
+      learnedAt: info.created,
+      frames: typeof m.frames === 'number' ? m.frames : null,
+      components: info.components,
+      width: info.width,
+      height: info.height,
+      source: typeof m.source === 'string' ? m.source : null,
+      verdict,
+      active: info.active,
+      rejected: info.rejected,
+    };
+  };
   const host = (camera: string) => {
     const h = hosts.get(camera);
     if (!h) throw new RangeError(`no camera "${camera}"`);
@@ -333,7 +393,8 @@ function serviceControl(store: Store, hosts: ReadonlyMap<string, CameraHost>): S
     modelSummary(camera: string) {
       const model = host(camera).model();
       if (!model) return undefined;
-      return { width: model.width, height: model.height, components: model.components, retainedVariance: model.retainedVariance, frames: model.frameCount, verdict: modelVerdict(model) };
+      const id = host(camera).modelId();
+      return { ...(id !== undefined && { id }), width: model.width, height: model.height, components: model.components, retainedVariance: model.retainedVariance, frames: model.frameCount, verdict: modelVerdict(model) };
     },
     maskPreview(camera: string, cell = 4): SmallImage | undefined {
       const mask = host(camera).lastMask();
@@ -347,6 +408,53 @@ function serviceControl(store: Store, hosts: ReadonlyMap<string, CameraHost>): S
     },
     learn: (camera: string, seconds: number) => host(camera).relearn(seconds),
     learnStatus: (camera: string) => hosts.get(camera)?.learnStatus(),
+    models(camera: string) {
+      if (!hosts.has(camera)) return undefined;
+      const list = store.listModels(camera);
+      // Forget verdicts of models deleted since (bounded by what is kept).
+      for (const id of verdicts.keys()) if (!list.some((m) => m.id === id)) verdicts.delete(id);
+      return list.reverse().map(kept);
+    },
+    activateModel(camera: string, id: number, by: string) {
+      const h = host(camera);
+      const record = Number.isSafeInteger(id) && id >= 1 ? store.getModel(id) : undefined;
+      if (!record || record.camera !== camera) return undefined;
+      const size = sizes.get(camera)!;
+      if (record.width !== size.width || record.height !== size.height) {
+        throw new ModelChoiceError(`model ${id} was learned at ${record.width}×${record.height} but camera ${camera} works at ${size.width}×${size.height}`);
+      }
+      let model: Subspace;
+      try {
+        model = withColour(decodeModel(Buffer.from(record.data), `stored model ${id}`));
+      } catch (error) {
+        throw new ModelChoiceError(`model ${id} cannot be read (${(error as Error).message})`);
+      }
+      const previous = store.activeModelId(camera);
+      const changed = previous !== id || h.modelId() !== id;
+      if (previous !== id) {
+        store.activateModel(camera, id);
+        const { level } = kept(record).verdict;
+        try {
+          events.insertEvent({
+            camera,
+            type: 'model-activated',
+            detail: {
+              model: id,
+              by,
+              previous: previous ?? null,
+              learnedAt: record.created,
+              level,
+              text: `Model ${id}, learned ${new Date(record.created).toISOString()}, was put to use by the ${by}${previous === undefined ? '' : ` instead of model ${previous}`}.`,
+            },
+          });
+        } catch {
+          // the active model is the record; an event that cannot be stored does not undo the change
+        }
+      }
+      if (changed) h.useModel(model, id);
+      const info = store.listModels(camera).find((m) => m.id === id)!;
+      return { model: kept(info), changed };
+    },
   });
   return control;
 }

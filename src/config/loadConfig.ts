@@ -50,6 +50,12 @@ export interface ResiduumConfig {
   /** HTTP server: listen address and port; `viewToken` true = reading counts needs a key too. */
   readonly server: { readonly host: string; readonly port: number; readonly viewToken: boolean };
   readonly cameras: readonly CameraConfig[];
+  /**
+   * Learned empty-scene models: `keep` per camera (1..50, default 5), the one in use among them;
+   * older ones are deleted after each new one is stored (about 4 MB each at 320×240). Always
+   * filled in by validateConfig; a configuration built in code may leave it out (then 5).
+   */
+  readonly models?: { readonly keep: number };
   /** MQTT publishing of counts and events (optional). */
   readonly mqtt?: MqttSettings;
 }
@@ -122,7 +128,7 @@ export function validateCommonSections(root: Record<string, unknown>, fail: Fail
  */
 export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   const fail = configFail(file);
-  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'cameras', 'mqtt']);
+  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'models', 'cameras', 'mqtt']);
   const common = validateCommonSections(root, fail, 'Residuum site');
   const cameras = root.cameras;
   if (!Array.isArray(cameras) || cameras.length === 0) fail('cameras', 'must be a list of at least one camera');
@@ -134,9 +140,11 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
     seen.add(camera.id);
     return camera;
   });
+  const models = record(root.models ?? {}, 'models', fail, ['keep']);
   return {
     file,
     ...common,
+    models: { keep: int(models.keep ?? 5, 'models.keep', fail, 1, 50) },
     cameras: parsed,
     ...(root.mqtt !== undefined && { mqtt: validateMqttSettings(root.mqtt, { file, base }) }),
   };

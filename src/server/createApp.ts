@@ -19,6 +19,7 @@ import { healthRoutes } from './routes/health.ts';
 import { historyRoutes } from './routes/history.ts';
 import { learnRoutes } from './routes/learn.ts';
 import { liveRoutes } from './routes/live.ts';
+import { modelRoutes } from './routes/models.ts';
 import { personSizeRoutes } from './routes/personSize.ts';
 import { settingsRoutes } from './routes/settings.ts';
 import type { ServiceControl } from './serviceControl.ts';
@@ -134,6 +135,7 @@ export function createApp(deps: AppDeps): express.Express {
   api.use(exportRoutes(ctx));
   api.use(cameraRoutes(ctx));
   api.use(learnRoutes(ctx));
+  api.use(modelRoutes(ctx));
   api.use(personSizeRoutes(ctx));
   api.use(settingsRoutes(ctx));
   api.use(capacityRoutes(ctx));

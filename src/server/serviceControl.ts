@@ -12,12 +12,35 @@ export interface SmallImage {
 
 /** Figures of a camera's current model, for the dashboard. */
 export interface ModelSummary {
+  /** Its stored id, when it is stored. */
+  readonly id?: number;
   readonly width: number;
   readonly height: number;
   readonly components: number;
   readonly retainedVariance: number;
   readonly frames: number;
   readonly verdict: ModelVerdict;
+}
+
+/** One of a camera's kept models, as the admin's list shows it: figures and verdict, never pixels. */
+export interface KeptModel {
+  readonly id: number;
+  /** When it was learned (stored), UTC epoch ms. */
+  readonly learnedAt: number;
+  /** Learning frames it was fitted to; null when not recorded. */
+  readonly frames: number | null;
+  /** Eigen-images kept. */
+  readonly components: number;
+  readonly width: number;
+  readonly height: number;
+  /** Where it came from: `live source`, a model file, `synthetic:<scene>:empty`, …; null when not recorded. */
+  readonly source: string | null;
+  /** Its verdict when it was learned: level and findings in plain sentences. */
+  readonly verdict: Pick<ModelVerdict, 'level' | 'findings'>;
+  /** The camera counts with it. */
+  readonly active: boolean;
+  /** Learned but judged not usable, so it was not put to use then. */
+  readonly rejected: boolean;
 }
 
 /**
@@ -47,4 +70,18 @@ export interface ServiceControl extends EventEmitter {
   /** Starts learning the empty scene from the next `seconds` of the live source. */
   learn(camera: string, seconds: number): LearnStatus;
   learnStatus(camera: string): LearnStatus | undefined;
+  /** The camera's kept models, newest first; undefined for an unknown camera. */
+  models(camera: string): readonly KeptModel[] | undefined;
+  /**
+   * Makes kept model `id` the camera's active model and has the camera count with it from its
+   * next frame (no restart); stores a `model-activated` event naming the model and `by`.
+   * Undefined when the camera has no model `id`; throws RangeError for an unknown camera and
+   * ModelChoiceError for a model that does not fit the camera (another working size, unreadable).
+   */
+  activateModel(camera: string, id: number, by: string): { readonly model: KeptModel; readonly changed: boolean } | undefined;
+}
+
+/** A kept model that cannot be put to use (another working size than the camera's, or unreadable). */
+export class ModelChoiceError extends Error {
+  override name = 'ModelChoiceError';
 }

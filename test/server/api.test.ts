@@ -214,6 +214,8 @@ describe('authentication', () => {
     ['PUT', '/api/settings', { nearCapacity: 0.9 }],
     ['GET', `/api/cameras/${CAMERA}/background.png`, undefined],
     ['GET', `/api/cameras/${CAMERA}/mask`, undefined],
+    ['GET', `/api/cameras/${CAMERA}/models`, undefined],
+    ['POST', `/api/cameras/${CAMERA}/models/1/activate`, undefined],
   ];
 
   it('refuses every change, the background and the mask without a key (401)', async () => {

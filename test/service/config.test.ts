@@ -150,6 +150,27 @@ describe('loadConfig refuses a bad configuration file, naming the file and the f
     expectConfigError(write(doc), 'cameras[0].sampleSeconds', 'must be a number from 1 to 3600, got -5');
   });
 
+  it('models.keep out of 1..50, not a whole number, or a misspelt key; 5 by default', () => {
+    expect(loadConfig(write(base())).models).toEqual({ keep: 5 });
+    const keep = (value: unknown) => {
+      const doc = base();
+      doc.models = { keep: value };
+      return write(doc);
+    };
+    expect(loadConfig(keep(1)).models).toEqual({ keep: 1 });
+    expect(loadConfig(keep(50)).models).toEqual({ keep: 50 });
+    expectConfigError(keep(0), 'models.keep', 'must be a whole number from 1 to 50, got 0');
+    expectConfigError(keep(51), 'models.keep', 'must be a whole number from 1 to 50, got 51');
+    expectConfigError(keep(2.5), 'models.keep', 'must be a whole number from 1 to 50, got 2.5');
+    expectConfigError(keep('5'), 'models.keep', 'must be a whole number from 1 to 50, got "5"');
+    const typo = base();
+    typo.models = { kep: 5 };
+    expectConfigError(write(typo), 'models.kep', 'is not a known setting here (known: keep)');
+    const list = base();
+    list.models = [5];
+    expectConfigError(write(list), 'models', 'must be a mapping');
+  });
+
   it('a file that is not YAML, and a missing file', () => {
     const file = write('cameras: [ {id: x\n');
     expect(() => loadConfig(file)).toThrow(ConfigError);
@@ -203,5 +224,6 @@ describe('config/demo.yaml', () => {
     expect(config.cameras[0].zones.map((z) => z.id)).toEqual(['entrance', 'stacks', 'tables']);
     expect(config.cameras[1].zones.map((z) => z.kind)).toEqual(['shelf', 'shelf', 'shelf']);
     for (const camera of config.cameras) expect(camera.source).toMatchObject({ kind: 'synthetic', size: { width: 320, height: 240 } });
+    expect(config.models).toEqual({ keep: 5 });
   });
 });
