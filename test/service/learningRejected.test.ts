@@ -1,7 +1,6 @@
-import { mkdirSync, mkdtempSync, renameSync, rmSync, utimesSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import sharp from 'sharp';
 import { afterAll, describe, expect, it } from 'vitest';
 import { stringify } from 'yaml';
 import { startService, type RunningService } from '../../src/commands/run.ts';
@@ -9,6 +8,7 @@ import { loadConfig } from '../../src/config/loadConfig.ts';
 import { createScene } from '../../src/frames/synthetic/index.ts';
 import { mulberry } from '../helpers/random.ts';
 import { jsonOf, READING_ROOM_ZONES } from '../server/testService.ts';
+import { dropSnapshots, noiseFrames } from './dropSnapshots.ts';
 import { waitUntil } from './waitUntil.ts';
 
 // The service end to end: a camera that uploads snapshots into a drop folder learns the empty
@@ -27,21 +27,8 @@ afterAll(async () => {
   rmSync(root, { recursive: true, force: true });
 });
 
-let written = 0;
-const start = Date.now() - 3_600_000;
-/** Writes frames as PNG snapshots, named and timed in order, 100 ms apart. */
-async function upload(frames: Float32Array[]): Promise<void> {
-  for (const data of frames) {
-    const pixels = Buffer.from(Uint8Array.from(data, (v) => Math.max(0, Math.min(255, Math.round(v)))));
-    const name = join(drop, `snap-${String(written).padStart(5, '0')}.png`);
-    writeFileSync(`${name}.part`, await sharp(pixels, { raw: { ...size, channels: 1 } }).png().toBuffer());
-    const at = new Date(start + written * 100);
-    utimesSync(`${name}.part`, at, at);
-    // Renamed when complete, as the README asks of uploaders (the rename keeps the time).
-    renameSync(`${name}.part`, name);
-    written++;
-  }
-}
+const snapshots = dropSnapshots(drop, size, Date.now() - 3_600_000);
+const upload = snapshots.upload;
 
 describe('learning again from a live camera', () => {
   it('keeps counting with the model it had when the new one is poor, and says why', async () => {
@@ -82,8 +69,7 @@ describe('learning again from a live camera', () => {
     // "Learn again" from the dashboard, while frames of no one scene arrive.
     const res = await fetch(`${base}/api/cameras/door/learn`, { method: 'POST', headers: admin, body: JSON.stringify({ seconds: 2 }) });
     expect(res.status).toBe(202);
-    const random = mulberry(9);
-    await upload(Array.from({ length: 30 }, () => Float32Array.from({ length: size.width * size.height }, () => Math.floor(random() * 256))));
+    await upload(noiseFrames(30, size, mulberry(9)));
     await waitUntil(() => control.learnStatus('door')?.state === 'rejected', { what: 'the second learning to be rejected' });
 
     // What the dashboard reads: the status says it was not used, and why.
@@ -105,7 +91,7 @@ describe('learning again from a live camera', () => {
     // check: the synthetic scene's own truth: people at the reading tables in all these frames
     const people = Array.from({ length: 30 }, (_, i) => scene.frameAt(600 + i));
     expect(people.every((f) => f.truth.tables.count > 1)).toBe(true);
-    const rejectedAt = start + written * 100;
+    const rejectedAt = snapshots.next();
     await upload(people.map((f) => f.frame.data));
     await waitUntil(
       () => {

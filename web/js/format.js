@@ -10,6 +10,13 @@ export const statusWords = {
   stopped: 'Stopped',
 };
 
+/** A learned empty scene's verdict in plain words. */
+export const verdictWords = {
+  good: 'Good',
+  fair: 'Usable, with limits',
+  poor: 'Poor',
+};
+
 export const levelWords = {
   below: 'Room to spare',
   near: 'Filling up',

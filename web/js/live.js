@@ -64,7 +64,9 @@ function cameraCard(c, tz, now) {
   const reason = statusReason(c, now);
   const learning = c.learn && c.learn.state === 'learning' && c.status === 'counting'
     ? h('p', { class: 'learn-line' }, `Learning the empty scene again: ${Math.round(c.learn.progress * 100)} % — counts use the old model meanwhile.`)
-    : null;
+    : c.learn && c.learn.state === 'rejected' && c.learn.modelId !== c.modelId
+      ? h('p', { class: 'learn-line' }, `The empty scene learned last was not used: ${c.learn.reason ?? 'it turned out poor'}. Counts go on with the one from before.`)
+      : null;
   return h(
     'article',
     { class: 'camera', dataset: { camera: c.camera, status: c.status, frameAt: c.lastFrameAt ?? '' } },

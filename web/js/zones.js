@@ -4,7 +4,7 @@
 // Coordinates are normalised like the server's: x 0..1 from the left, y 0..1 from the top.
 import { api, apiBlob, explain } from './api.js';
 import { $, $$, h, replace } from './dom.js';
-import { dateTime, percent } from './format.js';
+import { dateTime, percent, verdictWords } from './format.js';
 
 const COLOURS = ['#2c5d6e', '#8a5a9e', '#b5651d', '#3d7a57', '#9e3d5a', '#4f6aa8', '#7a7a2e'];
 const HIT_PX = 9;
@@ -52,6 +52,8 @@ export function createZonesView(app) {
   let mask;
   let maskTimer;
   let learnTimer;
+  /** Stored id of the empty scene the camera counts with, when known. */
+  let inUse;
   let visible = false;
 
   // ---- loading ----------------------------------------------------------------------------
@@ -72,6 +74,7 @@ export function createZonesView(app) {
 
   async function selectCamera(id) {
     camera = cameras.find((c) => c.id === id);
+    inUse = undefined;
     if (!camera) return;
     saved = camera.zones.map(clone);
     draft = saved.map(clone);
@@ -93,6 +96,7 @@ export function createZonesView(app) {
     renderDirty();
     draw();
     loadModel();
+    loadKept();
     loadHistory();
     restartMask();
   }
@@ -979,6 +983,7 @@ export function createZonesView(app) {
       );
       replace($('#model-findings'), m.verdict.findings.map((f) => h('li', {}, f)));
     }
+    inUse = m?.id;
     showLearn(info.status);
   }
 
@@ -990,6 +995,7 @@ export function createZonesView(app) {
     $('#learn-start').disabled = learning;
     $('#learn-start').textContent = !learning ? 'Learn again' : status.progress >= 0.98 ? 'Fitting the model…' : `Learning… ${Math.round(status.progress * 100)} %`;
     if (status?.state === 'failed') $('#learn-error').textContent = `Learning failed: ${status.error}`;
+    showLearnNote(status);
     if (learning && !learnTimer) learnTimer = setInterval(pollLearn, 1000);
     if (!learning && learnTimer) {
       clearInterval(learnTimer);
@@ -1007,6 +1013,7 @@ export function createZonesView(app) {
         await loadModel();
         await loadBackground();
         draw();
+        await loadKept();
       }
     } catch {
       // the next poll tries again
@@ -1025,6 +1032,96 @@ export function createZonesView(app) {
       $('#learn-error').textContent = explain(e);
     }
   });
+
+  /** What came of the last learning, in plain words: in use, in use although poor, or not used and why. */
+  function showLearnNote(status) {
+    const note = $('#learn-note');
+    const when = status?.finishedAt ? dateTime(status.finishedAt, app.site.timeZone) : '';
+    let text = '';
+    let tone = 'done';
+    if (status?.state === 'rejected' && status.modelId !== undefined && status.modelId === inUse) {
+      text = `The empty scene learned ${when} was not used at first, as it turned out poor (${status.reason ?? 'no reason given'}). It has since been chosen from the kept ones and is in use.`;
+      tone = 'poor';
+    } else if (status?.state === 'rejected') {
+      text = `The empty scene learned ${when} was not used: ${status.reason ?? 'it turned out poor'}. The camera kept counting with the empty scene it had.`;
+      tone = 'rejected';
+    } else if (status?.state === 'done' && status.verdict?.level === 'poor') {
+      text = `The empty scene learned ${when} is in use, but it is poor: ${status.reason}. It was used because the camera had none; learn again when the view is empty.`;
+      tone = 'poor';
+    } else if (status?.state === 'done' && status.verdict) {
+      text = `The empty scene learned ${when} is in use (${verdictWords[status.verdict.level].toLowerCase()}).`;
+    }
+    note.textContent = text;
+    note.dataset.tone = tone;
+    note.hidden = text === '';
+  }
+
+  // ---- kept empty scenes (going back to one) ----------------------------------------------
+
+  async function loadKept() {
+    if (!camera) return;
+    const list = $('#kept-list');
+    const hint = $('#kept-hint');
+    $('#kept-error').textContent = '';
+    if (!app.isAdmin()) {
+      replace(list);
+      hint.textContent = 'The last few empty scenes learned are kept. Enter the admin key to see them and go back to one.';
+      return;
+    }
+    let models;
+    try {
+      models = (await api(`/api/cameras/${encodeURIComponent(camera.id)}/models`)).models;
+    } catch (e) {
+      $('#kept-error').textContent = explain(e);
+      return;
+    }
+    hint.textContent = models.length === 0
+      ? 'None yet.'
+      : 'Newest first. If counting got worse after learning again, go back to one that worked.';
+    const tz = app.site.timeZone;
+    replace(
+      list,
+      models.map((m) => {
+        const when = dateTime(m.learnedAt, tz);
+        const words = verdictWords[m.verdict.level] ?? m.verdict.level;
+        return h(
+          'li',
+          { class: 'kept', dataset: { model: m.id, active: m.active, level: m.verdict.level } },
+          h(
+            'div',
+            { class: 'kept-head' },
+            h('span', { class: 'kept-when' }, when),
+            m.active ? h('span', { class: 'kept-badge' }, 'In use') : null,
+            m.rejected ? h('span', { class: 'kept-badge rejected' }, 'Not used when learned') : null,
+          ),
+          h('p', { class: 'kept-verdict' }, h('span', { class: 'verdict', dataset: { level: m.verdict.level } }, words), ` — ${m.verdict.findings[0] ?? ''}`),
+          m.active
+            ? null
+            : h('button', { type: 'button', class: 'quiet kept-use', 'aria-label': `Use the empty scene learned ${when}`, onclick: () => useKept(m, when) }, 'Use this one'),
+        );
+      }),
+    );
+  }
+
+  async function useKept(m, when) {
+    if (!camera) return;
+    $('#kept-error').textContent = '';
+    $('#kept-ok').textContent = '';
+    if (m.verdict.level === 'poor' && !window.confirm(`This empty scene was judged poor: ${m.verdict.findings[0] ?? ''}. Counting may be wrong with it. Use it anyway?`)) return;
+    try {
+      await api(`/api/cameras/${encodeURIComponent(camera.id)}/models/${encodeURIComponent(m.id)}/activate`, { method: 'POST' });
+    } catch (e) {
+      $('#kept-error').textContent = explain(e);
+      return;
+    }
+    $('#kept-ok').textContent = `Counting now uses the empty scene learned ${when}.`;
+    await loadKept();
+    await loadModel();
+    await loadBackground();
+    draw();
+    $('#kept-list .kept[data-active="true"]')?.setAttribute('tabindex', '-1');
+    $('#kept-list .kept[data-active="true"]')?.focus();
+  }
 
   // ---- change history ---------------------------------------------------------------------
 
@@ -1090,6 +1187,7 @@ export function createZonesView(app) {
   app.onRole(async () => {
     if (!visible || !camera) return;
     errorEl.textContent = '';
+    loadKept();
     await loadBackground();
     sizeCanvas();
     draw();
@@ -1106,6 +1204,7 @@ export function createZonesView(app) {
         draw();
         restartMask();
         loadModel();
+        loadKept();
       }
     },
     hide() {
