@@ -1,12 +1,15 @@
 /**
- * Synthetic scenes for the demo and the tests: a library reading room (people) and a stock room
- * (boxes on shelves), deterministic from a seed, with exact truth per zone.
+ * Synthetic scenes for the demo and the tests: a library reading room (people), a stock room
+ * (boxes on shelves) and a sunny town square seen with strong perspective (passers-by and their
+ * shadows, never empty), deterministic from a seed, with exact truth per zone.
  */
+import { createPlaza, type PlazaOptions, type PlazaScene } from './plaza.ts';
 import { createReadingRoom, type ReadingRoomOptions, type ReadingRoomScene } from './readingRoom.ts';
 import { createStockRoom, type StockRoomOptions, type StockRoomScene } from './stockRoom.ts';
 
 export { createReadingRoom, type ReadingRoomOptions, type ReadingRoomScene } from './readingRoom.ts';
 export { createStockRoom, type StockRoomOptions, type StockRoomScene } from './stockRoom.ts';
+export { createPlaza, type PlazaOptions, type PlazaScene } from './plaza.ts';
 export { syntheticFrames, type SyntheticFramesOptions } from './syntheticFrames.ts';
 export { random, type Random } from './random.ts';
 export {
@@ -20,13 +23,14 @@ export {
 } from './scene.ts';
 
 /** Ids accepted by {@link createScene}. */
-export const sceneIds = ['reading-room', 'stock-room'] as const;
+export const sceneIds = ['reading-room', 'stock-room', 'plaza'] as const;
 export type SceneId = (typeof sceneIds)[number];
 
 /** Options per scene id. */
 export interface SceneOptionsById {
   'reading-room': ReadingRoomOptions;
   'stock-room': StockRoomOptions;
+  plaza: PlazaOptions;
 }
 
 /**
@@ -37,13 +41,22 @@ export interface SceneOptionsById {
  */
 export function createScene(id: 'reading-room', options?: ReadingRoomOptions): ReadingRoomScene;
 export function createScene(id: 'stock-room', options?: StockRoomOptions): StockRoomScene;
-export function createScene(id: SceneId, options?: ReadingRoomOptions | StockRoomOptions): ReadingRoomScene | StockRoomScene;
-export function createScene(id: SceneId, options: ReadingRoomOptions | StockRoomOptions = {}): ReadingRoomScene | StockRoomScene {
+export function createScene(id: 'plaza', options?: PlazaOptions): PlazaScene;
+export function createScene(
+  id: SceneId,
+  options?: ReadingRoomOptions | StockRoomOptions | PlazaOptions,
+): ReadingRoomScene | StockRoomScene | PlazaScene;
+export function createScene(
+  id: SceneId,
+  options: ReadingRoomOptions | StockRoomOptions | PlazaOptions = {},
+): ReadingRoomScene | StockRoomScene | PlazaScene {
   switch (id) {
     case 'reading-room':
       return createReadingRoom(options as ReadingRoomOptions);
     case 'stock-room':
       return createStockRoom(options as StockRoomOptions);
+    case 'plaza':
+      return createPlaza(options as PlazaOptions);
     default:
       throw new RangeError(`scene id must be one of ${sceneIds.join(', ')}, got ${JSON.stringify(id)}`);
   }
