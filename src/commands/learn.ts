@@ -17,12 +17,14 @@ import { progressLine } from './progressLine.ts';
 
 export const learnUsage = `residuum learn --frames <folder|video|synthetic:scene:empty> --out <model file>
                 [--width W] [--components K | --variance V] [--max-components N]
-                [--every N] [--limit N] [--robust] [--colour]
+                [--every N] [--limit N] [--plain] [--colour]
        residuum learn --config <file> --camera <id> --seconds N [--data <folder>] [--out <model file>]
 
-Learns the empty scene: a mean image and a few eigen-images from frames with nobody in them.
+Learns the empty scene: a mean image and a few eigen-images. The frames may show people
+passing through: they are set aside while learning (robust PCA), so that only the empty scene
+is kept; the report says how much was set aside, and the verdict is "poor" when too much moved.
   --frames          a folder of images (JPEG, PNG, WebP, …), a video file ffmpeg reads, or
-                    synthetic:<scene>:empty
+                    synthetic:<scene> (synthetic:<scene>:empty for the scene without people)
   --out             the model file to write
   --width           working width in pixels (default: long side 320, aspect kept)
   --components      number of eigen-images to keep (default: by --variance)
@@ -30,7 +32,8 @@ Learns the empty scene: a mean image and a few eigen-images from frames with nob
   --max-components  upper bound when choosing by variance (default 12)
   --every           use one frame in N (default 1)
   --limit           use at most N frames (default 500)
-  --robust          the frames may show people passing through: reject them while learning
+  --plain           plain PCA for frames known to be empty (faster; anyone passing through would
+                    be learned into the empty scene). --robust, the default, is still accepted
   --colour          also learn the empty scene's colour statistics, for count/evaluate --colour
                     (shadow suppression); folders of images and synthetic:shadow-room:empty only
   --config, --camera, --seconds
@@ -50,6 +53,7 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     every: { type: 'string' },
     limit: { type: 'string' },
     robust: { type: 'boolean' },
+    plain: { type: 'boolean' },
     colour: { type: 'boolean' },
     config: { type: 'string' },
     camera: { type: 'string' },
@@ -103,8 +107,10 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     io.err.write(`residuum learn: all ${data.length} frames of ${frames} are the same picture; at least 2 different ones are needed\n`);
     return 1;
   }
-  const model = fitSubspace(distinct, size, { components, variance, maxComponents, robustIterations: v.robust ? 2 : 0 });
-  const colour = v.colour ? fitChromaticity(distinctColours, size, { robust: v.robust === true }) : undefined;
+  if (v.plain && v.robust) throw new UsageError('give --plain or --robust, not both');
+  const robust = v.plain !== true;
+  const model = fitSubspace(distinct, size, { components, variance, maxComponents, robustIterations: robust ? 2 : 0 });
+  const colour = v.colour ? fitChromaticity(distinctColours, size, { robust }) : undefined;
   await saveModel(out, model, {
     learnedAt: new Date().toISOString(),
     source: frames,
@@ -127,7 +133,7 @@ function printReport(out: NodeJS.WritableStream, model: SubspaceFit, repeated: n
     ['frames used', `${model.frameCount}${[repeated && `${repeated} repeated dropped`, skipped && `${skipped} unreadable skipped`].filter(Boolean).join(', ').replace(/^(.+)$/, ' ($1)')}`],
     ['working size', `${model.width}×${model.height}`],
     ['components kept', String(model.components)],
-    ...(model.rejectedShare > 0 ? [['rejected', `${(model.rejectedShare * 100).toFixed(1)} % of learning pixels as foreground`] as [string, string]] : []),
+    ...(model.rejectedShare > 0 ? [['set aside', `${(model.rejectedShare * 100).toFixed(1)} % of learning pixels (people or motion), in ${(model.busyFrameShare * 100).toFixed(0)} % of the frames`] as [string, string]] : []),
     ['variance retained', `${(model.retainedVariance * 100).toFixed(1)} %`],
     ['residual noise', `${verdict.medianNoise.toFixed(2)} grey levels (median per pixel; 95th percentile ${verdict.noiseP95.toFixed(2)})`],
     ['verdict', `${verdict.level}: ${verdict.findings[0]}`],
@@ -188,7 +194,7 @@ async function learnFromCamera(
     io.err.write(`residuum learn: got ${frames.length} frame${frames.length === 1 ? '' : 's'} (${distinct.length} distinct) from ${id}; at least 2 are needed\n`);
     return 1;
   }
-  const model = fitSubspace(distinct, camera.source.size, { components, variance, maxComponents, robustIterations: v.robust ? 2 : 0 });
+  const model = fitSubspace(distinct, camera.source.size, { components, variance, maxComponents, robustIterations: v.plain ? 0 : 2 });
   const info = { learnedAt: new Date().toISOString(), source: `camera ${id}`, settings: { seconds, components, variance, maxComponents } };
   const store = openStore(join(resolve((v.data as string | undefined) ?? 'data'), 'residuum.db'), { timeZone: config.site.timeZone });
   // Judged before it is put to use: a poor model is kept as rejected while the camera has one.

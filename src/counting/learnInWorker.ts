@@ -6,7 +6,7 @@ import type { FitSubspaceOptions, SubspaceFit } from '../vision/fitSubspace.ts';
  * start without a model): robustly, rejecting people who pass through (`robustIterations` ≥ 1,
  * see fitSubspace), since a room is rarely quite empty for the whole learning time.
  */
-export const liveLearning: FitSubspaceOptions = Object.freeze({ robustIterations: 1 });
+export const liveLearning: FitSubspaceOptions = Object.freeze({ robustIterations: 2 });
 
 /**
  * Fits the empty-scene subspace (after dropping repeated frames) in a worker thread, so that a

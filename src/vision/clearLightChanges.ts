@@ -1,0 +1,131 @@
+import { outputMask, type GreyFrame, type Mask } from '../frames/frame.ts';
+
+export interface ClearLightChangesOptions {
+  /** Half-size of the square window compared around each pixel, pixels (whole number ≥ 1); default 3 (7×7). */
+  radius?: number;
+  /** Smallest normalised cross-correlation of frame and background in the window for a change of light (−1..1, inclusive); default 0.8. */
+  minCorrelation?: number;
+  /** Brightness ratio frame ÷ background a change of light may have, both bounds inclusive; default [0.35, 3]. */
+  gain?: readonly [number, number];
+  /**
+   * Where the background has no texture to compare (its standard deviation in the window at most
+   * `flatLevel` noise levels), is a uniform change of brightness light (`'light'`) or left as it
+   * was (`'keep'`)? Default `'keep'`: a plain shirt over a plain floor looks just like a shadow.
+   */
+  flat?: 'light' | 'keep';
+  /** Background texture below this many noise levels (standard deviation in the window) is flat; default 2. */
+  flatLevel?: number;
+  /** Mask to write into (same size); default a new one. */
+  out?: Mask;
+  /** Work array for the summed-area tables, length at least 5 (width + 1)(height + 1); default a new one per call. */
+  scratch?: Float64Array;
+}
+
+/**
+ * Clears the set pixels of `candidates` whose change from `background` is a change of light, not
+ * something in front of it: around the pixel, the frame is the background's texture scaled by a
+ * brightness ratio (a shadow, a patch of sun, a lamp switched on), so the two correlate. A person
+ * replaces the texture instead. The test is the normalised cross-correlation of frame and
+ * background over a small window, as in texture-based shadow and illumination detection
+ * (D. Grest, J.-M. Frahm & R. Koch, "A color similarity measure for robust shadow removal in
+ * real time", VMV 2003; J. C. S. Jacques Jr., C. R. Jung & S. R. Musse, "Background subtraction
+ * and shadow detection in grayscale video sequences", SIBGRAPI 2005), with the brightness ratio
+ * (the window's mean frame ÷ mean background) held to `gain`. Window sums come from summed-area
+ * tables (Crow 1984), so the cost does not grow with the window.
+ *
+ * `noise` is the per-pixel noise level (grey levels) that tells texture from flat background.
+ *
+ * Example: background rows of stripes 80/120, frame the same stripes at 0.6 (48/72, a shadow),
+ * every pixel a candidate: all are cleared (correlation 1, ratio 0.6); a frame of uniform 30
+ * there keeps them all (no correlation with the stripes).
+ */
+export function clearLightChanges(
+  frame: GreyFrame,
+  background: GreyFrame,
+  candidates: Mask,
+  noise: Float32Array,
+  options: ClearLightChangesOptions = {},
+): Mask {
+  const { radius = 3, minCorrelation = 0.8, gain = [0.35, 3], flat = 'keep', flatLevel = 2, out, scratch } = options;
+  const { width, height } = frame;
+  if (background.width !== width || background.height !== height || candidates.width !== width || candidates.height !== height || noise.length !== width * height) {
+    throw new RangeError(`frame, background, candidates and noise must all be ${width}×${height}`);
+  }
+  if (!(Number.isInteger(radius) && radius >= 1)) throw new RangeError(`radius must be a whole number ≥ 1, got ${radius}`);
+  const result = outputMask(width, height, out);
+  result.data.set(candidates.data);
+  const f = frame.data;
+  const m = background.data;
+  const c = candidates.data;
+  let any = false;
+  for (let i = 0; i < c.length; i++) if (c[i]) {
+    any = true;
+    break;
+  }
+  if (!any) return result;
+
+  // Summed-area tables of f, m, f², m², f·m with a zero row and column in front.
+  const w1 = width + 1;
+  const size = w1 * (height + 1);
+  if (scratch !== undefined && scratch.length < 5 * size) throw new RangeError(`scratch must hold at least ${5 * size} values, got ${scratch.length}`);
+  const work = scratch ?? new Float64Array(5 * size);
+  const tables = [0, 1, 2, 3, 4].map((k) => work.subarray(k * size, (k + 1) * size));
+  // Row 0 and column 0 of each table are 0; every other entry is written below.
+  for (const t of tables) {
+    t.fill(0, 0, w1);
+    for (let y = 1; y <= height; y++) t[y * w1] = 0;
+  }
+  const [sf, sm, sff, smm, sfm] = tables;
+  for (let y = 0; y < height; y++) {
+    let rf = 0;
+    let rm = 0;
+    let rff = 0;
+    let rmm = 0;
+    let rfm = 0;
+    for (let x = 0; x < width; x++) {
+      const i = y * width + x;
+      const a = f[i];
+      const b = m[i];
+      rf += a;
+      rm += b;
+      rff += a * a;
+      rmm += b * b;
+      rfm += a * b;
+      const j = (y + 1) * w1 + x + 1;
+      const up = j - w1;
+      sf[j] = sf[up] + rf;
+      sm[j] = sm[up] + rm;
+      sff[j] = sff[up] + rff;
+      smm[j] = smm[up] + rmm;
+      sfm[j] = sfm[up] + rfm;
+    }
+  }
+  const boxSum = (t: Float64Array, x0: number, y0: number, x1: number, y1: number) => t[y1 * w1 + x1] - t[y0 * w1 + x1] - t[y1 * w1 + x0] + t[y0 * w1 + x0];
+  for (let y = 0; y < height; y++) {
+    const y0 = Math.max(0, y - radius);
+    const y1 = Math.min(height, y + radius + 1);
+    for (let x = 0; x < width; x++) {
+      const i = y * width + x;
+      if (!c[i]) continue;
+      const x0 = Math.max(0, x - radius);
+      const x1 = Math.min(width, x + radius + 1);
+      const n = (x1 - x0) * (y1 - y0);
+      const mf = boxSum(sf, x0, y0, x1, y1) / n;
+      const mm = boxSum(sm, x0, y0, x1, y1) / n;
+      if (!(mm > 1)) continue;
+      const ratio = mf / mm;
+      if (ratio < gain[0] || ratio > gain[1]) continue;
+      const vf = Math.max(0, boxSum(sff, x0, y0, x1, y1) / n - mf * mf);
+      const vm = Math.max(0, boxSum(smm, x0, y0, x1, y1) / n - mm * mm);
+      const level = flatLevel * noise[i];
+      if (vm <= level * level) {
+        // No texture to compare: a flat frame there is a uniform change of brightness.
+        if (flat === 'light' && vf <= (level * ratio) ** 2) result.data[i] = 0;
+        continue;
+      }
+      const cov = boxSum(sfm, x0, y0, x1, y1) / n - mf * mm;
+      if (vf > 0 && cov / Math.sqrt(vf * vm) >= minCorrelation) result.data[i] = 0;
+    }
+  }
+  return result;
+}
