@@ -1,5 +1,7 @@
 import { readFile } from 'node:fs/promises';
 import { createCounter, wholeFrameZone } from '../counting/createCounter.ts';
+import { createSequenceCounter, sceneMismatchWarning } from '../counting/createSequenceCounter.ts';
+import { findPersonSize, formatShare, type FoundPersonSize } from '../counting/findPersonSize.ts';
 import { loadModel, ModelFileError } from '../counting/modelFile.ts';
 import { parseZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
@@ -10,8 +12,14 @@ import { frameInput } from './frameInput.ts';
 
 export const countUsage = `residuum count --model <model file> --frames <folder|video|synthetic:scene>
                 [--zones <zones file>] [--json] [--threshold T] [--every N] [--limit N] [--colour]
+                [--fps N] [--each]
 
-Counts people per room zone and fill per shelf zone in each frame.
+Counts people per room zone and fill per shelf zone in each frame. Frames are taken as a
+sequence in time (a video, or images named in order): the background follows slow changes of
+light, and blobs are followed from frame to frame, so that a flicker of one frame does not count
+and people walking together keep their count. Room zones without a person size are given the one
+the frames show: people seen alone are measured first (a first pass over the frames), and how
+their size changes with distance is fitted and printed.
   --model      a model file from residuum learn
   --frames     a folder of images, a video file ffmpeg reads, or synthetic:<scene>
   --zones      zones file (YAML or JSON; see config/zones.example.yaml); default: one zone "all"
@@ -20,7 +28,9 @@ Counts people per room zone and fill per shelf zone in each frame.
   --every      count one frame in N (default 1)
   --limit      count at most N frames (default: all)
   --colour     discount cast shadows by colour (a model learned with --colour; a folder of images
-               or synthetic:shadow-room)`;
+               or synthetic:shadow-room)
+  --fps        frames per second of the sequence, for following slow light changes (default 10)
+  --each       count each frame on its own (images not in time order): no following, no drift`;
 
 /** `residuum count`: counts each frame of a source against a learned model. */
 export async function countCommand(argv: string[], io = { out: process.stdout, err: process.stderr }): Promise<number> {
@@ -33,6 +43,8 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
     every: { type: 'string' },
     limit: { type: 'string' },
     colour: { type: 'boolean' },
+    fps: { type: 'string' },
+    each: { type: 'boolean' },
   });
   const modelFile = requireOption(v.model, 'model', 'the model file written by residuum learn');
   const frames = requireOption(v.frames, 'frames', 'the folder, video or scene to count');
@@ -40,27 +52,35 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
   const every = numberOption(v.every, 'every', { min: 1, integer: true });
   const limit = numberOption(v.limit, 'limit', { min: 1, integer: true });
   if (v.json !== undefined && typeof v.json !== 'boolean') throw new UsageError('--json takes no value');
+  const framesPerSecond = numberOption(v.fps, 'fps', { min: 0.01, max: 1000 });
 
   const { model, colour } = await loadModel(modelFile);
   if (v.colour && colour === undefined) throw new ModelFileError(`${modelFile}: learned without colour statistics; learn it again with --colour`);
   const zones: Zone[] = v.zones ? parseZones(await readFile(v.zones, 'utf8').catch((e: NodeJS.ErrnoException) => {
     throw new UsageError(`--zones: cannot read ${v.zones} (${e.code === 'ENOENT' ? 'no such file' : e.message})`);
   }), v.zones) : [wholeFrameZone];
-  const grey = v.colour ? undefined : createCounter(model, zones, { threshold });
-  const inColour = v.colour && colour ? createCounter(model, zones, { threshold, colourModel: colour }) : undefined;
+  const source = { width: model.width, height: model.height, every, limit };
+  const open = () => (v.colour && colour ? frameInput(frames, { ...source, colour: true }) : frameInput(frames, source));
+  const found = await findPersonSize(model, zones, open(), { counter: { threshold } });
+  for (const line of personSizeReport(found)) io.err.write(`${line}\n`);
+  const options = { threshold, ...(v.colour && colour && { colourModel: colour }) };
+  const each = v.each === true || isSnapshots(found.continuity);
+  if (each && !v.each) io.err.write(`the frames look like separate pictures, not a sequence in time (${(found.continuity * 100).toFixed(0)} % of blobs overlap one in the frame before): each is counted on its own\n`);
+  const counter = each
+    ? createCounter(model, found.zones, options)
+    : createSequenceCounter(model, found.zones, { ...options, ...(framesPerSecond !== undefined && { framesPerSecond }) });
   const print = v.json ? jsonLine : tableWriter(zones);
 
   let counted = 0;
   let skipped = 0;
-  const source = { width: model.width, height: model.height, every, limit };
-  for await (const item of inColour ? frameInput(frames, { ...source, colour: true }) : frameInput(frames, source)) {
+  for await (const item of open()) {
     if (item.error) {
       skipped++;
       io.err.write(`skipped ${item.error.message}\n`);
       continue;
     }
     // In colour mode every good item carries its colour frame (frameInput with colour: true).
-    const result = inColour ? inColour.count(item.frame, (item as ColourFrameItem).colour!) : grey!.count(item.frame);
+    const result = counter.count(item.frame, (item as ColourFrameItem).colour);
     counted++;
     io.out.write(print(item.name, result));
   }
@@ -69,7 +89,44 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
     io.err.write(`residuum count: no frame of ${frames} could be counted\n`);
     return 1;
   }
+  const mismatch = 'summary' in counter ? sceneMismatchWarning(counter.summary()) : undefined;
+  if (mismatch) io.err.write(`warning: ${mismatch}\n`);
   return 0;
+}
+
+/**
+ * Whether frames are separate pictures rather than a sequence in time: fewer than 80 % of their
+ * blobs overlap a blob of the frame before (a video at a few frames per second or more keeps
+ * nearly all; pictures of a room taken minutes apart share only the people who sat still; rule
+ * of thumb of ours).
+ */
+export function isSnapshots(continuity: number): boolean {
+  return continuity < 0.8;
+}
+
+/** What the first pass found about the size of one person, in lines for the terminal. */
+export function personSizeReport(found: FoundPersonSize): string[] {
+  const lines: string[] = [];
+  const { suggestion } = found;
+  if (found.applied.length > 0) {
+    const zone = found.zones.find((z) => z.id === found.applied[0])!;
+    if (zone.perspective) {
+      const [a, b] = zone.perspective;
+      lines.push(
+        `person size: found in the frames (${suggestion.supporting} people seen alone agree): ${formatShare(a.area)} of the frame with the feet at ` +
+          `row ${a.y.toFixed(2)}, ${formatShare(b.area)} at row ${b.y.toFixed(2)} (0 top, 1 bottom); used for zone${found.applied.length > 1 ? 's' : ''} ${found.applied.join(', ')}`,
+      );
+    } else {
+      lines.push(`person size: ${formatShare(zone.personArea!)} of the frame, the median of ${suggestion.observations} people seen alone (${suggestion.message}); used for zone${found.applied.length > 1 ? 's' : ''} ${found.applied.join(', ')}`);
+    }
+  } else {
+    const unset = found.zones.filter((z) => z.kind === 'room' && z.personArea === undefined && z.perspective === undefined).map((z) => z.id);
+    if (unset.length > 0) {
+      lines.push(`warning: person size not found in the frames (${suggestion.message}); zone${unset.length > 1 ? 's' : ''} ${unset.join(', ')} assume the default of 0.8 % of the frame per person — give personArea in the zones file if counts look off`);
+    }
+  }
+  for (const m of found.mismatches) lines.push(`warning: ${m}`);
+  return lines;
 }
 
 /** `{"frame":…,"total":…,"zones":{"<id>":{"count":…,"fill":…}}}` and a newline. */

@@ -4,6 +4,10 @@ import sharp from 'sharp';
 import { addConfusion, CdnetLabel, cdnetMetrics, type CdnetMetrics, type Confusion } from '../counting/cdnetMetrics.ts';
 import { createCounter, wholeFrameZone } from '../counting/createCounter.ts';
 import { createMog2Counter } from '../counting/createMog2Counter.ts';
+import { createSequenceCounter, sceneMismatchWarning, type SequenceCounter } from '../counting/createSequenceCounter.ts';
+import { findPersonSize } from '../counting/findPersonSize.ts';
+import { createBlobFollower } from '../counting/followBlobs.ts';
+import { isSnapshots, personSizeReport } from './count.ts';
 import { loadModel, ModelFileError } from '../counting/modelFile.ts';
 import { parseZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
@@ -12,13 +16,17 @@ import type { FrameItem, GreyFrame, Mask } from '../frames/frame.ts';
 import type { ChromaticityModel } from '../vision/chromaticityModel.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { loadOpenCv } from '../vision/loadOpenCv.ts';
-import { parseOptions, requireOption, UsageError } from './args.ts';
+import { numberOption, parseOptions, requireOption, UsageError } from './args.ts';
 import { frameInput } from './frameInput.ts';
 
 export const evaluateUsage = `residuum evaluate --model <model file> --frames <folder|video|synthetic:scene> --truth <file|folder>
                    [--zones <zones file>] [--method subspace|mog2|both] [--colour] [--json]
+                   [--fps N] [--each] [--worst N]
 
-Compares counts (and foreground masks) with ground truth.
+Compares counts (and foreground masks) with ground truth, and lists the frames counted worst.
+Frames are counted as residuum count counts them: as a sequence in time, with the person size
+found in the frames for room zones that give none (both methods get the same zones and the same
+following of blobs from frame to frame).
   --truth   a JSON file of per-frame, per-zone counts: {"frames": {"<frame>": {"<zone>": 2, …}, …}}
             (or the JSON lines that residuum count --json prints), or a folder of ground-truth
             masks named like the frames (CDnet labels: 255 foreground, 0 and 50 background,
@@ -28,7 +36,10 @@ Compares counts (and foreground masks) with ground truth.
   --colour  in colour: the subspace method discounts cast shadows (a model learned with
             --colour), MOG2 gets colour frames for its own shadow detection; a folder of images
             or synthetic:shadow-room
-  --json    one JSON object instead of a table`;
+  --json    one JSON object instead of a table
+  --fps     frames per second of the sequence (default 10)
+  --each    count each frame on its own: no following, no drift (images not in time order)
+  --worst   how many of the worst frames to list per method (default 5)`;
 
 /** Count errors of one zone. */
 export interface ZoneScore {
@@ -41,6 +52,14 @@ export interface ZoneScore {
   bias: number;
 }
 
+/** A frame among those counted worst: its name and the sum over zones of |counted − true|. */
+export interface WorstFrame {
+  readonly frame: string;
+  readonly error: number;
+  /** Per zone: counted and true. */
+  readonly zones: Record<string, { counted: number; truth: number }>;
+}
+
 /**
  * A detector to evaluate: the subspace method or the MOG2 baseline, in grey or in colour (the
  * subspace with shadow suppression, MOG2 on colour frames with its own shadow detection).
@@ -50,6 +69,10 @@ export type EvaluateMethod = 'subspace' | 'mog2' | 'subspace-colour' | 'mog2-col
 export interface MethodReport {
   readonly method: EvaluateMethod;
   readonly zones: Record<string, ZoneScore>;
+  /** The frames with the largest count error, worst first (frames with count truth only). */
+  readonly worst: readonly WorstFrame[];
+  /** Set when the frames do not look like the model's scene (see sceneMismatchWarning). */
+  readonly warning?: string;
   /**
    * CDnet metrics over all scored mask pixels (mask truth only), and `shadowFpr`: the share of
    * the pixels labelled shadow (CDnet 50) detected as foreground (NaN when none is labelled).
@@ -60,6 +83,16 @@ export interface MethodReport {
 export interface EvaluateOptions {
   /** The empty scene's colour statistics, needed by 'subspace-colour'. */
   colour?: ChromaticityModel;
+  /**
+   * Count the frames as a sequence in time (default true): the subspace method follows slow
+   * drift (createSequenceCounter), and both methods follow blobs from frame to frame. false
+   * counts each frame on its own.
+   */
+  sequence?: boolean;
+  /** Frames per second of the sequence; default 10. */
+  framesPerSecond?: number;
+  /** Worst frames listed per method (whole number ≥ 0); default 5. */
+  worst?: number;
 }
 
 type CountTruth = Map<string, Record<string, number>>;
@@ -74,8 +107,13 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
     method: { type: 'string' },
     colour: { type: 'boolean' },
     json: { type: 'boolean' },
+    fps: { type: 'string' },
+    each: { type: 'boolean' },
+    worst: { type: 'string' },
   });
   const modelFile = requireOption(v.model, 'model', 'the model file from residuum learn');
+  const framesPerSecond = numberOption(v.fps, 'fps', { min: 0.01, max: 1000 });
+  const worst = numberOption(v.worst, 'worst', { min: 0, max: 1000, integer: true });
   const frames = requireOption(v.frames, 'frames', 'the frames to evaluate on');
   const truthPath = requireOption(v.truth, 'truth', 'a JSON file of counts or a folder of masks');
   const method = v.method ?? 'subspace';
@@ -84,7 +122,7 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
   if (v.colour && colour === undefined && method !== 'mog2') {
     throw new ModelFileError(`${modelFile}: learned without colour statistics; learn it again with --colour`);
   }
-  const zones: Zone[] = v.zones ? parseZones(await readFile(v.zones, 'utf8'), v.zones) : [wholeFrameZone];
+  const givenZones: Zone[] = v.zones ? parseZones(await readFile(v.zones, 'utf8'), v.zones) : [wholeFrameZone];
   const truthIsFolder = (await stat(truthPath).catch(() => {
     throw new UsageError(`--truth: ${truthPath}: no such file or folder`);
   })).isDirectory();
@@ -94,8 +132,14 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
   const chosen = method === 'both' ? (['subspace', 'mog2'] as const) : ([method] as ['subspace' | 'mog2']);
   const methods: EvaluateMethod[] = v.colour ? chosen.map((m) => `${m}-colour` as const) : [...chosen];
   const size = { width: model.width, height: model.height };
-  const items = v.colour ? frameInput(frames, { ...size, colour: true }) : frameInput(frames, size);
-  const reports = await evaluate(model, items, zones, methods, { counts, masks }, { colour });
+  const open = () => (v.colour ? frameInput(frames, { ...size, colour: true }) : frameInput(frames, size));
+  const found = await findPersonSize(model, givenZones, open());
+  for (const line of personSizeReport(found)) io.err.write(`${line}\n`);
+  const each = v.each === true || isSnapshots(found.continuity);
+  if (each && !v.each) io.err.write(`the frames look like separate pictures, not a sequence in time: each is counted on its own\n`);
+  const options: EvaluateOptions = { colour, sequence: !each, ...(framesPerSecond !== undefined && { framesPerSecond }), ...(worst !== undefined && { worst }) };
+  const reports = await evaluate(model, open(), found.zones, methods, { counts, masks }, options);
+  for (const report of reports) if (report.warning) io.err.write(`warning (${report.method}): ${report.warning}\n`);
   if (v.json) {
     io.out.write(JSON.stringify({ frames, truth: truthPath, methods: reports }) + '\n');
   } else {
@@ -118,35 +162,49 @@ export async function evaluate(
   truth: { counts?: CountTruth; masks?: Map<string, string> },
   options: EvaluateOptions = {},
 ): Promise<MethodReport[]> {
-  const { colour } = options;
+  const { colour, sequence = true, framesPerSecond = 10, worst: worstCount = 5 } = options;
   const size = { width: model.width, height: model.height };
   if (methods.includes('subspace-colour') && colour === undefined) throw new RangeError("method 'subspace-colour' needs the colour statistics (options.colour)");
   const cv = methods.includes('mog2') || methods.includes('mog2-colour') ? await loadOpenCv() : undefined;
   type Count = (f: GreyFrame, c: ColourFrame | undefined) => { zones: Record<string, { count: number }> };
-  const runners = methods.map((m): { method: EvaluateMethod; count: Count; mask: () => Mask; close: () => void } => {
+  type Runner = { method: EvaluateMethod; count: Count; mask: () => Mask; close: () => void; sequence?: SequenceCounter };
+  /** The subspace method, as a sequence or frame by frame. */
+  const subspace = (m: EvaluateMethod, colourModel?: ChromaticityModel): Runner => {
+    const counterOptions = colourModel === undefined ? {} : { colourModel };
+    if (sequence) {
+      const counter = createSequenceCounter(model, zones, { ...counterOptions, framesPerSecond });
+      return { method: m, count: (f, c) => counter.count(f, c), mask: () => counter.lastMask(), close: () => {}, sequence: counter };
+    }
+    const counter = createCounter(model, zones, counterOptions);
+    return { method: m, count: (f, c) => counter.count(f, c), mask: () => counter.lastMask(), close: () => {} };
+  };
+  /** The MOG2 baseline, through the same blob stages and, in a sequence, the same following of blobs. */
+  const mog2 = (m: EvaluateMethod, inColour: boolean): Runner => {
+    const counter = createMog2Counter(cv, size, zones, { colour: inColour });
+    const follower = sequence ? createBlobFollower(counter.zones, size) : undefined;
+    const count: Count = (f, c) => {
+      const plain = counter.count(f, inColour ? c! : undefined);
+      return follower === undefined ? plain : follower.tally(plain.blobs, plain);
+    };
+    return { method: m, count, mask: () => counter.lastMask(), close: () => counter.close() };
+  };
+  const runners = methods.map((m): Runner => {
     switch (m) {
-      case 'subspace': {
-        const counter = createCounter(model, zones);
-        return { method: m, count: (f) => counter.count(f), mask: () => counter.lastMask(), close: () => {} };
-      }
-      case 'subspace-colour': {
-        const counter = createCounter(model, zones, { colourModel: colour! });
-        return { method: m, count: (f, c) => counter.count(f, c!), mask: () => counter.lastMask(), close: () => {} };
-      }
-      case 'mog2': {
-        const counter = createMog2Counter(cv, size, zones);
-        return { method: m, count: (f) => counter.count(f), mask: () => counter.lastMask(), close: () => counter.close() };
-      }
-      case 'mog2-colour': {
-        const counter = createMog2Counter(cv, size, zones, { colour: true });
-        return { method: m, count: (f, c) => counter.count(f, c!), mask: () => counter.lastMask(), close: () => counter.close() };
-      }
+      case 'subspace':
+        return subspace(m);
+      case 'subspace-colour':
+        return subspace(m, colour!);
+      case 'mog2':
+        return mog2(m, false);
+      case 'mog2-colour':
+        return mog2(m, true);
       default:
         throw new RangeError(`method must be subspace, mog2, subspace-colour or mog2-colour, got ${JSON.stringify(m)}`);
     }
   });
   const needsColour = methods.some((m) => m.endsWith('-colour'));
   const scores = runners.map(() => new Map<string, { n: number; abs: number; exact: number; bias: number }>());
+  const worstFrames = runners.map((): WorstFrame[] => []);
   const confusions = runners.map((): Confusion => ({ tp: 0, fp: 0, tn: 0, fn: 0 }));
   const shadowHits = runners.map(() => 0);
   let shadowPixels = 0;
@@ -166,6 +224,8 @@ export async function evaluate(
       runners.forEach((runner, r) => {
         const result = runner.count(item.frame, itemColour);
         if (wantCounts) {
+          let error = 0;
+          const compared: WorstFrame['zones'] = {};
           for (const [zone, want] of Object.entries(wantCounts)) {
             const got = result.zones[zone];
             if (!got) continue;
@@ -175,7 +235,10 @@ export async function evaluate(
             s.exact += got.count === want ? 1 : 0;
             s.bias += got.count - want;
             scores[r].set(zone, s);
+            error += Math.abs(got.count - want);
+            compared[zone] = { counted: got.count, truth: want };
           }
+          keepWorst(worstFrames[r], { frame: item.name, error, zones: compared }, worstCount);
         }
         if (wantMask) {
           const detected = runner.mask().data;
@@ -190,14 +253,27 @@ export async function evaluate(
   return runners.map((runner, r) => {
     const zonesOut: Record<string, ZoneScore> = {};
     for (const [zone, s] of scores[r]) zonesOut[zone] = { frames: s.n, mae: s.abs / s.n, exact: s.exact / s.n, bias: s.bias / s.n };
+    const warning = runner.sequence === undefined ? undefined : sceneMismatchWarning(runner.sequence.summary());
     return {
       method: runner.method,
       zones: zonesOut,
+      worst: worstFrames[r],
+      ...(warning !== undefined && { warning }),
       ...(maskFrames > 0 && {
         masks: { ...cdnetMetrics(confusions[r]), frames: maskFrames, shadowFpr: shadowPixels > 0 ? shadowHits[r] / shadowPixels : Number.NaN },
       }),
     };
   });
+}
+
+/** Keeps the `limit` frames with the largest error in `list`, worst first (the earlier frame first among equals). */
+function keepWorst(list: WorstFrame[], frame: WorstFrame, limit: number): void {
+  if (limit === 0 || frame.error === 0) return;
+  if (list.length === limit && list[limit - 1].error >= frame.error) return;
+  let at = list.length;
+  while (at > 0 && list[at - 1].error < frame.error) at--;
+  list.splice(at, 0, frame);
+  if (list.length > limit) list.pop();
 }
 
 /** Count truth: {"frames": {name: {zone: n | {count: n}}}} or JSON lines of {frame, zones}. */
@@ -272,6 +348,14 @@ function formatReports(reports: readonly MethodReport[]): string {
     lines.push(['masks (CDnet)'.padEnd(16), ...reports.map((r) => r.method.padStart(column))].join(' '));
     for (const key of ['recall', 'specificity', 'fpr', 'fnr', 'pwc', 'precision', 'fMeasure', 'shadowFpr'] as const) {
       lines.push([key.padEnd(16), ...reports.map((r) => (r.masks ? r.masks[key].toFixed(4) : '–').padStart(column))].join(' '));
+    }
+  }
+  for (const report of reports) {
+    if (report.worst.length === 0) continue;
+    lines.push('', `worst frames (${report.method}): counted / true per zone`);
+    for (const w of report.worst) {
+      const cells = Object.entries(w.zones).filter(([, z]) => z.counted !== z.truth).map(([zone, z]) => `${zone} ${z.counted}/${z.truth}`);
+      lines.push(`  ${w.frame.padEnd(14)} off by ${w.error}: ${cells.join(', ')}`);
     }
   }
   return lines.join('\n') + '\n';

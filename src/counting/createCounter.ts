@@ -5,7 +5,8 @@ import type { ChromaticityModel } from '../vision/chromaticityModel.ts';
 import { suppressShadows, type SuppressShadowsOptions } from '../vision/suppressShadows.ts';
 import type { Blob } from '../vision/labelComponents.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
-import { createBitMask, unpackMask } from '../vision/bitMask.ts';
+import { createBitMask, packMask, unpackMask } from '../vision/bitMask.ts';
+import { clearLightChanges } from '../vision/clearLightChanges.ts';
 import { countingKernels, type CountingKernels } from '../vision/countingKernels.ts';
 import { frameNoiseScale } from '../vision/frameNoiseScale.ts';
 import { residualEnergy, sampleCoefficientPixels } from '../vision/residualEnergy.ts';
@@ -54,6 +55,12 @@ export interface CounterOptions extends MaskCounterOptions {
    * on, see setKernelsEnabled); default true. false always takes the JS stages.
    */
   kernels?: boolean;
+  /**
+   * Clear foreground that is only a change of light on the scene's texture (a cast shadow, a
+   * patch of sun, a lamp) before the morphology (clearLightChanges against the model's mean);
+   * default true.
+   */
+  clearLight?: boolean;
 }
 
 /** Everything counted in one frame. */
@@ -107,7 +114,7 @@ export interface Counter {
  * (computed at the foreground pixels only).
  */
 export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): Counter {
-  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 7, timeStages = false, colourModel, shadows = {}, kernels: useKernels = true } = options;
+  const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 7, timeStages = false, colourModel, shadows = {}, kernels: useKernels = true, clearLight = true } = options;
   if (colourModel !== undefined) assertSameSize(model, colourModel, 'colour model');
   const { width, height } = model;
   const d = width * height;
@@ -132,6 +139,10 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
   const coefficientSample = coefficientStride > 1 ? sampleCoefficientPixels(model, coefficientStride) : undefined;
   const kernels = useKernels && coefficientSample !== undefined && smoothRadius === 1 ? countingKernels(model, { coefficientSample, thresholds }) : undefined;
   const rawBits = createBitMask(width, height);
+  const lightBuffers = clearLight ? { lit: createMask(width, height), scratch: new Float64Array(5 * (width + 1) * (height + 1)) } : undefined;
+  /** The mask with changes of light cleared (lightBuffers.lit), or the mask itself without clearLight. */
+  const withoutLight = (mask: Mask, frame: GreyFrame): Mask =>
+    lightBuffers === undefined ? mask : clearLightChanges(frame, { width, height, data: model.mean }, mask, model.noise, { out: lightBuffers.lit, scratch: lightBuffers.scratch });
   // The JS stages' buffers, only where the kernels do not run.
   const js = kernels !== undefined ? undefined : {
     inverseNoiseVariance: Float32Array.from(model.noise, (sigma) => 1 / (sigma * sigma)),
@@ -172,7 +183,7 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
       }
       const shadowShare = colourBuffers === undefined ? undefined : clearShadows(colour!, colourBuffers);
       return {
-        ...stages.count(colourBuffers === undefined ? raw : colourBuffers.unshadowed),
+        ...stages.count(withoutLight(colourBuffers === undefined ? raw : colourBuffers.unshadowed, frame)),
         ...(shadowShare === undefined ? {} : { shadowShare }),
         dffs: residual.dffs,
         difs: residual.difs,
@@ -201,11 +212,12 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     }
     let tally: ReturnType<typeof stages.count>;
     let shadowShare: number | undefined;
-    if (colourBuffers === undefined) tally = stages.countBits(rawBits);
+    if (colourBuffers === undefined && lightBuffers === undefined) tally = stages.countBits(rawBits);
     else {
       unpackMask(rawBits, raw);
-      shadowShare = clearShadows(colour!, colourBuffers);
-      tally = stages.count(colourBuffers.unshadowed);
+      if (colourBuffers !== undefined) shadowShare = clearShadows(colour!, colourBuffers);
+      // Packed again, so that the morphology and labelling stay on the packed path.
+      tally = stages.countBits(packMask(withoutLight(colourBuffers === undefined ? raw : colourBuffers.unshadowed, frame), rawBits));
     }
     return {
       ...tally,

@@ -1,6 +1,7 @@
 import type { ColourFrame } from '../frames/colourFrame.ts';
 import { createMask, type GreyFrame, type Mask } from '../frames/frame.ts';
 import { createMaskCounter, type MaskCounterOptions, type MaskTally } from './createMaskCounter.ts';
+import type { PreparedZone } from '../vision/prepareZones.ts';
 import type { Zone } from './zone.ts';
 
 export interface Mog2Options extends MaskCounterOptions {
@@ -18,6 +19,8 @@ export interface Mog2Options extends MaskCounterOptions {
 }
 
 export interface Mog2Counter {
+  /** The zones as prepared at the frame size. */
+  readonly zones: readonly PreparedZone[];
   /** Counts the next frame; with the `colour` option, its colour frame is what MOG2 sees. */
   count(frame: GreyFrame, colour?: ColourFrame): MaskTally;
   lastMask(): Mask;
@@ -52,6 +55,7 @@ export function createMog2Counter(
   const raw = createMask(width, height);
   const stages = createMaskCounter(size, zones, options);
   return {
+    zones: stages.zones,
     count(frame, picture) {
       const pixels = input.data as Uint8Array;
       if (colour) {

@@ -188,7 +188,7 @@ export function createPersonSizeReservoir(size: { width: number; height: number 
         let claimed = false;
         let steady = true;
         for (const zone of rooms) {
-          if (blob.area < zone.minBlobPixels) continue;
+          if (blob.area < (zone.minBlobPixelsAt ? zone.minBlobPixelsAt(blob.footY) : zone.minBlobPixels)) continue;
           const [ax, ay] = zone.anchor === 'foot' ? [blob.footX, blob.footY] : [blob.cx, blob.cy];
           if (!pointInPolygon((ax + 0.5) / width, (ay + 0.5) / height, zone.polygon)) continue;
           claimed = true;

@@ -24,6 +24,12 @@ export interface PreparedZone {
   readonly personPixels: number;
   /** With perspective: pixels of one person whose feet are on pixel row `footY`. */
   readonly personPixelsAt?: (footY: number) => number;
+  /**
+   * With perspective and no `minBlobArea` of the zone's own: the smallest blob kept with its feet
+   * on pixel row `footY` (strictly smaller ones are dropped); `minBlobPixels` is then the smallest
+   * of these over the zone.
+   */
+  readonly minBlobPixelsAt?: (footY: number) => number;
 }
 
 export interface PrepareZonesOptions {
@@ -35,6 +41,18 @@ export interface PrepareZonesOptions {
   minBlobShare?: number;
   /** Smallest blob for shelf zones that set none, fraction of the frame area; default 0.0005. */
   shelfMinBlobArea?: number;
+  /**
+   * Perspective guard: the largest expected person in a zone covers at most this many times the
+   * area of the smallest (≥ 1, default 10); expected areas below the largest ÷ this are raised to
+   * it, so that a small blob far away (a patch of light on a far wall) cannot stand for many people.
+   */
+  maxPerspectiveRatio?: number;
+  /**
+   * Perspective guard: how far beyond the rows of its reference people the perspective line is
+   * followed, normalised rows (≥ 0, default 0.1); further up or down, the expected area stays
+   * the one at that limit.
+   */
+  perspectiveReach?: number;
 }
 
 /**
@@ -46,7 +64,9 @@ export function prepareZones(
   size: { width: number; height: number },
   options: PrepareZonesOptions = {},
 ): PreparedZone[] {
-  const { threshold = 3, personArea = 0.008, minBlobShare = 0.25, shelfMinBlobArea = 0.0005 } = options;
+  const { threshold = 3, personArea = 0.008, minBlobShare = 0.25, shelfMinBlobArea = 0.0005, maxPerspectiveRatio = 10, perspectiveReach = 0.1 } = options;
+  if (!(maxPerspectiveRatio >= 1)) throw new RangeError(`maxPerspectiveRatio must be ≥ 1, got ${maxPerspectiveRatio}`);
+  if (!(perspectiveReach >= 0)) throw new RangeError(`perspectiveReach must be ≥ 0, got ${perspectiveReach}`);
   const frameArea = size.width * size.height;
   const mask = rasterizeZone([[0, 0], [1, 0], [1, 1], [0, 1]], size);
   return zones.map((zone) => {
@@ -62,11 +82,12 @@ export function prepareZones(
     const room = zone.kind === 'room';
     const person = zone.personArea ?? (room ? personArea : undefined);
     const personPixels = person === undefined ? 0 : person * frameArea;
-    const perspective = zone.perspective ? fitPersonArea(zone.perspective) : undefined;
-    const personPixelsAt = perspective && ((footY: number) => perspective.areaAt((footY + 0.5) / size.height) * frameArea);
-    // With perspective, the smallest blob kept follows the smallest expected person in the zone.
-    const smallestPerson = perspective ? Math.min(...zone.polygon.map(([, y]) => perspective.areaAt(y))) : undefined;
+    const areaAt = zone.perspective ? guardedAreaAt(zone.perspective, zone.polygon, maxPerspectiveRatio, perspectiveReach) : undefined;
+    const personPixelsAt = areaAt && ((footY: number) => areaAt((footY + 0.5) / size.height) * frameArea);
+    // With perspective, the smallest blob kept follows the expected person at the blob's row.
+    const smallestPerson = areaAt ? Math.min(...zone.polygon.map(([, y]) => areaAt(y))) : undefined;
     const minBlob = zone.minBlobArea ?? (room ? (smallestPerson ?? person ?? personArea) * minBlobShare : shelfMinBlobArea);
+    const minBlobPixelsAt = personPixelsAt && zone.minBlobArea === undefined && room ? (footY: number) => personPixelsAt(footY) * minBlobShare : undefined;
     return {
       id: zone.id,
       kind: zone.kind,
@@ -80,6 +101,33 @@ export function prepareZones(
       minBlobPixels: minBlob * frameArea,
       personPixels,
       ...(personPixelsAt && { personPixelsAt }),
+      ...(minBlobPixelsAt && { minBlobPixelsAt }),
     };
   });
+}
+
+/**
+ * The expected person area at a normalised foot row (fitPersonArea over the references) with
+ * two guards against amplifying small far blobs: the line is followed only `reach` beyond the
+ * references' rows (further out it stays at the limit's value), and no expected area in the zone
+ * is below the zone's largest ÷ `maxRatio`.
+ *
+ * Example: references (y 0.5, area 0.004) and (y 1, area 0.016), a zone spanning rows 0..1,
+ * ratio 10 and reach 0.1: at row 0.2 the line alone gives 0.00064; the reach holds it at row
+ * 0.4 (0.00256), above the floor 0.0016.
+ */
+function guardedAreaAt(
+  references: NonNullable<Zone['perspective']>,
+  polygon: Zone['polygon'],
+  maxRatio: number,
+  reach: number,
+): (y: number) => number {
+  const line = fitPersonArea(references);
+  const rows = references.map((r) => r.y);
+  const low = Math.min(...rows) - reach;
+  const high = Math.max(...rows) + reach;
+  const within = (y: number) => line.areaAt(Math.min(high, Math.max(low, y)));
+  const largest = Math.max(...polygon.map(([, y]) => within(y)));
+  const floor = largest / maxRatio;
+  return (y) => Math.max(floor, within(y));
 }

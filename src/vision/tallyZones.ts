@@ -54,7 +54,7 @@ export function tallyZones(
     let count = 0;
     let kept = 0;
     for (const blob of blobs) {
-      if (blob.area < zone.minBlobPixels) continue;
+      if (blob.area < (zone.minBlobPixelsAt ? zone.minBlobPixelsAt(blob.footY) : zone.minBlobPixels)) continue;
       const [ax, ay] = zone.anchor === 'foot' ? [blob.footX, blob.footY] : [blob.cx, blob.cy];
       if (!pointInPolygon((ax + 0.5) / width, (ay + 0.5) / height, zone.polygon)) continue;
       const people = peopleInBlob(blob.area, zone.personPixelsAt ? zone.personPixelsAt(blob.footY) : zone.personPixels);

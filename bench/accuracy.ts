@@ -1,0 +1,67 @@
+/**
+ * Count accuracy on our synthetic scenes, as a new user would get it: the empty scene learned from
+ * the busy frames themselves (robust learning, the default), no person size given, the frames
+ * counted in order by `evaluate` (the subspace method and the MOG2 baseline through the same
+ * blob stages). Prints MAE, exact share and bias per scene and method; `--json` one JSON object.
+ *
+ *   npm run accuracy [-- --scene plaza] [-- --frames 1200] [-- --json]
+ */
+import { parseArgs } from 'node:util';
+import { evaluate } from '../src/commands/evaluate.ts';
+import { findPersonSize } from '../src/counting/findPersonSize.ts';
+import type { Zone } from '../src/counting/zone.ts';
+import { createScene, sceneIds, syntheticFrames, type SceneId } from '../src/frames/synthetic/index.ts';
+import { fitSubspace } from '../src/vision/fitSubspace.ts';
+
+const { values } = parseArgs({
+  options: {
+    scene: { type: 'string', multiple: true },
+    frames: { type: 'string', default: '1500' },
+    learn: { type: 'string', default: '500' },
+    spread: { type: 'string', default: '1' },
+    json: { type: 'boolean', default: false },
+    each: { type: 'boolean', default: false },
+    plain: { type: 'boolean', default: false },
+  },
+});
+const frames = Number(values.frames);
+const learnFrames = Number(values.learn);
+// Learning frames are every n-th frame from the start (1: the first `learn` frames, as learn reads a video).
+const spread = Number(values.spread);
+const scenes = (values.scene ?? sceneIds.filter((id) => id !== 'stock-room')) as SceneId[];
+const results: Record<string, unknown> = {};
+
+for (const id of scenes) {
+  const scene = createScene(id);
+  // No person size given: the counter must find it.
+  const zones: Zone[] = scene.zones.map(({ personArea, minBlobArea, ...zone }) => (zone.kind === 'room' ? zone : { ...zone, personArea, minBlobArea }));
+  const learning = Array.from({ length: learnFrames }, (_, i) => scene.frameAt(i * spread).frame.data);
+  const started = performance.now();
+  const model = fitSubspace(learning, scene, { robustIterations: values.plain ? 0 : 2 });
+  const learnMs = performance.now() - started;
+  const counts = new Map<string, Record<string, number>>();
+  for (let t = 0; t < frames; t++) {
+    const { truth } = scene.frameAt(t);
+    counts.set(String(t), Object.fromEntries(Object.entries(truth).map(([zone, z]) => [zone, z.count])));
+  }
+  const found = await findPersonSize(model, zones, syntheticFrames(scene, { count: frames }));
+  const reports = await evaluate(model, syntheticFrames(scene, { count: frames }), found.zones, ['subspace', 'mog2'], { counts }, { sequence: !values.each, framesPerSecond: scene.frameRate });
+  let people = 0;
+  for (const c of counts.values()) for (const [zone, n] of Object.entries(c)) if (zones.find((z) => z.id === zone)?.kind === 'room') people += n;
+  results[id] = {
+    meanPeople: people / frames,
+    learnMs: Math.round(learnMs),
+    rejectedShare: model.rejectedShare,
+    personSize: found.suggestion.state === 'ready' ? { intercept: found.suggestion.intercept, slope: found.suggestion.slope, rows: found.suggestion.rows } : found.suggestion.message,
+    methods: Object.fromEntries(reports.map((r) => [r.method, { zones: r.zones, worst: r.worst.slice(0, 3).map((w) => `${w.frame}: ${JSON.stringify(w.zones)}`) }])),
+  };
+  if (!values.json) {
+    console.log(`\n${id}: ${frames} frames, ${(people / frames).toFixed(2)} people per frame in rooms; learned from ${learnFrames} busy frames (${(model.rejectedShare * 100).toFixed(1)} % set aside)`);
+    console.log(`  person size: ${typeof (results[id] as { personSize: unknown }).personSize === 'string' ? found.suggestion.message : `√area = ${found.suggestion.intercept!.toFixed(4)} + ${found.suggestion.slope!.toFixed(4)}·y over rows ${found.suggestion.rows!.map((r) => r.toFixed(2)).join('–')}`}`);
+    for (const r of reports) {
+      const cells = Object.entries(r.zones).map(([zone, s]) => `${zone} MAE ${s.mae.toFixed(3)} exact ${(s.exact * 100).toFixed(0)}% bias ${s.bias.toFixed(2)}`);
+      console.log(`  ${r.method.padEnd(9)} ${cells.join(' | ')}`);
+    }
+  }
+}
+if (values.json) console.log(JSON.stringify(results));
