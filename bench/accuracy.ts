@@ -16,9 +16,9 @@ import { fitSubspace } from '../src/vision/fitSubspace.ts';
 const { values } = parseArgs({
   options: {
     scene: { type: 'string', multiple: true },
-    frames: { type: 'string', default: '1500' },
+    frames: { type: 'string', default: '3000' },
     learn: { type: 'string', default: '500' },
-    spread: { type: 'string', default: '1' },
+
     json: { type: 'boolean', default: false },
     each: { type: 'boolean', default: false },
     plain: { type: 'boolean', default: false },
@@ -26,8 +26,7 @@ const { values } = parseArgs({
 });
 const frames = Number(values.frames);
 const learnFrames = Number(values.learn);
-// Learning frames are every n-th frame from the start (1: the first `learn` frames, as learn reads a video).
-const spread = Number(values.spread);
+
 const scenes = (values.scene ?? sceneIds.filter((id) => id !== 'stock-room')) as SceneId[];
 const results: Record<string, unknown> = {};
 
@@ -35,7 +34,8 @@ for (const id of scenes) {
   const scene = createScene(id);
   // No person size given: the counter must find it.
   const zones: Zone[] = scene.zones.map(({ personArea, minBlobArea, ...zone }) => (zone.kind === 'room' ? zone : { ...zone, personArea, minBlobArea }));
-  const learning = Array.from({ length: learnFrames }, (_, i) => scene.frameAt(i * spread).frame.data);
+  // Spread over the frames counted, as residuum learn samples a recording.
+  const learning = Array.from({ length: learnFrames }, (_, i) => scene.frameAt(Math.floor((i * frames) / learnFrames)).frame.data);
   const started = performance.now();
   const model = fitSubspace(learning, scene, { robustIterations: values.plain ? 0 : 2 });
   const learnMs = performance.now() - started;

@@ -14,10 +14,11 @@ import { fitSubspace } from '../vision/fitSubspace.ts';
 import { numberOption, parseOptions, requireOption, UsageError } from './args.ts';
 import { frameInput } from './frameInput.ts';
 import { progressLine } from './progressLine.ts';
+import { random } from '../frames/synthetic/random.ts';
 
 export const learnUsage = `residuum learn --frames <folder|video|synthetic:scene:empty> --out <model file>
                 [--width W] [--components K | --variance V] [--max-components N]
-                [--every N] [--limit N] [--plain] [--colour]
+                [--every N] [--limit N] [--read N] [--plain] [--colour]
        residuum learn --config <file> --camera <id> --seconds N [--data <folder>] [--out <model file>]
 
 Learns the empty scene: a mean image and a few eigen-images. The frames may show people
@@ -31,7 +32,10 @@ is kept; the report says how much was set aside, and the verdict is "poor" when 
   --variance        share of the variation to keep, 0 < V ≤ 1 (default 0.95)
   --max-components  upper bound when choosing by variance (default 12)
   --every           use one frame in N (default 1)
-  --limit           use at most N frames (default 500)
+  --limit           use at most N frames (default 500), chosen evenly at random over all the
+                    frames read, so that learning sees the whole recording
+  --read            read at most N frames of the source (default: all of a folder or video;
+                    600 of a synthetic scene)
   --plain           plain PCA for frames known to be empty (faster; anyone passing through would
                     be learned into the empty scene). --robust, the default, is still accepted
   --colour          also learn the empty scene's colour statistics, for count/evaluate --colour
@@ -52,6 +56,7 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     'max-components': { type: 'string' },
     every: { type: 'string' },
     limit: { type: 'string' },
+    read: { type: 'string' },
     robust: { type: 'boolean' },
     plain: { type: 'boolean' },
     colour: { type: 'boolean' },
@@ -73,13 +78,19 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
   const maxComponents = numberOption(v['max-components'], 'max-components', { min: 0, max: 64, integer: true });
   const every = numberOption(v.every, 'every', { min: 1, integer: true }) ?? 1;
   const limit = numberOption(v.limit, 'limit', { min: 2, integer: true }) ?? 500;
+  const read = numberOption(v.read, 'read', { min: 2, integer: true });
 
-  const progress = progressLine(io.err, 'reading frames', limit);
-  const data: Float32Array[] = [];
-  const colours: Uint8Array[] = [];
+  const progress = progressLine(io.err, 'reading frames', read);
   let size: GreyFrame | undefined;
   let skipped = 0;
-  const items = v.colour ? frameInput(frames, { width, every, limit, colour: true }) : frameInput(frames, { width, every, limit });
+  const source = { width, every, ...(read !== undefined && { limit: read }) };
+  const items = v.colour ? frameInput(frames, { ...source, colour: true }) : frameInput(frames, source);
+  // A uniform sample of `limit` of all the frames read, in their order: learning then sees the
+  // whole recording (people who stood still for a while in one part of it do not dominate), in
+  // bounded memory (reservoir sampling, Vitter 1985, Algorithm R; seeded, so runs repeat).
+  const draws = random(1);
+  const sample: { index: number; grey: Float32Array; colour?: Uint8Array }[] = [];
+  let seen = 0;
   for await (const item of items) {
     if (item.error) {
       skipped++;
@@ -87,12 +98,20 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
       continue;
     }
     size ??= item.frame;
-    data.push(item.frame.data);
     const colour = (item as { colour?: ColourFrame }).colour;
-    if (colour) colours.push(colour.data);
-    progress.update(data.length + skipped);
+    const entry = { index: seen, grey: item.frame.data, ...(colour && { colour: colour.data }) };
+    if (sample.length < limit) sample.push(entry);
+    else {
+      const j = Math.floor(draws.uniform() * (seen + 1));
+      if (j < limit) sample[j] = entry;
+    }
+    seen++;
+    progress.update(seen + skipped);
   }
   progress.done();
+  sample.sort((a, b) => a.index - b.index);
+  const data = sample.map((k) => k.grey);
+  const colours = sample.flatMap((k) => (k.colour ? [k.colour] : []));
   if (!size || data.length < 2) {
     io.err.write(`residuum learn: ${data.length} usable frame${data.length === 1 ? '' : 's'} in ${frames}; at least 2 are needed (50 or more recommended)\n`);
     return 1;
@@ -149,7 +168,7 @@ async function learnFromCamera(
   v: Record<string, string | boolean | undefined>,
   io: { out: NodeJS.WritableStream; err: NodeJS.WritableStream & { isTTY?: boolean } },
 ): Promise<number> {
-  for (const only of ['frames', 'width', 'every', 'limit']) {
+  for (const only of ['frames', 'width', 'every', 'limit', 'read']) {
     if (v[only] !== undefined) throw new UsageError(`--${only} does not go with --config: the camera's configuration sets the source and size`);
   }
   const config = loadConfig(v.config as string);

@@ -10,6 +10,7 @@ import { fitChromaticity } from '../vision/fitChromaticity.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import type { Counter } from './createCounter.ts';
 import { createDriftingCounter } from './createDriftingCounter.ts';
+import { createBlobFollower, type BlobFollower } from './followBlobs.ts';
 import { createPersonSizeReservoir, type PersonSizeSuggestion } from './createPersonSizeReservoir.ts';
 import { modelVerdict } from './modelVerdict.ts';
 import { learningOutcome, storeModel, type StoredVerdict } from './storeModel.ts';
@@ -187,6 +188,9 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     });
   };
   let counter: Counter | undefined = model ? makeCounter(model) : undefined;
+  // Blobs followed from frame to frame (anonymous, in memory, for seconds): flickers do not
+  // count and people walking together keep their count. A new one with each counter and gap.
+  let follower: BlobFollower | undefined;
   let countsInColour = colourMode && model?.colour !== undefined;
   let accumulators = makeAccumulators(zones);
   const personSizes = createPersonSizeReservoir({ width, height });
@@ -311,7 +315,11 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     }
     const started = performance.now();
     countingAt = at;
-    const result = countsInColour && colour !== undefined ? counter.count(frame, colour) : counter.count(frame);
+    const plain = countsInColour && colour !== undefined ? counter.count(frame, colour) : counter.count(frame);
+    if (follower === undefined || follower.zones !== counter.zones || (lastFrameAt !== undefined && at - lastFrameAt > maxGapMs)) {
+      follower = createBlobFollower(counter.zones, { width, height });
+    }
+    const result = { ...plain, ...follower.tally(plain.blobs, plain) };
     emitter.emit('counted', (performance.now() - started) / 1000, counter.stageTimes);
     lastFrameAt = at;
     state = 'online';

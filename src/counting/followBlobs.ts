@@ -61,6 +61,8 @@ interface Track {
 
 /** Follows a sequence's blobs; `tally` replaces a frame's per-zone people counts with followed ones. */
 export interface BlobFollower {
+  /** The zones it was made for. */
+  readonly zones: readonly PreparedZone[];
   /**
    * Takes one frame's blobs (in frame order) and the frame's plain tally, and returns the tally
    * with the rooms' counts (and the total) from the followed blobs; shelves are left as they are.
@@ -128,6 +130,7 @@ export function createBlobFollower(zones: readonly PreparedZone[], size: { width
   }
 
   return {
+    zones,
     get tracks() {
       return tracks.length;
     },

@@ -147,7 +147,9 @@ describe('learning again in the service', () => {
     expect(pipeline.model()).toBe(model);
     expect(pipeline.live().modelId).toBe(firstId);
     const { counted, truth } = countScene(pipeline, 600, 60, t);
-    expect(countScene(setup().pipeline, 600, 60, t).counted).toEqual(counted);
+    // From the third frame on: a camera that kept counting follows its blobs from the frames
+    // before (followBlobs), a new one starts with none.
+    expect(countScene(setup().pipeline, 600, 60, t).counted.slice(2)).toEqual(counted.slice(2));
     expect(relativeError(counted, truth)).toBeLessThan(withinAFifth);
   });
 
