@@ -229,6 +229,8 @@ export function createBlobFollower(zones: readonly PreparedZone[], size: { width
       // Counted tracks that vanished (not merged) are held for a few frames where they were heading.
       tracks.forEach((track, t) => {
         if (trackBlob[t] >= 0 || mergedInto[t] >= 0) return;
+        // Run into a blob that another track followed (too small to be people of its own): gone.
+        if (pairs.some((p) => p.t === t)) return;
         if (track.seen < confirmFrames || track.missed >= holdFrames) return;
         const held: Track = {
           ...track,
