@@ -4,11 +4,15 @@
  * counted in order by `evaluate` (the subspace method and the MOG2 baseline through the same
  * blob stages). Prints MAE, exact share and bias per scene and method; `--json` one JSON object.
  *
- *   npm run accuracy [-- --scene plaza] [-- --frames 1200] [-- --json]
+ *   npm run accuracy [-- --scene plaza] [-- --frames 1200] [-- --calibrate 10] [-- --json]
+ *
+ * --calibrate N gives evaluate the true counts of N frames spread over the sequence as calibration
+ * (a user saying "there are N people here now" N times); those frames are not scored.
  */
 import { parseArgs } from 'node:util';
 import { evaluate } from '../src/commands/evaluate.ts';
 import { findPersonSize } from '../src/counting/findPersonSize.ts';
+import { describeCalibration } from '../src/counting/calibratedTally.ts';
 import type { Zone } from '../src/counting/zone.ts';
 import { createScene, sceneIds, syntheticFrames, type SceneId } from '../src/frames/synthetic/index.ts';
 import { fitSubspace } from '../src/vision/fitSubspace.ts';
@@ -18,6 +22,7 @@ const { values } = parseArgs({
     scene: { type: 'string', multiple: true },
     frames: { type: 'string', default: '3000' },
     learn: { type: 'string', default: '500' },
+    calibrate: { type: 'string', default: '0' },
 
     json: { type: 'boolean', default: false },
     each: { type: 'boolean', default: false },
@@ -45,7 +50,10 @@ for (const id of scenes) {
     counts.set(String(t), Object.fromEntries(Object.entries(truth).map(([zone, z]) => [zone, z.count])));
   }
   const found = await findPersonSize(model, zones, syntheticFrames(scene, { count: frames }));
-  const reports = await evaluate(model, syntheticFrames(scene, { count: frames }), found.zones, ['subspace', 'mog2'], { counts }, { sequence: !values.each, framesPerSecond: scene.frameRate });
+  // --calibrate N: the true counts of N frames spread over the sequence, as a user would give them.
+  const calibrateFrames = Number(values.calibrate);
+  const calibration = calibrateFrames > 0 ? new Map(Array.from({ length: calibrateFrames }, (_, i) => String(Math.floor(((i + 0.5) * frames) / calibrateFrames))).map((t) => [t, counts.get(t)!])) : undefined;
+  const reports = await evaluate(model, syntheticFrames(scene, { count: frames }), found.zones, ['subspace', 'mog2'], { counts }, { sequence: !values.each, framesPerSecond: scene.frameRate, ...(calibration && { calibration }) });
   let people = 0;
   for (const c of counts.values()) for (const [zone, n] of Object.entries(c)) if (zones.find((z) => z.id === zone)?.kind === 'room') people += n;
   results[id] = {
@@ -61,6 +69,7 @@ for (const id of scenes) {
     for (const r of reports) {
       const cells = Object.entries(r.zones).map(([zone, s]) => `${zone} MAE ${s.mae.toFixed(3)} exact ${(s.exact * 100).toFixed(0)}% bias ${s.bias.toFixed(2)}`);
       console.log(`  ${r.method.padEnd(9)} ${cells.join(' | ')}`);
+      for (const [zone, fit] of Object.entries(r.calibration ?? {})) console.log(`    ${describeCalibration(zone, fit)}`);
     }
   }
 }

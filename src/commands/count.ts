@@ -7,12 +7,16 @@ import { parseZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
 import type { FrameCount } from '../counting/createCounter.ts';
 import type { ColourFrameItem } from '../frames/colourFrame.ts';
+import { calibratedTally, describeCalibration, fitZoneCalibrations, regressionsInUse, zoneCountFeatures } from '../counting/calibratedTally.ts';
+import type { CalibrationPoint, CountFeatures } from '../counting/fitCountRegression.ts';
+import { basename, extname } from 'node:path';
+import { parseCountTruth, type CountTruth } from './evaluate.ts';
 import { numberOption, parseOptions, requireOption, UsageError } from './args.ts';
 import { frameInput } from './frameInput.ts';
 
 export const countUsage = `residuum count --model <model file> --frames <folder|video|synthetic:scene>
                 [--zones <zones file>] [--json] [--threshold T] [--every N] [--limit N] [--colour]
-                [--fps N] [--each]
+                [--fps N] [--each] [--calibration <counts file>]
 
 Counts people per room zone and fill per shelf zone in each frame. Frames are taken as a
 sequence in time (a video, or images named in order): the background follows slow changes of
@@ -30,7 +34,12 @@ their size changes with distance is fitted and printed.
   --colour     discount cast shadows by colour (a model learned with --colour; a folder of images
                or synthetic:shadow-room)
   --fps        frames per second of the sequence, for following slow light changes (default 10)
-  --each       count each frame on its own (images not in time order): no following, no drift`;
+  --each       count each frame on its own (images not in time order): no following, no drift
+  --calibration  people counted by hand in a few of the frames, per room zone (the format of
+               evaluate --truth: {"frames": {"<frame>": {"<zone>": 3}}}); each zone with at least
+               5 different counts gets a regression of the count on what its foreground looks
+               like, used where it beats counting by blob sizes (printed on stderr). The frames are
+               then printed after all are counted`;
 
 /** `residuum count`: counts each frame of a source against a learned model. */
 export async function countCommand(argv: string[], io = { out: process.stdout, err: process.stderr }): Promise<number> {
@@ -45,6 +54,7 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
     colour: { type: 'boolean' },
     fps: { type: 'string' },
     each: { type: 'boolean' },
+    calibration: { type: 'string' },
   });
   const modelFile = requireOption(v.model, 'model', 'the model file written by residuum learn');
   const frames = requireOption(v.frames, 'frames', 'the folder, video or scene to count');
@@ -70,6 +80,10 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
     ? createCounter(model, found.zones, options)
     : createSequenceCounter(model, found.zones, { ...options, ...(framesPerSecond !== undefined && { framesPerSecond }) });
   const print = v.json ? jsonLine : tableWriter(zones);
+  const calibration = v.calibration === undefined ? undefined : await readCalibration(v.calibration, zones);
+  /** With calibration, frames wait for the fit: their tallies and features (numbers only). */
+  const held: { name: string; result: FrameCount; features: Map<string, CountFeatures> }[] = [];
+  const points = new Map<string, CalibrationPoint[]>();
 
   let counted = 0;
   let skipped = 0;
@@ -82,7 +96,29 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
     // In colour mode every good item carries its colour frame (frameInput with colour: true).
     const result = counter.count(item.frame, (item as ColourFrameItem).colour);
     counted++;
-    io.out.write(print(item.name, result));
+    if (calibration === undefined) {
+      io.out.write(print(item.name, result));
+      continue;
+    }
+    const features = zoneCountFeatures(result, counter.lastMask(), counter.zones);
+    held.push({ name: item.name, result: { ...result, blobs: [] }, features });
+    const given = calibration.get(item.name) ?? calibration.get(basename(item.name, extname(item.name)));
+    for (const [zone, count] of Object.entries(given ?? ({} as Record<string, number>))) {
+      const f = features.get(zone);
+      if (f === undefined) continue;
+      const list = points.get(zone) ?? [];
+      list.push({ features: f, count });
+      points.set(zone, list);
+    }
+  }
+  if (calibration !== undefined) {
+    const matched = new Set(held.map((h) => h.name).flatMap((name) => [name, basename(name, extname(name))]));
+    const missing = [...calibration.keys()].filter((name) => !matched.has(name));
+    if (missing.length > 0) io.err.write(`warning: ${missing.length} calibration frame${missing.length === 1 ? '' : 's'} not among the frames counted (${missing.slice(0, 3).join(', ')}${missing.length > 3 ? ', …' : ''})\n`);
+    const fits = fitZoneCalibrations(points);
+    for (const [zone, fit] of fits) io.err.write(`calibration: ${describeCalibration(zone, fit)}\n`);
+    const regressions = regressionsInUse(fits);
+    for (const h of held) io.out.write(print(h.name, calibratedTally(h.result, h.features, regressions)));
   }
   if (skipped > 0) io.err.write(`${skipped} frame${skipped === 1 ? '' : 's'} skipped, ${counted} counted\n`);
   if (counted === 0) {
@@ -92,6 +128,22 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
   const mismatch = 'summary' in counter ? sceneMismatchWarning(counter.summary()) : undefined;
   if (mismatch) io.err.write(`warning: ${mismatch}\n`);
   return 0;
+}
+
+/** A calibration file: counts in the format of evaluate's truth, for room zones of the zones file. */
+export async function readCalibration(file: string, zones: readonly Zone[]): Promise<CountTruth> {
+  const text = await readFile(file, 'utf8').catch((e: NodeJS.ErrnoException) => {
+    throw new UsageError(`--calibration: cannot read ${file} (${e.code === 'ENOENT' ? 'no such file' : e.message})`);
+  });
+  const counts = parseCountTruth(text, file);
+  const rooms = new Set(zones.filter((z) => z.kind === 'room').map((z) => z.id));
+  for (const [frame, byZone] of counts) {
+    for (const [zone, n] of Object.entries(byZone)) {
+      if (!rooms.has(zone)) throw new UsageError(`--calibration: ${file}: frame ${frame}: ${JSON.stringify(zone)} is not a room zone of ${zones.length === 1 && zones[0].id === 'all' ? 'the whole frame (zone "all")' : 'the zones file'}`);
+      if (!Number.isInteger(n)) throw new UsageError(`--calibration: ${file}: frame ${frame}, zone ${zone}: a count of people must be a whole number, got ${n}`);
+    }
+  }
+  return counts;
 }
 
 /**

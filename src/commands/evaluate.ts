@@ -7,7 +7,11 @@ import { createMog2Counter } from '../counting/createMog2Counter.ts';
 import { createSequenceCounter, sceneMismatchWarning, type SequenceCounter } from '../counting/createSequenceCounter.ts';
 import { findPersonSize } from '../counting/findPersonSize.ts';
 import { createBlobFollower } from '../counting/followBlobs.ts';
-import { isSnapshots, personSizeReport } from './count.ts';
+import { calibratedTally, describeCalibration, fitZoneCalibrations, regressionsInUse, zoneCountFeatures } from '../counting/calibratedTally.ts';
+import type { CalibrationPoint, CountFeatures, CountRegressionFit } from '../counting/fitCountRegression.ts';
+import type { PreparedZone } from '../vision/prepareZones.ts';
+import type { FrameTally } from '../vision/tallyZones.ts';
+import { isSnapshots, personSizeReport, readCalibration } from './count.ts';
 import { loadModel, ModelFileError } from '../counting/modelFile.ts';
 import { parseZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
@@ -21,7 +25,7 @@ import { frameInput } from './frameInput.ts';
 
 export const evaluateUsage = `residuum evaluate --model <model file> --frames <folder|video|synthetic:scene> --truth <file|folder>
                    [--zones <zones file>] [--method subspace|mog2|both] [--colour] [--json]
-                   [--fps N] [--each] [--worst N]
+                   [--fps N] [--each] [--worst N] [--calibration <counts file>]
 
 Compares counts (and foreground masks) with ground truth, and lists the frames counted worst.
 Frames are counted as residuum count counts them: as a sequence in time, with the person size
@@ -39,7 +43,10 @@ following of blobs from frame to frame).
   --json    one JSON object instead of a table
   --fps     frames per second of the sequence (default 10)
   --each    count each frame on its own: no following, no drift (images not in time order)
-  --worst   how many of the worst frames to list per method (default 5)`;
+  --worst   how many of the worst frames to list per method (default 5)
+  --calibration  people counted by hand in a few frames (the format of --truth): each method
+            fits per room zone a regression of the count on what the zone's foreground looks like
+            and uses it where it beats counting by blob sizes; those frames are not scored`;
 
 /** Count errors of one zone. */
 export interface ZoneScore {
@@ -74,6 +81,11 @@ export interface MethodReport {
   /** Set when the frames do not look like the model's scene (see sceneMismatchWarning). */
   readonly warning?: string;
   /**
+   * With calibration counts: what each zone's fit came to (its frames are left out of the
+   * scores, which are those of the calibrated counts where a zone's regression is used).
+   */
+  readonly calibration?: Record<string, Omit<CountRegressionFit, 'regression'>>;
+  /**
    * CDnet metrics over all scored mask pixels (mask truth only), and `shadowFpr`: the share of
    * the pixels labelled shadow (CDnet 50) detected as foreground (NaN when none is labelled).
    */
@@ -93,9 +105,15 @@ export interface EvaluateOptions {
   framesPerSecond?: number;
   /** Worst frames listed per method (whole number ≥ 0); default 5. */
   worst?: number;
+  /**
+   * People counted by hand in a few frames, per room zone: each method fits its zone count
+   * regressions on them (fitCountRegression) and uses those that beat its blob rule; these frames
+   * are not scored.
+   */
+  calibration?: CountTruth;
 }
 
-type CountTruth = Map<string, Record<string, number>>;
+export type CountTruth = Map<string, Record<string, number>>;
 
 /** `residuum evaluate`. */
 export async function evaluateCommand(argv: string[], io = { out: process.stdout, err: process.stderr }): Promise<number> {
@@ -110,6 +128,7 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
     fps: { type: 'string' },
     each: { type: 'boolean' },
     worst: { type: 'string' },
+    calibration: { type: 'string' },
   });
   const modelFile = requireOption(v.model, 'model', 'the model file from residuum learn');
   const framesPerSecond = numberOption(v.fps, 'fps', { min: 0.01, max: 1000 });
@@ -137,7 +156,8 @@ export async function evaluateCommand(argv: string[], io = { out: process.stdout
   for (const line of personSizeReport(found)) io.err.write(`${line}\n`);
   const each = v.each === true || isSnapshots(found.continuity);
   if (each && !v.each) io.err.write(`the frames look like separate pictures, not a sequence in time: each is counted on its own\n`);
-  const options: EvaluateOptions = { colour, sequence: !each, ...(framesPerSecond !== undefined && { framesPerSecond }), ...(worst !== undefined && { worst }) };
+  const calibration = v.calibration === undefined ? undefined : await readCalibration(v.calibration, found.zones);
+  const options: EvaluateOptions = { colour, sequence: !each, ...(framesPerSecond !== undefined && { framesPerSecond }), ...(worst !== undefined && { worst }), ...(calibration && { calibration }) };
   const reports = await evaluate(model, open(), found.zones, methods, { counts, masks }, options);
   for (const report of reports) if (report.warning) io.err.write(`warning (${report.method}): ${report.warning}\n`);
   if (v.json) {
@@ -162,21 +182,21 @@ export async function evaluate(
   truth: { counts?: CountTruth; masks?: Map<string, string> },
   options: EvaluateOptions = {},
 ): Promise<MethodReport[]> {
-  const { colour, sequence = true, framesPerSecond = 10, worst: worstCount = 5 } = options;
+  const { colour, sequence = true, framesPerSecond = 10, worst: worstCount = 5, calibration } = options;
   const size = { width: model.width, height: model.height };
   if (methods.includes('subspace-colour') && colour === undefined) throw new RangeError("method 'subspace-colour' needs the colour statistics (options.colour)");
   const cv = methods.includes('mog2') || methods.includes('mog2-colour') ? await loadOpenCv() : undefined;
-  type Count = (f: GreyFrame, c: ColourFrame | undefined) => { zones: Record<string, { count: number }> };
-  type Runner = { method: EvaluateMethod; count: Count; mask: () => Mask; close: () => void; sequence?: SequenceCounter };
+  type Count = (f: GreyFrame, c: ColourFrame | undefined) => FrameTally;
+  type Runner = { method: EvaluateMethod; count: Count; mask: () => Mask; zones: readonly PreparedZone[]; close: () => void; sequence?: SequenceCounter };
   /** The subspace method, as a sequence or frame by frame. */
   const subspace = (m: EvaluateMethod, colourModel?: ChromaticityModel): Runner => {
     const counterOptions = colourModel === undefined ? {} : { colourModel };
     if (sequence) {
       const counter = createSequenceCounter(model, zones, { ...counterOptions, framesPerSecond });
-      return { method: m, count: (f, c) => counter.count(f, c), mask: () => counter.lastMask(), close: () => {}, sequence: counter };
+      return { method: m, count: (f, c) => counter.count(f, c), mask: () => counter.lastMask(), zones: counter.zones, close: () => {}, sequence: counter };
     }
     const counter = createCounter(model, zones, counterOptions);
-    return { method: m, count: (f, c) => counter.count(f, c), mask: () => counter.lastMask(), close: () => {} };
+    return { method: m, count: (f, c) => counter.count(f, c), mask: () => counter.lastMask(), zones: counter.zones, close: () => {} };
   };
   /** The MOG2 baseline, through the same blob stages and, in a sequence, the same following of blobs. */
   const mog2 = (m: EvaluateMethod, inColour: boolean): Runner => {
@@ -186,7 +206,7 @@ export async function evaluate(
       const plain = counter.count(f, inColour ? c! : undefined);
       return follower === undefined ? plain : follower.tally(plain.blobs, plain);
     };
-    return { method: m, count, mask: () => counter.lastMask(), close: () => counter.close() };
+    return { method: m, count, mask: () => counter.lastMask(), zones: counter.zones, close: () => counter.close() };
   };
   const runners = methods.map((m): Runner => {
     switch (m) {
@@ -203,8 +223,10 @@ export async function evaluate(
     }
   });
   const needsColour = methods.some((m) => m.endsWith('-colour'));
-  const scores = runners.map(() => new Map<string, { n: number; abs: number; exact: number; bias: number }>());
-  const worstFrames = runners.map((): WorstFrame[] => []);
+  /** Frames with count truth: each method's tally (and features, when calibrating), scored at the end. */
+  type Counted = { frame: string; want: Record<string, number>; tally: FrameTally; features?: Map<string, CountFeatures> };
+  const counted = runners.map((): Counted[] => []);
+  const points = runners.map(() => new Map<string, CalibrationPoint[]>());
   const confusions = runners.map((): Confusion => ({ tp: 0, fp: 0, tn: 0, fn: 0 }));
   const shadowHits = runners.map(() => 0);
   let shadowPixels = 0;
@@ -215,6 +237,7 @@ export async function evaluate(
       const itemColour = (item as ColourFrameItem).colour;
       if (needsColour && itemColour === undefined) throw new RangeError(`frame ${item.name} has no colour frame, which the colour methods need`);
       const wantCounts = truth.counts?.get(item.name) ?? truth.counts?.get(basename(item.name, extname(item.name)));
+      const given = calibration?.get(item.name) ?? calibration?.get(basename(item.name, extname(item.name)));
       const maskFile = truth.masks?.get(basename(item.name, extname(item.name)));
       const wantMask = maskFile ? await readTruthMask(maskFile, size) : undefined;
       if (wantMask) {
@@ -223,22 +246,17 @@ export async function evaluate(
       }
       runners.forEach((runner, r) => {
         const result = runner.count(item.frame, itemColour);
-        if (wantCounts) {
-          let error = 0;
-          const compared: WorstFrame['zones'] = {};
-          for (const [zone, want] of Object.entries(wantCounts)) {
-            const got = result.zones[zone];
-            if (!got) continue;
-            const s = scores[r].get(zone) ?? { n: 0, abs: 0, exact: 0, bias: 0 };
-            s.n++;
-            s.abs += Math.abs(got.count - want);
-            s.exact += got.count === want ? 1 : 0;
-            s.bias += got.count - want;
-            scores[r].set(zone, s);
-            error += Math.abs(got.count - want);
-            compared[zone] = { counted: got.count, truth: want };
+        const features = calibration !== undefined && (wantCounts || given) ? zoneCountFeatures(result, runner.mask(), runner.zones) : undefined;
+        if (given !== undefined) {
+          for (const [zone, count] of Object.entries(given)) {
+            const f = features!.get(zone);
+            if (f === undefined) continue;
+            const list = points[r].get(zone) ?? [];
+            list.push({ features: f, count });
+            points[r].set(zone, list);
           }
-          keepWorst(worstFrames[r], { frame: item.name, error, zones: compared }, worstCount);
+        } else if (wantCounts) {
+          counted[r].push({ frame: item.name, want: wantCounts, tally: { total: result.total, zones: result.zones }, ...(features && { features }) });
         }
         if (wantMask) {
           const detected = runner.mask().data;
@@ -251,13 +269,36 @@ export async function evaluate(
     for (const runner of runners) runner.close();
   }
   return runners.map((runner, r) => {
+    const fits = calibration === undefined ? undefined : fitZoneCalibrations(points[r]);
+    const regressions = fits === undefined ? new Map() : regressionsInUse(fits);
+    const scores = new Map<string, { n: number; abs: number; exact: number; bias: number }>();
+    const worst: WorstFrame[] = [];
+    for (const frame of counted[r]) {
+      const tally = frame.features === undefined ? frame.tally : calibratedTally(frame.tally, frame.features, regressions);
+      let error = 0;
+      const compared: WorstFrame['zones'] = {};
+      for (const [zone, want] of Object.entries(frame.want)) {
+        const got = tally.zones[zone];
+        if (!got) continue;
+        const s = scores.get(zone) ?? { n: 0, abs: 0, exact: 0, bias: 0 };
+        s.n++;
+        s.abs += Math.abs(got.count - want);
+        s.exact += got.count === want ? 1 : 0;
+        s.bias += got.count - want;
+        scores.set(zone, s);
+        error += Math.abs(got.count - want);
+        compared[zone] = { counted: got.count, truth: want };
+      }
+      keepWorst(worst, { frame: frame.frame, error, zones: compared }, worstCount);
+    }
     const zonesOut: Record<string, ZoneScore> = {};
-    for (const [zone, s] of scores[r]) zonesOut[zone] = { frames: s.n, mae: s.abs / s.n, exact: s.exact / s.n, bias: s.bias / s.n };
+    for (const [zone, s] of scores) zonesOut[zone] = { frames: s.n, mae: s.abs / s.n, exact: s.exact / s.n, bias: s.bias / s.n };
     const warning = runner.sequence === undefined ? undefined : sceneMismatchWarning(runner.sequence.summary());
     return {
       method: runner.method,
       zones: zonesOut,
-      worst: worstFrames[r],
+      worst,
+      ...(fits !== undefined && { calibration: Object.fromEntries([...fits].map(([zone, { regression: _, ...fit }]) => [zone, fit])) }),
       ...(warning !== undefined && { warning }),
       ...(maskFrames > 0 && {
         masks: { ...cdnetMetrics(confusions[r]), frames: maskFrames, shadowFpr: shadowPixels > 0 ? shadowHits[r] / shadowPixels : Number.NaN },
@@ -349,6 +390,11 @@ function formatReports(reports: readonly MethodReport[]): string {
     for (const key of ['recall', 'specificity', 'fpr', 'fnr', 'pwc', 'precision', 'fMeasure', 'shadowFpr'] as const) {
       lines.push([key.padEnd(16), ...reports.map((r) => (r.masks ? r.masks[key].toFixed(4) : '–').padStart(column))].join(' '));
     }
+  }
+  for (const report of reports) {
+    if (report.calibration === undefined) continue;
+    lines.push('', `calibration (${report.method}):`);
+    for (const [zone, fit] of Object.entries(report.calibration)) lines.push(`  ${describeCalibration(zone, fit)}`);
   }
   for (const report of reports) {
     if (report.worst.length === 0) continue;
