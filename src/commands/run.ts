@@ -14,6 +14,7 @@ import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
 import { siteSlug } from '../outputs/mqtt/topics.ts';
 import { decodeModel, encodeModel, loadModel } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
+import { fitStoredCalibration } from '../counting/zoneCalibration.ts';
 import { storedVerdict, storeModel, type StoredVerdict } from '../counting/storeModel.ts';
 import type { BackoffOptions } from '../frames/live/backoff.ts';
 import { createScene } from '../frames/synthetic/index.ts';
@@ -336,6 +337,7 @@ function keptCopy(store: Store, camera: string, file: string, model: Subspace): 
 function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts: ReadonlyMap<string, CameraHost>, cameras: readonly CameraConfig[]): ServiceControl {
   const control = new EventEmitter() as ServiceControl;
   const sizes = new Map(cameras.map((c) => [c.id, c.source.size]));
+  const thresholds = new Map(cameras.map((c) => [c.id, c.threshold]));
   /** Verdicts of kept models by id (models stored before their findings were kept are decoded once). */
   const verdicts = new Map<number, StoredVerdict>();
   const kept = (info: ModelInfo): KeptModel => {
@@ -454,6 +456,26 @@ function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts:
       if (changed) h.useModel(model, id);
       const info = store.listModels(camera).find((m) => m.id === id)!;
       return { model: kept(info), changed };
+    },
+    calibration(camera: string, zone?: string) {
+      const h = hosts.get(camera);
+      if (!h) return undefined;
+      const threshold = thresholds.get(camera)!;
+      return h.zones().filter((z) => z.kind === 'room' && (zone === undefined || z.id === zone)).map((z) => fitStoredCalibration(store, camera, z, threshold).status);
+    },
+    calibrate: (camera: string, zone: string, count: number, by: string) => host(camera).calibrate(zone, count, by),
+    clearCalibration(camera: string, zone: string, by: string) {
+      const h = host(camera);
+      const removed = store.clearCalibrationPoints(camera, zone);
+      if (removed > 0) {
+        try {
+          events.insertEvent({ camera, zone, type: 'calibration-cleared', detail: { removed, by } });
+        } catch {
+          // the points are gone either way
+        }
+        h.calibrationChanged();
+      }
+      return removed;
     },
   });
   return control;

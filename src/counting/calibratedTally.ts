@@ -8,10 +8,10 @@ import { fitCountRegression, predictCount, type CalibrationPoint, type CountFeat
  * The count features of each room zone in one counted frame (fitCountRegression's order): the
  * blob rule's count (after following, as the zone would report it), the perspective-normalised
  * foreground area and edge of the zone (measureZoneForeground on the frame's cleaned mask) and
- * the number of blobs the zone kept. Shelves are not calibrated.
+ * the number of blobs the zone kept. Shelves are not calibrated. `only`: just these zones.
  */
-export function zoneCountFeatures(tally: FrameTally, mask: Mask, zones: readonly PreparedZone[]): Map<string, CountFeatures> {
-  const rooms = zones.filter((zone) => zone.kind === 'room');
+export function zoneCountFeatures(tally: FrameTally, mask: Mask, zones: readonly PreparedZone[], only?: ReadonlySet<string>): Map<string, CountFeatures> {
+  const rooms = zones.filter((zone) => zone.kind === 'room' && (only === undefined || only.has(zone.id)));
   const foreground = measureZoneForeground(mask, rooms);
   const features = new Map<string, CountFeatures>();
   rooms.forEach((zone, i) => {

@@ -11,6 +11,7 @@ import type { CameraWorkerData, FromWorker, ToWorker, WorkerFault, WorkerHeap } 
 import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
 import type { Zone } from './zone.ts';
+import { CalibrationError, type ZoneCalibrationStatus } from './zoneCalibration.ts';
 
 export interface CameraHostOptions {
   /** The camera as configured (its zones are the ones counted at start). */
@@ -84,6 +85,14 @@ export interface CameraHost extends EventEmitter {
   learnStatus(): LearnStatus;
   /** Replaces the zones (the live state shows them at once, with counts from the next frame). */
   setZones(zones: readonly Zone[]): void;
+  /**
+   * As CameraPipeline.calibrate, in the worker: resolves with the zone's calibration after the
+   * point was stored; rejects with a CalibrationError when the camera refuses it (no recent frame,
+   * view changed, not a room zone) or is not running, or an Error when it does not answer in 5 s.
+   */
+  calibrate(zone: string, count: number, by: string): Promise<ZoneCalibrationStatus>;
+  /** Tells the worker that calibration points changed in the store (e.g. removed). */
+  calibrationChanged(): void;
   zones(): readonly Zone[];
   /** Share of wall time the worker's event loop was busy since the previous call (or its start), 0..1; 0 without a worker. */
   utilization(): number;
@@ -135,6 +144,9 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
   let zonesVersion = 0;
   let live: CameraLive = { camera: id, name: camera.name, state: 'connecting', viewChanged: false, zones: zonesLive(zones) };
   let learnState: LearnStatus = model ? { state: 'idle', progress: 0 } : { state: 'learning', progress: 0, seconds: camera.learnSeconds };
+  /** Calibration requests waiting for the worker's answer, by request number. */
+  const calibrations = new Map<number, { resolve: (status: ZoneCalibrationStatus) => void; reject: (error: Error) => void; timer: NodeJS.Timeout }>();
+  let calibrationRequests = 0;
   /** Seconds of a learning request not yet finished, sent again to a restarted worker. */
   let pendingRelearn: number | undefined;
   let worker: Worker | undefined;
@@ -267,6 +279,16 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
       case 'event':
         host.emit('event', message.event);
         break;
+      case 'calibrated': {
+        const waiting = calibrations.get(message.request);
+        if (waiting === undefined) break;
+        calibrations.delete(message.request);
+        clearTimeout(waiting.timer);
+        if (message.status !== undefined) waiting.resolve(message.status);
+        else if (message.refused) waiting.reject(new CalibrationError(message.error ?? 'refused'));
+        else waiting.reject(new Error(message.error ?? 'calibration failed'));
+        break;
+      }
       case 'sourceError':
         host.emit('sourceError');
         break;
@@ -291,6 +313,11 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     if (worker !== w) return;
     worker = undefined;
     workerReady = false;
+    for (const [request, waiting] of calibrations) {
+      calibrations.delete(request);
+      clearTimeout(waiting.timer);
+      waiting.reject(new Error(`camera ${id}: its worker stopped before it answered`));
+    }
     clearInterval(watchdog);
     watchdog = undefined;
     if (stopping) return;
@@ -355,6 +382,21 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
       host.emit('live', live);
     },
     zones: () => zones,
+    calibrate(zone: string, count: number, by: string): Promise<ZoneCalibrationStatus> {
+      if (!workerReady) return Promise.reject(new CalibrationError(`camera ${id} is not running now; try again when it is counting`));
+      const request = ++calibrationRequests;
+      return new Promise<ZoneCalibrationStatus>((resolve, reject) => {
+        const timer = setTimeout(() => {
+          calibrations.delete(request);
+          reject(new Error(`camera ${id} did not answer within 5 s`));
+        }, 5000);
+        calibrations.set(request, { resolve, reject, timer });
+        send({ type: 'calibrate', request, zone, count, by });
+      });
+    },
+    calibrationChanged() {
+      send({ type: 'calibration' });
+    },
     utilization(): number {
       if (!worker) return 0;
       const now = worker.performance.eventLoopUtilization();

@@ -15,6 +15,10 @@ import { createPersonSizeReservoir, type PersonSizeSuggestion } from './createPe
 import { modelVerdict } from './modelVerdict.ts';
 import { learningOutcome, storeModel, type StoredVerdict } from './storeModel.ts';
 import { slidingWindow, type SlidingWindow } from './smoothCounts.ts';
+import { calibratedTally, zoneCountFeatures } from './calibratedTally.ts';
+import type { CountRegression } from './fitCountRegression.ts';
+import { CalibrationError, fitStoredCalibration, storedRegressions, zoneShapeKey, type ZoneCalibrationStatus } from './zoneCalibration.ts';
+import type { FrameTally } from '../vision/tallyZones.ts';
 import type { Zone } from './zone.ts';
 
 /** What the dashboard and outputs see of one zone right now. */
@@ -124,6 +128,16 @@ export interface CameraPipeline extends EventEmitter {
   learnStatus(): LearnStatus;
   /** Replaces the zones; counting continues at once with the new ones. */
   setZones(zones: readonly Zone[]): void;
+  /**
+   * "There are `count` people in room zone `zone` now": stores the zone's count features of the
+   * last counted frame with the count (a calibration point; numbers only), refits the zone's
+   * count regression and counts the zone with it from the next frame when it beats the blob rule.
+   * Throws CalibrationError when the camera has not counted a frame in the last 15 s, the view
+   * looks changed, or the zone is not a room zone of this camera.
+   */
+  calibrate(zone: string, count: number, by: string): ZoneCalibrationStatus;
+  /** Reads the zones' calibration points again (after they were removed elsewhere). */
+  reloadCalibration(): void;
   /** Ends the current interval without writing it (used on stop). */
   stop(): void;
 }
@@ -193,6 +207,11 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   let follower: BlobFollower | undefined;
   let countsInColour = colourMode && model?.colour !== undefined;
   let accumulators = makeAccumulators(zones);
+  /** Room zones counted by their calibration regression (numbers only, from the store). */
+  let regressions = loadRegressions();
+  /** The last counted frame's tally by the blob rule (before calibration), and when (wall clock) it was counted. */
+  let lastRule: FrameTally | undefined;
+  let lastCountedWall = 0;
   const personSizes = createPersonSizeReservoir({ width, height });
   let state: CameraLive['state'] = 'connecting';
   let reason: string | undefined;
@@ -212,6 +231,15 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   let learningStart: number | undefined;
   let learnSeconds: number | undefined = model ? undefined : camera.learnSeconds;
   let learnState: LearnStatus = model ? { state: 'idle', progress: 0 } : { state: 'learning', progress: 0, seconds: camera.learnSeconds };
+
+  function loadRegressions(): Map<string, CountRegression> {
+    try {
+      return storedRegressions(store, camera.id, zones, camera.threshold);
+    } catch (error) {
+      log(`camera ${camera.id}: could not read calibration (${(error as Error).message}); counting by blob sizes`);
+      return new Map();
+    }
+  }
 
   function makeAccumulators(list: readonly Zone[]): ZoneAccumulator[] {
     return list.map((zone) => ({
@@ -319,7 +347,12 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     if (follower === undefined || follower.zones !== counter.zones || (lastFrameAt !== undefined && at - lastFrameAt > maxGapMs)) {
       follower = createBlobFollower(counter.zones, { width, height });
     }
-    const result = { ...plain, ...follower.tally(plain.blobs, plain) };
+    const ruled = { ...plain, ...follower.tally(plain.blobs, plain) };
+    lastRule = ruled;
+    lastCountedWall = Date.now();
+    const result = regressions.size === 0
+      ? ruled
+      : calibratedTally(ruled, zoneCountFeatures(ruled, counter.lastMask(), counter.zones, new Set(regressions.keys())), regressions);
     emitter.emit('counted', (performance.now() - started) / 1000, counter.stageTimes);
     lastFrameAt = at;
     state = 'online';
@@ -330,7 +363,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       log(`camera ${camera.id}: view ${changed ? 'changed (counts marked unreliable)' : 'restored'}`);
     }
     if (changed) quality |= QualityFlag.viewChanged;
-    else personSizes.observe(result, counter.zones);
+    else personSizes.observe(ruled, counter.zones);
     for (const a of accumulators) {
       const z = result.zones[a.zone.id];
       a.smoothedCount = a.count.push(z.count);
@@ -523,6 +556,8 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       if (lastFrameAt !== undefined) writeInterval(lastFrameAt);
       zones = next;
       accumulators = makeAccumulators(zones);
+      regressions = loadRegressions();
+      lastRule = undefined;
       // The background adapted so far carries over to the new zones.
       if (model) counter = makeCounter(model, counter);
       publish();
@@ -530,6 +565,28 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     stop() {
       state = 'stopped';
       dropInterval();
+    },
+    calibrate(zoneId: string, count: number, by: string): ZoneCalibrationStatus {
+      const zone = zones.find((z) => z.id === zoneId);
+      if (zone === undefined) throw new CalibrationError(`camera ${camera.id} has no zone ${JSON.stringify(zoneId)}`);
+      if (zone.kind !== 'room') throw new CalibrationError(`zone ${zoneId} is a shelf zone; only room zones count people`);
+      if (!(Number.isInteger(count) && count >= 0 && count <= 10_000)) throw new RangeError(`count must be a whole number from 0 to 10000, got ${count}`);
+      if (!counter || lastRule === undefined || Date.now() - lastCountedWall > 15_000) {
+        throw new CalibrationError(`camera ${camera.id} has not counted a frame in the last 15 s; try again when it is counting`);
+      }
+      if (viewChanged) throw new CalibrationError(`camera ${camera.id}: the view looks changed, so what it sees now cannot calibrate counts; learn the empty scene again first`);
+      const features = zoneCountFeatures(lastRule, counter.lastMask(), counter.zones, new Set([zoneId])).get(zoneId);
+      if (features === undefined) throw new CalibrationError(`zone ${zoneId} was not counted in the last frame; try again`);
+      store.insertCalibrationPoint({ camera: camera.id, zone: zoneId, count, features, zoneShape: zoneShapeKey(zone, camera.threshold), givenBy: by });
+      const { status, regression } = fitStoredCalibration(store, camera.id, zone, camera.threshold);
+      if (regression !== undefined) regressions.set(zoneId, regression);
+      else regressions.delete(zoneId);
+      event('calibration-added', { count, counted: features[0], by, points: status.points.length, inUse: status.inUse, text: status.text }, zoneId);
+      log(`camera ${camera.id}: ${count} people in zone ${zoneId} given by the ${by} (counted ${features[0]}); ${status.text}`);
+      return status;
+    },
+    reloadCalibration() {
+      regressions = loadRegressions();
     },
   });
   return emitter;

@@ -24,6 +24,7 @@ import type { CameraWorkerData, FromWorker, ToWorker, WorkerHeap } from './camer
 import { learnInWorker, liveLearning } from './learnInWorker.ts';
 import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
+import { CalibrationError } from './zoneCalibration.ts';
 
 const data = workerData as CameraWorkerData;
 const port = parentPort!;
@@ -153,6 +154,16 @@ port.on('message', (message: ToWorker) => {
         pipeline.useModel(message.model, message.id);
         post({ type: 'model', model: message.model, id: message.id });
         log(`camera ${camera.id}: counting with model ${message.id} now`);
+        break;
+      case 'calibrate':
+        try {
+          post({ type: 'calibrated', request: message.request, status: pipeline.calibrate(message.zone, message.count, message.by) });
+        } catch (error) {
+          post({ type: 'calibrated', request: message.request, error: (error as Error).message, refused: error instanceof CalibrationError || error instanceof RangeError });
+        }
+        break;
+      case 'calibration':
+        pipeline.reloadCalibration();
         break;
       case 'stop':
         void stop();

@@ -10,6 +10,7 @@ import type { Sample } from '../store/samples.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import type { CameraLive, LearnStatus } from './cameraPipeline.ts';
 import type { Zone } from './zone.ts';
+import type { ZoneCalibrationStatus } from './zoneCalibration.ts';
 
 /**
  * A fault the worker simulates, for tests of the service and for the soak benchmark (never set
@@ -68,8 +69,23 @@ export interface UseModelMessage {
   readonly id: number;
 }
 
-/** Main thread → worker. */
-export type ToWorker = ZonesMessage | UseModelMessage | { readonly type: 'relearn'; readonly seconds: number } | { readonly type: 'stop' };
+/** "There are `count` people in room zone `zone` now" (see CameraPipeline.calibrate); answered by a `calibrated` with the same `request`. */
+export interface CalibrateMessage {
+  readonly type: 'calibrate';
+  readonly request: number;
+  readonly zone: string;
+  readonly count: number;
+  readonly by: string;
+}
+
+/** Main thread → worker. `calibration`: the zones' calibration points changed in the store (read them again). */
+export type ToWorker =
+  | ZonesMessage
+  | UseModelMessage
+  | CalibrateMessage
+  | { readonly type: 'calibration' }
+  | { readonly type: 'relearn'; readonly seconds: number }
+  | { readonly type: 'stop' };
 
 /** Stage timings measured since the last message: [stage label, seconds] pairs. */
 export type StageTimes = readonly (readonly [string, number])[];
@@ -100,6 +116,11 @@ export type FromWorker =
   | { readonly type: 'sample'; readonly sample: Sample }
   /** An event the worker's store committed (only with `relayCommits`). */
   | { readonly type: 'event'; readonly event: PublishedEvent }
+  /**
+   * The answer to a CalibrateMessage: the zone's calibration after the point was stored, or why
+   * it could not be (`refused`: a CalibrationError, e.g. no recent frame; otherwise a fault).
+   */
+  | { readonly type: 'calibrated'; readonly request: number; readonly status?: ZoneCalibrationStatus; readonly error?: string; readonly refused?: boolean }
   /** A bad frame or a failed connection of the source. */
   | { readonly type: 'sourceError' }
   | { readonly type: 'log'; readonly line: string }

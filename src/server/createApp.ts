@@ -12,6 +12,7 @@ import type { FailureLimiter } from './failureLimiter.ts';
 import { HttpError } from './HttpError.ts';
 import type { LiveStreamOptions } from './liveStream.ts';
 import { liveView } from './liveView.ts';
+import { calibrationRoutes } from './routes/calibration.ts';
 import { cameraRoutes } from './routes/cameras.ts';
 import { capacityRoutes } from './routes/capacity.ts';
 import { exportRoutes } from './routes/export.ts';
@@ -137,6 +138,7 @@ export function createApp(deps: AppDeps): express.Express {
   api.use(learnRoutes(ctx));
   api.use(modelRoutes(ctx));
   api.use(personSizeRoutes(ctx));
+  api.use(calibrationRoutes(ctx));
   api.use(settingsRoutes(ctx));
   api.use(capacityRoutes(ctx));
   api.use((_req, _res, next) => next(new HttpError(404, 'no such API route')));

@@ -2,6 +2,7 @@ import type { EventEmitter } from 'node:events';
 import type { CameraLive, LearnStatus } from '../counting/cameraPipeline.ts';
 import type { Zone } from '../counting/zone.ts';
 import type { ModelVerdict } from '../counting/modelVerdict.ts';
+import type { ZoneCalibrationStatus } from '../counting/zoneCalibration.ts';
 
 /** An 8-bit grey image (the learned empty scene) or a coarse 0/1 mask; row-major, x right, y down. */
 export interface SmallImage {
@@ -79,6 +80,16 @@ export interface ServiceControl extends EventEmitter {
    * ModelChoiceError for a model that does not fit the camera (another working size, unreadable).
    */
   activateModel(camera: string, id: number, by: string): { readonly model: KeptModel; readonly changed: boolean } | undefined;
+  /** The calibration of the camera's room zones (all, or just `zone`); undefined for an unknown camera. */
+  calibration(camera: string, zone?: string): readonly ZoneCalibrationStatus[] | undefined;
+  /**
+   * "There are `count` people in `zone` now", given by `by` (see CameraPipeline.calibrate).
+   * Rejects with CalibrationError (→ 409) when the camera cannot take it now, RangeError for an
+   * unknown camera (→ 404).
+   */
+  calibrate(camera: string, zone: string, count: number, by: string): Promise<ZoneCalibrationStatus>;
+  /** Removes a room zone's calibration points (event `calibration-cleared` by `by`); returns how many. */
+  clearCalibration(camera: string, zone: string, by: string): number;
 }
 
 /** A kept model that cannot be put to use (another working size than the camera's, or unreadable). */

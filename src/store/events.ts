@@ -29,6 +29,10 @@ export const EventType = {
   modelStale: 'model-stale',
   /** Settings (zones, thresholds) were changed. */
   settingsChanged: 'settings-changed',
+  /** Someone gave the number of people in a room zone (a calibration point). */
+  calibrationAdded: 'calibration-added',
+  /** A room zone's calibration points were removed. */
+  calibrationCleared: 'calibration-cleared',
 } as const;
 export type EventType = (typeof EventType)[keyof typeof EventType];
 

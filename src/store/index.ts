@@ -28,5 +28,6 @@ export {
 export { EventType, type EventInput, type EventQuery, type EventStore, type StoredEvent } from './events.ts';
 export { type InsertModelOptions, type ModelInfo, type ModelInput, type ModelRecord, type ModelStore } from './models.ts';
 export { SettingKey, type SettingStore } from './settings.ts';
+export { type CalibrationPointInput, type CalibrationStore, type StoredCalibrationPoint } from './calibration.ts';
 export { DEFAULT_RETENTION, type PruneResult, type RetentionPolicy, type RetentionStore } from './retention.ts';
 export { ID_PATTERN } from './validate.ts';

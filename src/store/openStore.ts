@@ -1,6 +1,7 @@
 import { mkdirSync } from 'node:fs';
 import { dirname } from 'node:path';
 import Database from 'better-sqlite3';
+import { prepareCalibration, type CalibrationStore } from './calibration.ts';
 import { prepareCameras, type CameraStore } from './cameras.ts';
 import { prepareEvents, type EventStore } from './events.ts';
 import { prepareModels, type ModelStore } from './models.ts';
@@ -27,7 +28,7 @@ export interface OpenStoreOptions {
 
 /** An open store: every table's methods, statements prepared once at open. */
 export interface Store
-  extends CameraStore, ZoneStore, SampleStore, RollupStore, EventStore, ModelStore, SettingStore, RetentionStore {
+  extends CameraStore, ZoneStore, SampleStore, RollupStore, EventStore, ModelStore, SettingStore, RetentionStore, CalibrationStore {
   /** The database file. */
   readonly file: string;
   /** The site's IANA zone this store was opened with. */
@@ -97,6 +98,7 @@ export function openStore(file: string, options: OpenStoreOptions = {}): Store {
       ...prepareRollups(db, retention.samplesPrunedBefore),
       ...prepareEvents(db, clock),
       ...prepareModels(db, clock),
+      ...prepareCalibration(db, clock),
     };
     return store;
   } catch (error) {

@@ -136,6 +136,31 @@ export const migrations: readonly Migration[] = [
       );
     `,
   },
+  {
+    version: 3,
+    description: 'calibration points: people counted by hand in a room zone, with the numbers the camera measured then',
+    up: `
+      -- "There are N people in this zone now": the count given and the zone's count features at
+      -- that moment (the blob rule's count, foreground area and edge in person sizes, blobs).
+      -- Numbers only, never a frame. zone_shape identifies the zone's shape and settings the
+      -- features were measured with; points of another shape are not used.
+      CREATE TABLE calibration_points (
+        id         INTEGER NOT NULL PRIMARY KEY,
+        camera     TEXT    NOT NULL,
+        zone       TEXT    NOT NULL,
+        time       INTEGER NOT NULL,
+        count      INTEGER NOT NULL CHECK (count BETWEEN 0 AND 100000),
+        rule       REAL    NOT NULL,
+        area       REAL    NOT NULL,
+        edge       REAL    NOT NULL,
+        blobs      REAL    NOT NULL,
+        zone_shape TEXT    NOT NULL,
+        given_by   TEXT    NOT NULL,
+        FOREIGN KEY (camera, zone) REFERENCES zones (camera, id)
+      ) STRICT;
+      CREATE INDEX calibration_points_by_zone ON calibration_points (camera, zone, time);
+    `,
+  },
 ];
 
 /** The version a database has after all {@link migrations}. */

@@ -1,7 +1,7 @@
 import Database from 'better-sqlite3';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { join } from 'node:path';
-import { migrate, migrations, openStore } from '../../src/store/index.ts';
+import { migrate, migrations, openStore, SCHEMA_VERSION } from '../../src/store/index.ts';
 import { tempStore, type TempStore } from './tempStore.ts';
 
 /** Deterministic pseudo-random bytes (a linear congruential generator). */
@@ -185,7 +185,7 @@ describe('migration 2 of a database written before models were kept and chosen',
     const store = openStore(file);
     t.store.close();
     t.store = store;
-    expect(store.db.pragma('user_version', { simple: true })).toBe(2);
+    expect(store.db.pragma('user_version', { simple: true })).toBe(SCHEMA_VERSION);
     const door = store.listModels('door');
     expect(door.map((m) => [m.created, m.active, m.rejected])).toEqual([
       [100, false, false],

@@ -5,7 +5,7 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { migrate, openStore, SCHEMA_VERSION, SettingKey, type Migration } from '../../src/store/index.ts';
 import { addCameraWithZones, tempStore, type TempStore } from './tempStore.ts';
 
-const TABLES = ['cameras', 'events', 'models', 'rollups', 'samples', 'settings', 'zone_history', 'zones'];
+const TABLES = ['calibration_points', 'cameras', 'events', 'models', 'rollups', 'samples', 'settings', 'zone_history', 'zones'];
 
 function tableNames(db: Database.Database): string[] {
   return (db.prepare("SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name").all() as { name: string }[]).map((r) => r.name);
@@ -19,7 +19,7 @@ describe('openStore', () => {
   afterEach(() => t.cleanup());
 
   it('migrates an empty file to the current schema version with all tables', () => {
-    expect(SCHEMA_VERSION).toBe(2);
+    expect(SCHEMA_VERSION).toBe(3);
     expect(t.store.db.pragma('user_version', { simple: true })).toBe(SCHEMA_VERSION);
     expect(tableNames(t.store.db)).toEqual(TABLES);
   });
