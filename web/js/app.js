@@ -1,6 +1,7 @@
 // Dashboard entry: site facts, the key, the live stream, and switching between the views.
 import { api, ApiError, explain, followLive, getKey, onKeyChange, setKey } from './api.js';
 import { $, $$ } from './dom.js';
+import { createCalibrationPanel } from './calibration.js';
 import { createCapacityView } from './capacity.js';
 import { createHistoryView } from './history.js';
 import { createNowView } from './live.js';
@@ -39,10 +40,18 @@ async function boot() {
   document.title = app.site.site ? `Residuum · ${app.site.site}` : 'Residuum';
   await refreshRole();
 
+  const zones = createZonesView(app);
+  const calibration = createCalibrationPanel(app);
   const views = {
     now: createNowView(app),
     history: createHistoryView(app),
-    zones: createZonesView(app),
+    zones: {
+      ...zones,
+      async show() {
+        await zones.show();
+        calibration.show();
+      },
+    },
     capacity: createCapacityView(app),
   };
   let current;
