@@ -12,6 +12,9 @@ import { createMetrics, type Metrics } from '../outputs/metrics.ts';
 import { createMqttPublisher } from '../outputs/mqtt/mqttPublisher.ts';
 import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
 import { siteSlug } from '../outputs/mqtt/topics.ts';
+import { startAlerts, type AlertService, type StartAlertsOptions } from '../outputs/alerts/startAlerts.ts';
+import { readDisplaySettings } from '../server/displaySettings.ts';
+import { liveView } from '../server/liveView.ts';
 import { decodeModel, encodeModel, loadModel } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
 import { storedVerdict, storeModel, type StoredVerdict } from '../counting/storeModel.ts';
@@ -46,6 +49,8 @@ export interface RunningService {
   readonly port: number;
   /** Keys made at this start (first start, or --reset-token), to show once; empty otherwise. */
   readonly newTokens: NewTokens;
+  /** Alerts by webhook and e-mail, when the configuration has an `alerts` section. */
+  readonly alerts?: AlertService;
   stop(): Promise<void>;
 }
 
@@ -99,6 +104,8 @@ export interface StartServiceOptions {
   readonly workerYoungGenerationMb?: number;
   /** Tests and the soak benchmark only: a fault to simulate, by camera id (see WorkerFault); default none. */
   readonly workerFaults?: Readonly<Record<string, WorkerFault>>;
+  /** Tests only: how often alerts look at the live view and how long they wait between retries (see StartAlertsOptions). */
+  readonly alerts?: Pick<StartAlertsOptions, 'checkMs' | 'retryBackoff'>;
 }
 
 /**
@@ -237,8 +244,20 @@ export async function startService(config: ResiduumConfig, options: StartService
   const address = server.address();
   // After listening succeeded, so that a key is never made without being shown.
   const newTokens = prepareTokens(store, { viewToken: config.server.viewToken, reset: options.resetToken === true });
+  // Alerts look at the same live view as the dashboard (levels, low-stock marks, camera status).
+  const alerts: AlertService | undefined =
+    config.alerts &&
+    startAlerts({
+      settings: config.alerts,
+      site: config.site.name,
+      events: mainEvents,
+      log,
+      observe: () => liveView([...hosts.values()].map((h) => h.live()), readDisplaySettings(store)).cameras,
+      ...options.alerts,
+    });
   return {
     newTokens,
+    ...(alerts && { alerts }),
     store,
     cameras: hosts,
     server,
@@ -247,6 +266,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     port: typeof address === 'object' && address ? address.port : 0,
     async stop() {
       if (retention) clearInterval(retention);
+      await alerts?.stop();
       await stopCameras();
       await mqtt?.stop();
       server.closeAllConnections();
