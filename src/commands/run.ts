@@ -1,6 +1,6 @@
 import { EventEmitter } from 'node:events';
 import type { Server } from 'node:http';
-import { join, resolve } from 'node:path';
+import { dirname, join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraHost, type CameraHost } from '../counting/cameraHost.ts';
 import { createShadowRoom } from '../frames/synthetic/shadowRoom.ts';
@@ -14,6 +14,7 @@ import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
 import { siteSlug } from '../outputs/mqtt/topics.ts';
 import { startAlerts, type AlertService, type StartAlertsOptions } from '../outputs/alerts/startAlerts.ts';
 import { readDisplaySettings } from '../server/displaySettings.ts';
+import { cameraAdmin, storedCameras } from './addedCameras.ts';
 import { liveView } from '../server/liveView.ts';
 import { decodeModel, encodeModel, loadModel } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
@@ -124,6 +125,11 @@ export async function startService(config: ResiduumConfig, options: StartService
   const keepModels = config.models?.keep ?? 5;
   const dbFile = join(resolve(dataDir), 'residuum.db');
   const store = openStore(dbFile, { timeZone: config.site.timeZone });
+  const configIds = new Set(config.cameras.map((c) => c.id));
+  // Cameras added from the dashboard (kept in the database) run beside the configured ones.
+  config = { ...config, cameras: [...config.cameras, ...storedCameras(store, config, log)] };
+  const cameraList = [...config.cameras];
+  let startCamera: ((camera: CameraConfig, chosen?: CameraModel) => CameraHost) | undefined;
   const hosts = new Map<string, CameraHost>();
   let retention: NodeJS.Timeout | undefined;
   // MQTT is best-effort after the database: samples and events are published once committed.
@@ -157,8 +163,7 @@ export async function startService(config: ResiduumConfig, options: StartService
       const pruned = store.pruneModels(camera.id, keepModels);
       if (pruned.length > 0) log(`camera ${camera.id}: deleted ${pruned.length} older model${pruned.length === 1 ? '' : 's'} (models.keep is ${keepModels})`);
     }
-    for (const camera of config.cameras) {
-      const chosen = models.get(camera.id);
+    startCamera = (camera: CameraConfig, chosen = models.get(camera.id)): CameraHost => {
       const fault = workerFaults[camera.id];
       const host = createCameraHost({
         camera,
@@ -193,7 +198,9 @@ export async function startService(config: ResiduumConfig, options: StartService
         host.on('event', (event) => quietly('an event', () => mqtt.publishEvent(event)));
       }
       log(`camera ${camera.id}: started (${camera.source.kind}, ${camera.zones.length} zone${camera.zones.length === 1 ? '' : 's'}) in its own thread`);
-    }
+      return host;
+    };
+    for (const camera of config.cameras) startCamera(camera);
     await Promise.all([...hosts.values()].map((h) => h.ready()));
     const prune = () => {
       const { deleted, rollupsDeleted = 0 } = store.applyRetention({
@@ -213,7 +220,24 @@ export async function startService(config: ResiduumConfig, options: StartService
     store.close();
     throw error;
   }
-  const control = serviceControl(store, mainEvents, hosts, config.cameras);
+  const control = serviceControl(store, mainEvents, hosts, cameraList);
+  Object.assign(
+    control,
+    cameraAdmin({
+      store,
+      configIds,
+      hosts,
+      cameras: cameraList,
+      control,
+      base: dirname(resolve(config.file)),
+      log,
+      async start(camera) {
+        store.upsertCamera({ id: camera.id, name: camera.name });
+        for (const zone of camera.zones) store.upsertZone(camera.id, zone);
+        return startCamera!(camera, await cameraModel(camera, store, keepModels, log));
+      },
+    }),
+  );
   const app = createApp({
     store,
     control,
@@ -355,7 +379,6 @@ function keptCopy(store: Store, camera: string, file: string, model: Subspace): 
 /** The service as the HTTP layer sees it (see ServiceControl). */
 function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts: ReadonlyMap<string, CameraHost>, cameras: readonly CameraConfig[]): ServiceControl {
   const control = new EventEmitter() as ServiceControl;
-  const sizes = new Map(cameras.map((c) => [c.id, c.source.size]));
   /** Verdicts of kept models by id (models stored before their findings were kept are decoded once). */
   const verdicts = new Map<number, StoredVerdict>();
   const kept = (info: ModelInfo): KeptModel => {
@@ -439,7 +462,7 @@ function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts:
       const h = host(camera);
       const record = Number.isSafeInteger(id) && id >= 1 ? store.getModel(id) : undefined;
       if (!record || record.camera !== camera) return undefined;
-      const size = sizes.get(camera)!;
+      const size = cameras.find((c) => c.id === camera)!.source.size;
       if (record.width !== size.width || record.height !== size.height) {
         throw new ModelChoiceError(`model ${id} was learned at ${record.width}×${record.height} but camera ${camera} works at ${size.width}×${size.height}`);
       }

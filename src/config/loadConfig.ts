@@ -154,6 +154,15 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   };
 }
 
+/**
+ * Validates one camera (as under `cameras:`) on its own, e.g. a camera added from the dashboard;
+ * messages name `file` and the field under `at` (`request body: camera.source.url must be …`).
+ * Relative paths resolve against `base`.
+ */
+export function validateCameraConfig(raw: unknown, options: { file: string; at: string; base: string }): CameraConfig {
+  return validateCamera(raw, options.at, configFail(options.file), options.file, options.base);
+}
+
 const cameraKeys = ['id', 'name', 'source', 'size', 'model', 'learnSeconds', 'sampleSeconds', 'smoothing', 'threshold', 'adaptToDrift', 'zones'];
 
 function validateCamera(raw: unknown, at: string, fail: Fail, file: string, base: string): CameraConfig {

@@ -13,6 +13,7 @@ import { HttpError } from './HttpError.ts';
 import type { LiveStreamOptions } from './liveStream.ts';
 import { liveView } from './liveView.ts';
 import { cameraRoutes } from './routes/cameras.ts';
+import { cameraAdminRoutes } from './routes/cameraAdmin.ts';
 import { capacityRoutes } from './routes/capacity.ts';
 import { exportRoutes } from './routes/export.ts';
 import { healthRoutes } from './routes/health.ts';
@@ -134,6 +135,7 @@ export function createApp(deps: AppDeps): express.Express {
   api.use(historyRoutes(ctx));
   api.use(exportRoutes(ctx));
   api.use(cameraRoutes(ctx));
+  api.use(cameraAdminRoutes(ctx));
   api.use(learnRoutes(ctx));
   api.use(modelRoutes(ctx));
   api.use(personSizeRoutes(ctx));
