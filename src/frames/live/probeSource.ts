@@ -48,7 +48,7 @@ export async function probeSource(description: CameraSourceDescription, options:
   let lastBad: FrameError | undefined;
   let timer: NodeJS.Timeout | undefined;
   const outcome = new Promise<ProbeResult>((resolve, reject) => {
-    timer = setTimeout(() => reject(new SourceProbeError(lastBad ? lastBad.message : `no picture within ${Math.round(timeoutMs / 1000)} s`)), timeoutMs);
+    timer = setTimeout(() => reject(new SourceProbeError(lastBad ? lastBad.message : `no picture within ${timeoutMs < 1000 ? `${timeoutMs} ms` : `${Math.round(timeoutMs / 1000)} s`}`)), timeoutMs);
     source.start({
       frame() {
         resolve(sourceSize ? { sourceSize } : {});
