@@ -1,8 +1,11 @@
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { parse as parseYaml } from 'yaml';
 import { afterAll, describe, expect, it } from 'vitest';
 import { ConfigError, validateConfig } from '../../../src/config/loadConfig.ts';
+import { alertMessage, type AlertMessage } from '../../../src/outputs/alerts/alertMessage.ts';
 import { validateAlertSettings } from '../../../src/outputs/alerts/alertSettings.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'residuum-alert-settings-'));
@@ -65,5 +68,29 @@ describe('validateAlertSettings', () => {
     expect(() => validateConfig({ cameras: [{ id: 'a', source: { kind: 'synthetic', scene: 'reading-room' } }], alerts: { webhook: [hook] } }, 'site.yaml')).toThrow(
       /^site\.yaml: alerts\.webhook is not a known setting here/,
     );
+  });
+});
+
+describe('the README', () => {
+  const readme = readFileSync(fileURLToPath(new URL('../../../README.md', import.meta.url)), 'utf8');
+  const section = readme.slice(readme.indexOf('## Alerts'), readme.indexOf('## Counting in real rooms'));
+  const block = (lang: string, n = 0) => section.split('```' + lang + '\n')[n + 1].split('```')[0];
+
+  it('has an alerts example that validates', () => {
+    mkdirSync(join(dir, 'secrets'), { recursive: true });
+    writeFileSync(join(dir, 'secrets', 'smtp-password'), 'x\n');
+    const settings = validateAlertSettings((parseYaml(block('yaml')) as { alerts: unknown }).alerts, { base: dir, env: { RESIDUUM_WEBHOOK_SECRET: 'y' } });
+    expect(settings.webhooks[0].rules).toEqual(['over-capacity', 'camera-offline']);
+    expect(settings.email?.to).toHaveLength(2);
+  });
+
+  it('shows a message as alertMessage makes it', () => {
+    const shown = JSON.parse(block('json')) as AlertMessage;
+    const made = alertMessage(
+      { rule: 'over-capacity', phase: 'started', camera: 'reading-room', cameraName: 'Reading room', zone: 'tables', zoneName: 'Reading tables', since: Date.parse(shown.since), at: Date.parse(shown.at), figures: { count: 12, capacity: 10, peak: 12 } },
+      'Riverside branch library',
+      shown.id,
+    );
+    expect(made).toEqual(shown);
   });
 });
