@@ -22,7 +22,7 @@ import { startSmtpServer, startWebhookReceiver, type ReceivedMail, type WebhookR
 
 const WIDTH = 80;
 const HEIGHT = 60;
-const QUIET_SECONDS = 6;
+const QUIET_SECONDS = 10;
 const root = mkdtempSync(join(tmpdir(), 'residuum-service-alerts-'));
 let empty: Buffer[] = [];
 let person: Buffer;
