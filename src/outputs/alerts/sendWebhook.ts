@@ -22,7 +22,8 @@ export function signBody(body: string, secret: string): string {
 /**
  * One attempt: POSTs the message as JSON (UTF-8) to the webhook, with the signature header when it
  * has a secret, and waits at most `timeoutMs` for the answer. Any 2xx answer is success; the body
- * of the answer is read and dropped.
+ * of the answer is read and dropped. A redirect is not followed (the signed body must not travel on
+ * to another address unasked): a 3xx answer fails for good, like a 4xx.
  *
  * @throws DeliveryError: `retry` for a timeout, a network error, 408, 429 and 5xx; not for other answers.
  */
@@ -33,7 +34,7 @@ export async function sendWebhook(hook: Pick<WebhookSettings, 'url' | 'secret' |
   const timeout = AbortSignal.timeout(hook.timeoutMs);
   let response: Response;
   try {
-    response = await fetch(hook.url, { method: 'POST', headers, body, redirect: 'error', signal: signal ? AbortSignal.any([signal, timeout]) : timeout });
+    response = await fetch(hook.url, { method: 'POST', headers, body, redirect: 'manual', signal: signal ? AbortSignal.any([signal, timeout]) : timeout });
   } catch (error) {
     const e = error as Error & { cause?: { code?: string; message?: string } };
     const why = timeout.aborted ? `no answer within ${hook.timeoutMs / 1000} s` : (e.cause?.code ?? e.cause?.message ?? e.message);

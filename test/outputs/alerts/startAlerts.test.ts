@@ -125,6 +125,18 @@ describe('startAlerts', () => {
     expect(s.listEvents({ type: 'alert-failed' }).map((e) => (e.detail as { attempts: number }).attempts)).toEqual([3, 1]);
   });
 
+  it('does not follow a redirect, and does not try it again', async () => {
+    const hook = await receiver();
+    hook.answer = () => 302;
+    const s = store();
+    const a = alerts({ settings: validateAlertSettings({ webhooks: [{ url: hook.url }] }), site: 'Test site', observe, events: s, checkMs: 60_000, retryBackoff: { initialMs: 10, maxMs: 20 } });
+    count = 11;
+    a.check();
+    await a.idle();
+    expect(hook.received).toHaveLength(1);
+    expect(s.listEvents({ type: 'alert-failed' })).toMatchObject([{ detail: { attempts: 1, error: expect.stringMatching(/HTTP 302/) } }]);
+  });
+
   it('never blocks: a receiver that does not answer leaves the checks running and other channels delivering', async () => {
     const slow = await receiver();
     slow.answer = () => 'hang';
