@@ -1,6 +1,6 @@
 import { EventEmitter } from 'node:events';
 import type { Server } from 'node:http';
-import { join, resolve } from 'node:path';
+import { dirname, join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraHost, type CameraHost } from '../counting/cameraHost.ts';
 import { createShadowRoom } from '../frames/synthetic/shadowRoom.ts';
@@ -12,6 +12,10 @@ import { createMetrics, type Metrics } from '../outputs/metrics.ts';
 import { createMqttPublisher } from '../outputs/mqtt/mqttPublisher.ts';
 import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
 import { siteSlug } from '../outputs/mqtt/topics.ts';
+import { startAlerts, type AlertService, type StartAlertsOptions } from '../outputs/alerts/startAlerts.ts';
+import { readDisplaySettings } from '../server/displaySettings.ts';
+import { cameraAdmin, storedCameras } from './addedCameras.ts';
+import { liveView } from '../server/liveView.ts';
 import { decodeModel, encodeModel, loadModel } from '../counting/modelFile.ts';
 import { modelVerdict } from '../counting/modelVerdict.ts';
 import { fitStoredCalibration } from '../counting/zoneCalibration.ts';
@@ -47,6 +51,8 @@ export interface RunningService {
   readonly port: number;
   /** Keys made at this start (first start, or --reset-token), to show once; empty otherwise. */
   readonly newTokens: NewTokens;
+  /** Alerts by webhook and e-mail, when the configuration has an `alerts` section. */
+  readonly alerts?: AlertService;
   stop(): Promise<void>;
 }
 
@@ -100,6 +106,8 @@ export interface StartServiceOptions {
   readonly workerYoungGenerationMb?: number;
   /** Tests and the soak benchmark only: a fault to simulate, by camera id (see WorkerFault); default none. */
   readonly workerFaults?: Readonly<Record<string, WorkerFault>>;
+  /** Tests only: how often alerts look at the live view and how long they wait between retries (see StartAlertsOptions). */
+  readonly alerts?: Pick<StartAlertsOptions, 'checkMs' | 'retryBackoff'>;
 }
 
 /**
@@ -118,6 +126,11 @@ export async function startService(config: ResiduumConfig, options: StartService
   const keepModels = config.models?.keep ?? 5;
   const dbFile = join(resolve(dataDir), 'residuum.db');
   const store = openStore(dbFile, { timeZone: config.site.timeZone });
+  const configIds = new Set(config.cameras.map((c) => c.id));
+  // Cameras added from the dashboard (kept in the database) run beside the configured ones.
+  config = { ...config, cameras: [...config.cameras, ...storedCameras(store, config, log)] };
+  const cameraList = [...config.cameras];
+  let startCamera: ((camera: CameraConfig, chosen?: CameraModel) => CameraHost) | undefined;
   const hosts = new Map<string, CameraHost>();
   let retention: NodeJS.Timeout | undefined;
   // MQTT is best-effort after the database: samples and events are published once committed.
@@ -151,8 +164,7 @@ export async function startService(config: ResiduumConfig, options: StartService
       const pruned = store.pruneModels(camera.id, keepModels);
       if (pruned.length > 0) log(`camera ${camera.id}: deleted ${pruned.length} older model${pruned.length === 1 ? '' : 's'} (models.keep is ${keepModels})`);
     }
-    for (const camera of config.cameras) {
-      const chosen = models.get(camera.id);
+    startCamera = (camera: CameraConfig, chosen = models.get(camera.id)): CameraHost => {
       const fault = workerFaults[camera.id];
       const host = createCameraHost({
         camera,
@@ -187,7 +199,9 @@ export async function startService(config: ResiduumConfig, options: StartService
         host.on('event', (event) => quietly('an event', () => mqtt.publishEvent(event)));
       }
       log(`camera ${camera.id}: started (${camera.source.kind}, ${camera.zones.length} zone${camera.zones.length === 1 ? '' : 's'}) in its own thread`);
-    }
+      return host;
+    };
+    for (const camera of config.cameras) startCamera(camera);
     await Promise.all([...hosts.values()].map((h) => h.ready()));
     const prune = () => {
       const { deleted, rollupsDeleted = 0 } = store.applyRetention({
@@ -207,7 +221,24 @@ export async function startService(config: ResiduumConfig, options: StartService
     store.close();
     throw error;
   }
-  const control = serviceControl(store, mainEvents, hosts, config.cameras);
+  const control = serviceControl(store, mainEvents, hosts, cameraList);
+  Object.assign(
+    control,
+    cameraAdmin({
+      store,
+      configIds,
+      hosts,
+      cameras: cameraList,
+      control,
+      base: dirname(resolve(config.file)),
+      log,
+      async start(camera) {
+        store.upsertCamera({ id: camera.id, name: camera.name });
+        for (const zone of camera.zones) store.upsertZone(camera.id, zone);
+        return startCamera!(camera, await cameraModel(camera, store, keepModels, log));
+      },
+    }),
+  );
   const app = createApp({
     store,
     control,
@@ -238,8 +269,20 @@ export async function startService(config: ResiduumConfig, options: StartService
   const address = server.address();
   // After listening succeeded, so that a key is never made without being shown.
   const newTokens = prepareTokens(store, { viewToken: config.server.viewToken, reset: options.resetToken === true });
+  // Alerts look at the same live view as the dashboard (levels, low-stock marks, camera status).
+  const alerts: AlertService | undefined =
+    config.alerts &&
+    startAlerts({
+      settings: config.alerts,
+      site: config.site.name,
+      events: mainEvents,
+      log,
+      observe: () => liveView([...hosts.values()].map((h) => h.live()), readDisplaySettings(store)).cameras,
+      ...options.alerts,
+    });
   return {
     newTokens,
+    ...(alerts && { alerts }),
     store,
     cameras: hosts,
     server,
@@ -248,6 +291,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     port: typeof address === 'object' && address ? address.port : 0,
     async stop() {
       if (retention) clearInterval(retention);
+      await alerts?.stop();
       await stopCameras();
       await mqtt?.stop();
       server.closeAllConnections();
@@ -336,8 +380,6 @@ function keptCopy(store: Store, camera: string, file: string, model: Subspace): 
 /** The service as the HTTP layer sees it (see ServiceControl). */
 function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts: ReadonlyMap<string, CameraHost>, cameras: readonly CameraConfig[]): ServiceControl {
   const control = new EventEmitter() as ServiceControl;
-  const sizes = new Map(cameras.map((c) => [c.id, c.source.size]));
-  const thresholds = new Map(cameras.map((c) => [c.id, c.threshold]));
   /** Verdicts of kept models by id (models stored before their findings were kept are decoded once). */
   const verdicts = new Map<number, StoredVerdict>();
   const kept = (info: ModelInfo): KeptModel => {
@@ -421,7 +463,7 @@ function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts:
       const h = host(camera);
       const record = Number.isSafeInteger(id) && id >= 1 ? store.getModel(id) : undefined;
       if (!record || record.camera !== camera) return undefined;
-      const size = sizes.get(camera)!;
+      const size = cameras.find((c) => c.id === camera)!.source.size;
       if (record.width !== size.width || record.height !== size.height) {
         throw new ModelChoiceError(`model ${id} was learned at ${record.width}×${record.height} but camera ${camera} works at ${size.width}×${size.height}`);
       }
@@ -460,7 +502,7 @@ function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts:
     calibration(camera: string, zone?: string) {
       const h = hosts.get(camera);
       if (!h) return undefined;
-      const threshold = thresholds.get(camera)!;
+      const threshold = cameras.find((c) => c.id === camera)!.threshold;
       return h.zones().filter((z) => z.kind === 'room' && (zone === undefined || z.id === zone)).map((z) => fitStoredCalibration(store, camera, z, threshold).status);
     },
     calibrate: (camera: string, zone: string, count: number, by: string) => host(camera).calibrate(zone, count, by),

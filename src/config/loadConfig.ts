@@ -6,6 +6,7 @@ import type { Zone } from '../counting/zone.ts';
 import type { CameraSourceDescription } from '../frames/live/createCameraSource.ts';
 import { sceneIds } from '../frames/synthetic/index.ts';
 import { validateMqttSettings, type MqttSettings } from '../outputs/mqtt/mqttSettings.ts';
+import { validateAlertSettings, type AlertSettings } from '../outputs/alerts/alertSettings.ts';
 
 import { ConfigError } from './ConfigError.ts';
 
@@ -58,6 +59,8 @@ export interface ResiduumConfig {
   readonly models?: { readonly keep: number };
   /** MQTT publishing of counts and events (optional). */
   readonly mqtt?: MqttSettings;
+  /** Alerts by webhook and e-mail (optional; see src/outputs/alerts/alertSettings.ts). */
+  readonly alerts?: AlertSettings;
 }
 
 /** Reads and validates a configuration file (YAML; JSON is YAML too). */
@@ -128,7 +131,7 @@ export function validateCommonSections(root: Record<string, unknown>, fail: Fail
  */
 export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
   const fail = configFail(file);
-  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'models', 'cameras', 'mqtt']);
+  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'models', 'cameras', 'mqtt', 'alerts']);
   const common = validateCommonSections(root, fail, 'Residuum site');
   const cameras = root.cameras;
   if (!Array.isArray(cameras) || cameras.length === 0) fail('cameras', 'must be a list of at least one camera');
@@ -147,7 +150,17 @@ export function validateConfig(doc: unknown, file = 'config'): ResiduumConfig {
     models: { keep: int(models.keep ?? 5, 'models.keep', fail, 1, 50) },
     cameras: parsed,
     ...(root.mqtt !== undefined && { mqtt: validateMqttSettings(root.mqtt, { file, base }) }),
+    ...(root.alerts !== undefined && { alerts: validateAlertSettings(root.alerts, { file, base }) }),
   };
+}
+
+/**
+ * Validates one camera (as under `cameras:`) on its own, e.g. a camera added from the dashboard;
+ * messages name `file` and the field under `at` (`request body: camera.source.url must be …`).
+ * Relative paths resolve against `base`.
+ */
+export function validateCameraConfig(raw: unknown, options: { file: string; at: string; base: string }): CameraConfig {
+  return validateCamera(raw, options.at, configFail(options.file), options.file, options.base);
 }
 
 const cameraKeys = ['id', 'name', 'source', 'size', 'model', 'learnSeconds', 'sampleSeconds', 'smoothing', 'threshold', 'adaptToDrift', 'zones'];

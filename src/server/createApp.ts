@@ -14,6 +14,7 @@ import type { LiveStreamOptions } from './liveStream.ts';
 import { liveView } from './liveView.ts';
 import { calibrationRoutes } from './routes/calibration.ts';
 import { cameraRoutes } from './routes/cameras.ts';
+import { cameraAdminRoutes } from './routes/cameraAdmin.ts';
 import { capacityRoutes } from './routes/capacity.ts';
 import { exportRoutes } from './routes/export.ts';
 import { healthRoutes } from './routes/health.ts';
@@ -135,6 +136,7 @@ export function createApp(deps: AppDeps): express.Express {
   api.use(historyRoutes(ctx));
   api.use(exportRoutes(ctx));
   api.use(cameraRoutes(ctx));
+  api.use(cameraAdminRoutes(ctx));
   api.use(learnRoutes(ctx));
   api.use(modelRoutes(ctx));
   api.use(personSizeRoutes(ctx));

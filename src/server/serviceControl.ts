@@ -90,6 +90,42 @@ export interface ServiceControl extends EventEmitter {
   calibrate(camera: string, zone: string, count: number, by: string): Promise<ZoneCalibrationStatus>;
   /** Removes a room zone's calibration points (event `calibration-cleared` by `by`); returns how many. */
   clearCalibration(camera: string, zone: string, by: string): number;
+  /**
+   * Adds a camera (a parsed JSON body: id, name, source { kind: snapshot | mjpeg, url, … }, size,
+   * learnSeconds, sampleSeconds, zones) after checking that its source gives a picture; stores it
+   * so that it survives restarts and starts it at once. Throws CameraSetupError (400 naming the
+   * field, 409 for an id in use). Absent when the service cannot add cameras.
+   */
+  addCamera?(raw: unknown, by: string): Promise<AddedCamera>;
+  /** Stops and forgets a camera added with addCamera (its stored counts stay); CameraSetupError 404 or 409 (a camera of the configuration file). */
+  removeCamera?(id: string, by: string): Promise<void>;
+}
+
+/** A camera just added: what it is, never its password. */
+export interface AddedCamera {
+  readonly id: string;
+  readonly name: string;
+  readonly kind: string;
+  /** The source URL without credentials and query values. */
+  readonly url: string;
+  /** Working size [width, height]. */
+  readonly size: readonly [number, number];
+  /** The camera's own picture size, when known. */
+  readonly sourceSize?: readonly [number, number];
+  /** Without a stored model, the camera learns the empty scene from this many seconds of frames first. */
+  readonly learnSeconds: number;
+  readonly state: string;
+}
+
+/** A camera that cannot be added or removed; `status` is the HTTP status to answer. */
+export class CameraSetupError extends Error {
+  override name = 'CameraSetupError';
+  constructor(
+    readonly status: 400 | 404 | 409,
+    message: string,
+  ) {
+    super(message);
+  }
 }
 
 /** A kept model that cannot be put to use (another working size than the camera's, or unreadable). */

@@ -33,6 +33,10 @@ export const EventType = {
   calibrationAdded: 'calibration-added',
   /** A room zone's calibration points were removed. */
   calibrationCleared: 'calibration-cleared',
+  /** An alert (over capacity, low stock, camera offline) was delivered to a webhook or by e-mail. */
+  alertSent: 'alert-sent',
+  /** An alert could not be delivered (after its retries); the detail says why. */
+  alertFailed: 'alert-failed',
 } as const;
 export type EventType = (typeof EventType)[keyof typeof EventType];
 
