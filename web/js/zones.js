@@ -2,9 +2,36 @@
 // figures, place reference people (boxes whose size the expected person follows with the distance),
 // preview the coarse foreground mask, learn the empty scene again, and see the history of changes.
 // Coordinates are normalised like the server's: x 0..1 from the left, y 0..1 from the top.
-import { api, apiBlob, explain } from './api.js';
+import { api, apiBlob, ApiError, explain } from './api.js';
 import { $, $$, h, replace } from './dom.js';
-import { dateTime, percent, verdictWords } from './format.js';
+import { createEmptyScenePanel } from './emptyScene.js';
+import { dateTime, percent } from './format.js';
+import { brief, clamp01, clone, hexAlpha, inside, middleAtRow, nearestOnSegment, normRect, round, round4, topLeft } from './zoneGeometry.js';
+
+/** The form's words for the zone fields named in the server's messages. */
+const FIELD_WORDS = {
+  id: 'short id',
+  name: 'name',
+  kind: 'counts',
+  polygon: 'corners',
+  capacity: 'capacity',
+  personArea: 'one person covers',
+  minBlobArea: 'ignore spots smaller than',
+  threshold: 'sensitivity threshold',
+  absorbSeconds: 'time until something left standing counts as part of the shelf',
+  perspective: 'reference people',
+};
+
+/** A field's problem in plain words; the server's own words where they are plain already. */
+function problemWords(field, message) {
+  if (field === 'id' && /^must be/.test(message)) return `use 1 to 64 letters, digits, “-” or “_”, starting with a letter or digit (${message.replace(/^.*got /, 'now ')}).`;
+  if (field === 'id' && /used twice/.test(message)) return 'another zone of this camera has the same id; choose another.';
+  if (field === 'polygon' && /self-intersecting/.test(message)) return 'the outline crosses itself. Move a corner so that no two edges cross.';
+  if (field === 'polygon' && /zero area/.test(message)) return 'the corners lie on one line. Move one so the zone has an area.';
+  if (field === 'polygon' && /at least 3/.test(message)) return 'a zone needs at least three corners.';
+  const text = message.replace(/^\[\d+\](\[\d\])?\s*/, '');
+  return `${text.charAt(0).toUpperCase()}${text.slice(1)}${/[.!?]$/.test(text) ? '' : '.'}`;
+}
 
 const COLOURS = ['#2c5d6e', '#8a5a9e', '#b5651d', '#3d7a57', '#9e3d5a', '#4f6aa8', '#7a7a2e'];
 const HIT_PX = 9;
@@ -32,6 +59,14 @@ export function createZonesView(app) {
   const errorEl = $('#zones-error');
   const okEl = $('#zones-ok');
 
+  const scene = createEmptyScenePanel(app, {
+    camera: () => camera,
+    onModelChanged: async () => {
+      await loadBackground();
+      draw();
+    },
+  });
+
   let cameras = [];
   let camera;
   let saved = [];
@@ -51,9 +86,10 @@ export function createZonesView(app) {
   let frame = { width: 4, height: 3 };
   let mask;
   let maskTimer;
-  let learnTimer;
-  /** Stored id of the empty scene the camera counts with, when known. */
-  let inUse;
+  /** The corner of the selected zone chosen for the keyboard (index), or -1 for the whole zone. */
+  let corner = -1;
+  /** The keyboard's cross while drawing, normalised. */
+  let keyCursor = [0.5, 0.5];
   let visible = false;
 
   // ---- loading ----------------------------------------------------------------------------
@@ -74,7 +110,8 @@ export function createZonesView(app) {
 
   async function selectCamera(id) {
     camera = cameras.find((c) => c.id === id);
-    inUse = undefined;
+    scene.reset();
+    corner = -1;
     if (!camera) return;
     saved = camera.zones.map(clone);
     draft = saved.map(clone);
@@ -95,8 +132,8 @@ export function createZonesView(app) {
     renderForm();
     renderDirty();
     draw();
-    loadModel();
-    loadKept();
+    scene.loadModel();
+    scene.loadKept();
     loadHistory();
     restartMask();
   }
@@ -154,7 +191,7 @@ export function createZonesView(app) {
       const tw = g.measureText(text).width;
       g.fillStyle = 'rgba(255, 253, 248, 0.85)';
       g.fillRect(W - tw - 22 * dpr, H - 34 * dpr, tw + 16 * dpr, 26 * dpr);
-      g.fillStyle = '#5f6b76';
+      g.fillStyle = '#4f5a64';
       g.fillText(text, W - tw - 14 * dpr, H - 16 * dpr);
     }
     if (mask) {
@@ -187,15 +224,16 @@ export function createZonesView(app) {
       g.fillStyle = colour;
       g.fillText(label, lx + 9 * dpr, ly + 19 * dpr);
       if (active && tool === 'select') {
-        for (const p of z.polygon) {
+        z.polygon.forEach((p, k) => {
+          const chosen = k === corner;
           g.beginPath();
-          g.arc(...P(p), 5.5 * dpr, 0, Math.PI * 2);
-          g.fillStyle = '#fffdf8';
+          g.arc(...P(p), (chosen ? 8 : 5.5) * dpr, 0, Math.PI * 2);
+          g.fillStyle = chosen ? '#e0b44c' : '#fffdf8';
           g.fill();
-          g.lineWidth = 2 * dpr;
-          g.strokeStyle = colour;
+          g.lineWidth = (chosen ? 3 : 2) * dpr;
+          g.strokeStyle = chosen ? '#1f2933' : colour;
           g.stroke();
-        }
+        });
       }
     });
     if (drawing.length > 0) {
@@ -216,6 +254,20 @@ export function createZonesView(app) {
         g.lineWidth = 1.5 * dpr;
         g.stroke();
       });
+    }
+    if (tool === 'draw' && document.activeElement === canvas) {
+      // The keyboard's cross (arrow keys move it, Space places a corner there).
+      const [cx, cy] = P(keyCursor);
+      g.lineWidth = 2 * dpr;
+      g.strokeStyle = '#1f2933';
+      g.beginPath();
+      g.moveTo(cx - 12 * dpr, cy);
+      g.lineTo(cx + 12 * dpr, cy);
+      g.moveTo(cx, cy - 12 * dpr);
+      g.lineTo(cx, cy + 12 * dpr);
+      g.stroke();
+      g.strokeStyle = '#e0b44c';
+      g.strokeRect(cx - 4 * dpr, cy - 4 * dpr, 8 * dpr, 8 * dpr);
     }
     drawReferences(P, dpr);
     if (personBox) {
@@ -581,10 +633,12 @@ export function createZonesView(app) {
     const v = hitVertex(p);
     if (v >= 0) {
       drag = { kind: 'vertex', index: v };
+      corner = v;
     } else {
       const z = hitZone(p);
       if (z !== selected) refSelected = -1;
       selected = z;
+      corner = -1;
       if (z >= 0) drag = { kind: 'move', start: p, original: draft[z].polygon.map((q) => [...q]) };
       renderList();
       renderForm();
@@ -706,7 +760,17 @@ export function createZonesView(app) {
     draw();
   });
 
+  // ---- keyboard (WCAG 2.1.1 and 2.5.7: everything the pointer does, without one) -----------
+
+  /** Says what the keyboard just did, for screen readers (a polite live region). */
+  const announce = (text) => {
+    $('#canvas-status').textContent = text;
+  };
+  const where = (p) => `${percent(p[0], 1)} from the left, ${percent(p[1], 1)} from the top`;
+  const cornerText = (z, k) => `Corner ${k + 1} of ${z.polygon.length} of ${z.name || z.id}: ${where(z.polygon[k])}`;
+
   canvas.addEventListener('keydown', (event) => {
+    if (!camera || event.altKey || event.ctrlKey || event.metaKey) return;
     if (tool === 'refs' && refZone() && refSelected >= 0) {
       const step = event.shiftKey ? 0.02 : 0.005;
       const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
@@ -723,14 +787,207 @@ export function createZonesView(app) {
       draw();
       return;
     }
-    if (event.key === 'Enter' && tool === 'draw') finishDrawing();
-    else if (event.key === 'Escape') {
-      drawing = [];
+    if (tool === 'draw') {
+      if (!drawKey(event)) return;
+    } else if (tool === 'select') {
+      if (!selectKey(event)) return;
+    } else if (event.key === 'Escape') {
       personBox = undefined;
-    } else if ((event.key === 'Delete' || event.key === 'Backspace') && tool === 'select' && selected >= 0) deleteSelected();
-    else return;
+    } else return;
     event.preventDefault();
     draw();
+  });
+
+  /** Draw tool: arrows move the cross, Space places a corner, Backspace takes it back, Enter closes, Esc cancels. */
+  function drawKey(event) {
+    const step = event.shiftKey ? 0.05 : 0.01;
+    const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
+    if (event.key in arrows) {
+      const [dx, dy] = arrows[event.key];
+      keyCursor = round([clamp01(keyCursor[0] + dx), clamp01(keyCursor[1] + dy)]);
+      cursor = keyCursor;
+      announce(`Cross at ${where(keyCursor)}`);
+    } else if (event.key === ' ') {
+      drawing.push([...keyCursor]);
+      announce(`Corner ${drawing.length} placed at ${where(keyCursor)}${drawing.length >= 3 ? '. Enter closes the zone.' : ''}`);
+    } else if (event.key === 'Backspace') {
+      drawing.pop();
+      announce(`${drawing.length} corner${drawing.length === 1 ? '' : 's'} placed`);
+    } else if (event.key === 'Enter') {
+      finishDrawing();
+    } else if (event.key === 'Escape') {
+      drawing = [];
+      announce('Drawing cancelled');
+    } else return false;
+    return true;
+  }
+
+  /** Select tool: Z next zone, C next corner (Shift: previous), arrows move, Insert adds, Delete removes, Esc the whole zone. */
+  function selectKey(event) {
+    const z = draft[selected];
+    const key = event.key.length === 1 ? event.key.toLowerCase() : event.key;
+    const step = event.shiftKey ? 0.02 : 0.005;
+    const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
+    if (key === 'z') {
+      if (draft.length === 0) return true;
+      const n = draft.length;
+      choose((selected + (event.shiftKey ? n - 1 : 1) + n) % n);
+      announce(`Zone ${draft[selected].name || draft[selected].id} (${selected + 1} of ${n})`);
+    } else if (!z) {
+      if (key === 'c' || event.key in arrows) announce('No zone chosen: press Z to choose one, or draw one with “Draw zone”.');
+      else return false;
+    } else if (key === 'c') {
+      const n = z.polygon.length;
+      corner = corner < 0 ? (event.shiftKey ? n - 1 : 0) : (corner + (event.shiftKey ? n - 1 : 1)) % n;
+      announce(cornerText(z, corner));
+      renderCorners();
+    } else if (event.key in arrows) {
+      const [dx, dy] = arrows[event.key];
+      if (corner >= 0) {
+        const p = z.polygon[corner];
+        z.polygon[corner] = round([clamp01(p[0] + dx), clamp01(p[1] + dy)]);
+        announce(cornerText(z, corner));
+      } else {
+        z.polygon = shifted(z.polygon, dx, dy);
+        announce(`Zone ${z.name || z.id} moved: its top left at ${where(topLeft(z.polygon))}`);
+      }
+      changed();
+    } else if (event.key === 'Insert' || event.key === '+') {
+      const k = corner < 0 ? z.polygon.length - 1 : corner;
+      const a = z.polygon[k];
+      const b = z.polygon[(k + 1) % z.polygon.length];
+      z.polygon.splice(k + 1, 0, round([(a[0] + b[0]) / 2, (a[1] + b[1]) / 2]));
+      corner = k + 1;
+      changed();
+      announce(`Added. ${cornerText(z, corner)}`);
+    } else if (event.key === 'Delete' || event.key === 'Backspace') {
+      if (corner < 0) {
+        deleteSelected();
+        announce('Zone deleted');
+      } else if (z.polygon.length <= 3) announce('A zone needs at least three corners: this one cannot go.');
+      else {
+        z.polygon.splice(corner, 1);
+        corner = Math.min(corner, z.polygon.length - 1);
+        changed();
+        announce(`Corner removed. ${cornerText(z, corner)}`);
+      }
+    } else if (event.key === 'Escape') {
+      corner = -1;
+      drawing = [];
+      personBox = undefined;
+      renderCorners();
+      announce(`Whole zone ${z.name || z.id} chosen: arrow keys move it`);
+    } else return false;
+    return true;
+  }
+
+  /** The polygon moved by (dx, dy), kept inside the picture. */
+  function shifted(poly, dx, dy) {
+    const xs = poly.map((q) => q[0]);
+    const ys = poly.map((q) => q[1]);
+    const mx = Math.min(1 - Math.max(...xs), Math.max(-Math.min(...xs), dx));
+    const my = Math.min(1 - Math.max(...ys), Math.max(-Math.min(...ys), dy));
+    return poly.map((q) => round([q[0] + mx, q[1] + my]));
+  }
+
+  /** Makes zone i the selected one (list, form and picture follow). */
+  function choose(i) {
+    if (i !== selected) {
+      refSelected = -1;
+      corner = -1;
+    }
+    selected = i;
+    renderList();
+    renderForm();
+    draw();
+  }
+
+  // ---- corners typed as numbers -----------------------------------------------------------
+
+  /** The selected zone's corners as number fields, % of the picture from the left and top. */
+  function renderCorners() {
+    const z = draft[selected];
+    const list = $('#corner-list');
+    if (!z) {
+      replace(list);
+      return;
+    }
+    const many = z.polygon.length > 3;
+    replace(
+      list,
+      z.polygon.map((p, k) =>
+        h(
+          'li',
+          { dataset: { corner: k, chosen: String(k === corner) } },
+          h('span', { class: 'corner-n', id: `corner-${k}-name` }, `Corner ${k + 1}`),
+          h('label', {}, 'left', cornerInput(k, 0, p[0])),
+          h('label', {}, 'top', cornerInput(k, 1, p[1])),
+          h('button', { type: 'button', class: 'quiet', disabled: !many, 'aria-label': `Remove corner ${k + 1}`, onclick: () => removeCorner(k) }, 'Remove'),
+        ),
+      ),
+    );
+  }
+
+  function cornerInput(k, axis, value) {
+    return h('input', {
+      type: 'number',
+      min: '0',
+      max: '100',
+      step: '0.1',
+      inputmode: 'decimal',
+      value: String(Math.round(value * 1000) / 10),
+      'aria-label': `Corner ${k + 1}, % from the ${axis === 0 ? 'left' : 'top'}`,
+      dataset: { corner: k, axis },
+      oninput: (event) => {
+        const z = draft[selected];
+        const v = Number(event.target.value);
+        if (!z || !z.polygon[k] || event.target.value.trim() === '' || !(v >= 0 && v <= 100)) return;
+        z.polygon[k][axis] = Math.round(v * 100) / 10000;
+        corner = k;
+        changed();
+        draw();
+      },
+    });
+  }
+
+  /** Updates the corner fields after the picture moved a corner, without disturbing the one being typed in. */
+  function syncCorners() {
+    const z = draft[selected];
+    const inputs = $$('#corner-list input');
+    if (!z || inputs.length !== z.polygon.length * 2) {
+      renderCorners();
+      return;
+    }
+    for (const input of inputs) {
+      if (input === document.activeElement) continue;
+      input.value = String(Math.round(z.polygon[Number(input.dataset.corner)][Number(input.dataset.axis)] * 1000) / 10);
+    }
+    for (const li of $$('#corner-list li')) li.dataset.chosen = String(Number(li.dataset.corner) === corner);
+  }
+
+  function removeCorner(k) {
+    const z = draft[selected];
+    if (!z || z.polygon.length <= 3) return;
+    z.polygon.splice(k, 1);
+    corner = -1;
+    changed();
+    renderCorners();
+    draw();
+    $(`#corner-list li[data-corner="${Math.min(k, z.polygon.length - 1)}"] input`)?.focus();
+  }
+
+  $('#corner-add').addEventListener('click', () => {
+    const z = draft[selected];
+    if (!z) return;
+    const k = corner < 0 ? z.polygon.length - 1 : corner;
+    const a = z.polygon[k];
+    const b = z.polygon[(k + 1) % z.polygon.length];
+    z.polygon.splice(k + 1, 0, round([(a[0] + b[0]) / 2, (a[1] + b[1]) / 2]));
+    corner = k + 1;
+    changed();
+    renderCorners();
+    draw();
+    $(`#corner-list li[data-corner="${k + 1}"] input`)?.focus();
   });
 
   function finishDrawing() {
@@ -765,7 +1022,7 @@ export function createZonesView(app) {
   function setTool(next) {
     tool = next;
     canvas.dataset.tool = next;
-    for (const b of $$('[data-tool]')) b.setAttribute('aria-pressed', String(b.dataset.tool === next));
+    for (const b of $$('button[data-tool]')) b.setAttribute('aria-pressed', String(b.dataset.tool === next));
     drawing = [];
     personBox = undefined;
     refDraft = undefined;
@@ -801,13 +1058,7 @@ export function createZonesView(app) {
               type: 'button',
               'aria-pressed': String(i === selected),
               dataset: { zone: z.id },
-              onclick: () => {
-                if (i !== selected) refSelected = -1;
-                selected = i;
-                renderList();
-                renderForm();
-                draw();
-              },
+              onclick: () => choose(i),
             },
             swatch,
             h('span', {}, z.name || z.id),
@@ -843,6 +1094,7 @@ export function createZonesView(app) {
     $('#zf-lowstock').placeholder = String(Math.round(display.defaultLowStock * 100));
     for (const label of $$('[data-for]', form)) label.hidden = label.dataset.for !== z.kind;
     $('#zf-personarea-label').textContent = z.kind === 'shelf' ? 'One item covers' : 'One person covers';
+    renderCorners();
     renderRefs();
   }
 
@@ -885,6 +1137,7 @@ export function createZonesView(app) {
     okEl.textContent = '';
     errorEl.textContent = '';
     renderDirty();
+    syncCorners();
   }
 
   function dirty() {
@@ -917,8 +1170,25 @@ export function createZonesView(app) {
       draw();
       loadHistory();
     } catch (e) {
-      errorEl.textContent = explain(e);
+      showError(e);
     }
+  }
+
+  /** A refused save in the words of the form (zone name and field label), the server's text one click away. */
+  function showError(e) {
+    const m = e instanceof ApiError && e.status === 400 ? /zones\[(\d+)\]\.(\w+)(\S*)\s+(.*)$/.exec(e.message) : null;
+    if (!m) {
+      errorEl.textContent = explain(e);
+      return;
+    }
+    const z = draft[Number(m[1])];
+    const label = FIELD_WORDS[m[2]] ?? m[2];
+    const what = problemWords(m[2], m[4]);
+    replace(
+      errorEl,
+      h('span', {}, `Not saved. Zone “${z?.name || z?.id || Number(m[1]) + 1}”, ${label}: ${what}`),
+      h('details', { class: 'more' }, h('summary', {}, 'Technical details'), h('code', {}, e.message)),
+    );
   }
 
   // ---- foreground preview -----------------------------------------------------------------
@@ -949,178 +1219,6 @@ export function createZonesView(app) {
     };
     tick();
     maskTimer = setInterval(tick, 1000);
-  }
-
-  // ---- learning and model figures ---------------------------------------------------------
-
-  async function loadModel() {
-    if (!camera) return;
-    let info;
-    try {
-      info = await api(`/api/cameras/${encodeURIComponent(camera.id)}/learn`);
-    } catch (e) {
-      $('#learn-error').textContent = explain(e);
-      return;
-    }
-    const m = info.model;
-    const figures = $('#model-figures');
-    if (!m) {
-      replace(figures, h('dt', {}, 'Model'), h('dd', {}, 'none yet'));
-      replace($('#model-findings'));
-    } else {
-      replace(
-        figures,
-        h('dt', {}, 'Verdict'),
-        h('dd', {}, h('span', { class: 'verdict', dataset: { level: m.verdict.level } }, m.verdict.level)),
-        h('dt', {}, 'Learned from'),
-        h('dd', {}, `${m.frames} frames at ${m.width}×${m.height}`),
-        h('dt', {}, 'Eigen-images kept'),
-        h('dd', {}, String(m.components)),
-        h('dt', {}, 'Variation explained'),
-        h('dd', {}, percent(m.retainedVariance, 1)),
-        h('dt', {}, 'Residual noise'),
-        h('dd', {}, `${m.verdict.medianNoise.toFixed(1)} grey levels (median; 95th percentile ${m.verdict.noiseP95.toFixed(1)})`),
-      );
-      replace($('#model-findings'), m.verdict.findings.map((f) => h('li', {}, f)));
-    }
-    inUse = m?.id;
-    showLearn(info.status);
-  }
-
-  function showLearn(status) {
-    const bar = $('#learn-progress');
-    const learning = status?.state === 'learning';
-    bar.hidden = !learning;
-    bar.firstElementChild.style.width = `${Math.round((status?.progress ?? 0) * 100)}%`;
-    $('#learn-start').disabled = learning;
-    $('#learn-start').textContent = !learning ? 'Learn again' : status.progress >= 0.98 ? 'Fitting the model…' : `Learning… ${Math.round(status.progress * 100)} %`;
-    if (status?.state === 'failed') $('#learn-error').textContent = `Learning failed: ${status.error}`;
-    showLearnNote(status);
-    if (learning && !learnTimer) learnTimer = setInterval(pollLearn, 1000);
-    if (!learning && learnTimer) {
-      clearInterval(learnTimer);
-      learnTimer = undefined;
-    }
-  }
-
-  async function pollLearn() {
-    if (!camera) return;
-    try {
-      const info = await api(`/api/cameras/${encodeURIComponent(camera.id)}/learn`);
-      const was = learnTimer !== undefined;
-      showLearn(info.status);
-      if (was && info.status?.state !== 'learning') {
-        await loadModel();
-        await loadBackground();
-        draw();
-        await loadKept();
-      }
-    } catch {
-      // the next poll tries again
-    }
-  }
-
-  $('#learn-form').addEventListener('submit', async (event) => {
-    event.preventDefault();
-    $('#learn-error').textContent = '';
-    if (!camera) return;
-    const seconds = Number($('#learn-seconds').value);
-    try {
-      const { status } = await api(`/api/cameras/${encodeURIComponent(camera.id)}/learn`, { method: 'POST', body: { seconds } });
-      showLearn(status);
-    } catch (e) {
-      $('#learn-error').textContent = explain(e);
-    }
-  });
-
-  /** What came of the last learning, in plain words: in use, in use although poor, or not used and why. */
-  function showLearnNote(status) {
-    const note = $('#learn-note');
-    const when = status?.finishedAt ? dateTime(status.finishedAt, app.site.timeZone) : '';
-    let text = '';
-    let tone = 'done';
-    if (status?.state === 'rejected' && status.modelId !== undefined && status.modelId === inUse) {
-      text = `The empty scene learned ${when} was not used at first, as it turned out poor (${status.reason ?? 'no reason given'}). It has since been chosen from the kept ones and is in use.`;
-      tone = 'poor';
-    } else if (status?.state === 'rejected') {
-      text = `The empty scene learned ${when} was not used: ${status.reason ?? 'it turned out poor'}. The camera kept counting with the empty scene it had.`;
-      tone = 'rejected';
-    } else if (status?.state === 'done' && status.verdict?.level === 'poor') {
-      text = `The empty scene learned ${when} is in use, but it is poor: ${status.reason}. It was used because the camera had none; learn again when the view is empty.`;
-      tone = 'poor';
-    } else if (status?.state === 'done' && status.verdict) {
-      text = `The empty scene learned ${when} is in use (${verdictWords[status.verdict.level].toLowerCase()}).`;
-    }
-    note.textContent = text;
-    note.dataset.tone = tone;
-    note.hidden = text === '';
-  }
-
-  // ---- kept empty scenes (going back to one) ----------------------------------------------
-
-  async function loadKept() {
-    if (!camera) return;
-    const list = $('#kept-list');
-    const hint = $('#kept-hint');
-    $('#kept-error').textContent = '';
-    if (!app.isAdmin()) {
-      replace(list);
-      hint.textContent = 'The last few empty scenes learned are kept. Enter the admin key to see them and go back to one.';
-      return;
-    }
-    let models;
-    try {
-      models = (await api(`/api/cameras/${encodeURIComponent(camera.id)}/models`)).models;
-    } catch (e) {
-      $('#kept-error').textContent = explain(e);
-      return;
-    }
-    hint.textContent = models.length === 0
-      ? 'None yet.'
-      : 'Newest first. If counting got worse after learning again, go back to one that worked.';
-    const tz = app.site.timeZone;
-    replace(
-      list,
-      models.map((m) => {
-        const when = dateTime(m.learnedAt, tz);
-        const words = verdictWords[m.verdict.level] ?? m.verdict.level;
-        return h(
-          'li',
-          { class: 'kept', dataset: { model: m.id, active: m.active, level: m.verdict.level } },
-          h(
-            'div',
-            { class: 'kept-head' },
-            h('span', { class: 'kept-when' }, when),
-            m.active ? h('span', { class: 'kept-badge' }, 'In use') : null,
-            m.rejected ? h('span', { class: 'kept-badge rejected' }, 'Not used when learned') : null,
-          ),
-          h('p', { class: 'kept-verdict' }, h('span', { class: 'verdict', dataset: { level: m.verdict.level } }, words), ` — ${m.verdict.findings[0] ?? ''}`),
-          m.active
-            ? null
-            : h('button', { type: 'button', class: 'quiet kept-use', 'aria-label': `Use the empty scene learned ${when}`, onclick: () => useKept(m, when) }, 'Use this one'),
-        );
-      }),
-    );
-  }
-
-  async function useKept(m, when) {
-    if (!camera) return;
-    $('#kept-error').textContent = '';
-    $('#kept-ok').textContent = '';
-    if (m.verdict.level === 'poor' && !window.confirm(`This empty scene was judged poor: ${m.verdict.findings[0] ?? ''}. Counting may be wrong with it. Use it anyway?`)) return;
-    try {
-      await api(`/api/cameras/${encodeURIComponent(camera.id)}/models/${encodeURIComponent(m.id)}/activate`, { method: 'POST' });
-    } catch (e) {
-      $('#kept-error').textContent = explain(e);
-      return;
-    }
-    $('#kept-ok').textContent = `Counting now uses the empty scene learned ${when}.`;
-    await loadKept();
-    await loadModel();
-    await loadBackground();
-    draw();
-    $('#kept-list .kept[data-active="true"]')?.setAttribute('tabindex', '-1');
-    $('#kept-list .kept[data-active="true"]')?.focus();
   }
 
   // ---- change history ---------------------------------------------------------------------
@@ -1156,7 +1254,7 @@ export function createZonesView(app) {
   // ---- wiring -----------------------------------------------------------------------------
 
   cameraSelect.addEventListener('change', () => selectCamera(cameraSelect.value));
-  for (const b of $$('[data-tool]')) b.addEventListener('click', () => setTool(b.dataset.tool));
+  for (const b of $$('button[data-tool]')) b.addEventListener('click', () => setTool(b.dataset.tool));
   $('#zone-delete').addEventListener('click', deleteSelected);
   $('#refs-learned').addEventListener('click', useLearned);
   $('#refs-clear').addEventListener('click', () => {
@@ -1187,12 +1285,17 @@ export function createZonesView(app) {
   app.onRole(async () => {
     if (!visible || !camera) return;
     errorEl.textContent = '';
-    loadKept();
+    scene.loadKept();
     await loadBackground();
     sizeCanvas();
     draw();
     restartMask();
   });
+  canvas.addEventListener('focus', () => {
+    draw();
+    if (tool === 'draw') announce(`Drawing: the cross is at ${where(keyCursor)}. Arrow keys move it, Space places a corner, Enter closes the zone.`);
+  });
+  canvas.addEventListener('blur', draw);
   setTool('select');
 
   return {
@@ -1203,95 +1306,14 @@ export function createZonesView(app) {
         sizeCanvas();
         draw();
         restartMask();
-        loadModel();
-        loadKept();
+        scene.loadModel();
+        scene.loadKept();
       }
     },
     hide() {
       visible = false;
       restartMask();
-      clearInterval(learnTimer);
-      learnTimer = undefined;
+      scene.stop();
     },
   };
-}
-
-function clone(z) {
-  return JSON.parse(JSON.stringify(z));
-}
-
-function clamp01(v) {
-  return Math.min(1, Math.max(0, v));
-}
-
-function round(p) {
-  return [Math.round(p[0] * 10000) / 10000, Math.round(p[1] * 10000) / 10000];
-}
-
-function round4(v) {
-  return Math.round(v * 10000) / 10000;
-}
-
-/** The box spanned by two corner points. */
-function normRect([a, b]) {
-  return { x0: Math.min(a[0], b[0]), y0: Math.min(a[1], b[1]), x1: Math.max(a[0], b[0]), y1: Math.max(a[1], b[1]) };
-}
-
-/** The middle of the widest stretch of the polygon's inside along row y (even–odd rule), or of its bounding box. */
-function middleAtRow(poly, y) {
-  const crossings = [];
-  for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
-    const [xi, yi] = poly[i];
-    const [xj, yj] = poly[j];
-    if (yi > y !== yj > y) crossings.push(xi + ((y - yi) * (xj - xi)) / (yj - yi));
-  }
-  crossings.sort((a, b) => a - b);
-  let best;
-  let widest = -1;
-  for (let k = 0; k + 1 < crossings.length; k += 2) {
-    if (crossings[k + 1] - crossings[k] > widest) {
-      widest = crossings[k + 1] - crossings[k];
-      best = (crossings[k] + crossings[k + 1]) / 2;
-    }
-  }
-  if (best !== undefined) return best;
-  const xs = poly.map((p) => p[0]);
-  return (Math.min(...xs) + Math.max(...xs)) / 2;
-}
-
-function topLeft(poly) {
-  return [Math.min(...poly.map((p) => p[0])), Math.min(...poly.map((p) => p[1]))];
-}
-
-/** Even–odd rule point-in-polygon test (ray casting). */
-function inside(p, poly) {
-  let c = false;
-  for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
-    const [xi, yi] = poly[i];
-    const [xj, yj] = poly[j];
-    if (yi > p[1] !== yj > p[1] && p[0] < ((xj - xi) * (p[1] - yi)) / (yj - yi) + xi) c = !c;
-  }
-  return c;
-}
-
-function nearestOnSegment(p, a, b) {
-  const dx = b[0] - a[0];
-  const dy = b[1] - a[1];
-  const len = dx * dx + dy * dy;
-  const t = len === 0 ? 0 : Math.max(0, Math.min(1, ((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) / len));
-  const q = [a[0] + t * dx, a[1] + t * dy];
-  return [q, 0];
-}
-
-function hexAlpha(hex, alpha) {
-  const n = parseInt(hex.slice(1), 16);
-  return `rgba(${(n >> 16) & 255}, ${(n >> 8) & 255}, ${n & 255}, ${alpha})`;
-}
-
-function brief(v) {
-  if (v === null || v === undefined) return '—';
-  if (Array.isArray(v) && Array.isArray(v[0])) return `${v.length} corners`;
-  if (Array.isArray(v) && v[0] && typeof v[0] === 'object' && 'area' in v[0]) return `${v.length} reference ${v.length === 1 ? 'person' : 'people'}`;
-  const s = JSON.stringify(v);
-  return s.length > 60 ? `${s.slice(0, 57)}…` : s;
 }
