@@ -85,8 +85,13 @@ function sentence(text) {
   return /[.!?]$/.test(first) ? first : `${first}.`;
 }
 
-/** Silence on the live stream longer than this means the connection is lost (the server writes at least every 15 s). */
-export const STREAM_SILENCE_MS = 18_000;
+/**
+ * After this much silence on the live stream the page asks GET /api/health whether the service
+ * still answers (an idle site sends only a keep-alive every 15 s, so silence alone proves nothing).
+ */
+export const STREAM_CHECK_MS = 8_000;
+/** How long that question may take before the service counts as not answering. */
+export const CHECK_TIMEOUT_MS = 4_000;
 /** While the live stream is unavailable, GET /api/live is polled this often. */
 export const POLL_MS = 5_000;
 
@@ -94,7 +99,7 @@ export const POLL_MS = 5_000;
  * Follows GET /api/live/stream (Server-Sent Events read through fetch, so the key can go in a
  * header) and falls back to polling GET /api/live whenever the stream is not open: refused
  * (any answer but 200, e.g. 429 or 503 when its slots are full, with the server's message),
- * broken, or silent for longer than {@link STREAM_SILENCE_MS}.
+ * broken, or silent while GET /api/health does not answer either (see {@link STREAM_CHECK_MS}).
  *
  * Calls onData(state) per `live` event or poll, and onState(state, info) with state
  * - `live`: the stream is open;
@@ -122,7 +127,7 @@ export function followLive(onData, onState) {
 
   async function pollOnce(mine, reason) {
     try {
-      const res = await fetch('/api/live', { headers: headers(), cache: 'no-store' });
+      const res = await fetch('/api/live', { headers: headers(), cache: 'no-store', signal: AbortSignal.timeout(POLL_MS) });
       if (mine !== generation || stopped) return;
       if (res.status === 401 || res.status === 403) {
         setState('refused');
@@ -139,6 +144,16 @@ export function followLive(onData, onState) {
       onData(data);
     } catch {
       if (mine === generation && !stopped && state !== 'live') setState('lost');
+    }
+  }
+
+  /** Whether the service answers GET /api/health within CHECK_TIMEOUT_MS. */
+  async function answers() {
+    try {
+      const res = await fetch('/api/health', { cache: 'no-store', signal: AbortSignal.timeout(CHECK_TIMEOUT_MS) });
+      return res.ok;
+    } catch {
+      return false;
     }
   }
 
@@ -183,7 +198,14 @@ export function followLive(onData, onState) {
         const ctl = controller;
         const arm = () => {
           clearTimeout(watchdog);
-          watchdog = setTimeout(() => ctl.abort(new Error('silent')), STREAM_SILENCE_MS);
+          watchdog = setTimeout(async () => {
+            if (await answers()) arm();
+            else {
+              // The stream went quiet and the service does not answer: say so now, then reconnect.
+              if (mine === generation && !stopped) setState('lost');
+              ctl.abort(new Error('silent'));
+            }
+          }, STREAM_CHECK_MS);
         };
         arm();
         let buffer = '';
@@ -207,7 +229,8 @@ export function followLive(onData, onState) {
         clearTimeout(watchdog);
       }
       if (stopped || mine !== generation) return;
-      // The state stays as it was until the first poll tells whether the service answers at all.
+      // The stream is gone; the first poll tells (within POLL_MS) whether the service answers at all.
+      if (state === 'live') state = 'checking';
       startPolling(mine, reason);
       await new Promise((r) => {
         const timer = setTimeout(r, wait);

@@ -80,8 +80,7 @@ export function createEmptyScenePanel(app, { camera: current, onModelChanged }) 
       showLearn(info.status);
       if (was && info.status?.state !== 'learning') {
         await loadModel();
-        await loadBackground();
-        draw();
+        await onModelChanged();
         await loadKept();
       }
     } catch {
@@ -189,8 +188,7 @@ export function createEmptyScenePanel(app, { camera: current, onModelChanged }) 
     $('#kept-ok').textContent = `Counting now uses the empty scene learned ${when}.`;
     await loadKept();
     await loadModel();
-    await loadBackground();
-    draw();
+    await onModelChanged();
     $('#kept-list .kept[data-active="true"]')?.setAttribute('tabindex', '-1');
     $('#kept-list .kept[data-active="true"]')?.focus();
   }

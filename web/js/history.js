@@ -211,6 +211,7 @@ export function createHistoryView(app) {
       $('#history-tz').textContent = app.site.timeZone;
       if (!loaded) {
         loaded = await loadZones();
+        if (!loaded) return;
         const today = localDate(Date.now(), app.site.timeZone);
         from.value ||= today;
         to.value ||= today;

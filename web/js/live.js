@@ -40,7 +40,7 @@ export function createNowView(app) {
     const connected = app.connected();
     replace(root, last.cameras.map((c) => cameraCard(c, tz, now, connected, today)));
     $('#now-updated').textContent = connected ? `· updated ${clock(last.time, tz)}` : `· last seen ${clock(last.time, tz)}`;
-    $('#now-summary').textContent = connected ? summary(last, now) : `Not connected. Last seen at ${clock(last.time, tz)}: ${summary(last, now)}`;
+    $('#now-summary').textContent = connected ? summary(last, now, true) : `Not connected. Last seen at ${clock(last.time, tz)}: ${summary(last, now, false)}`;
   }
 
   async function loadToday() {
@@ -111,14 +111,14 @@ export function createNowView(app) {
   };
 }
 
-function summary(state, now) {
+function summary(state, now, connected) {
   const counting = state.cameras.filter((c) => c.status === 'counting' && fresh(c, now));
   const rooms = counting.flatMap((c) => c.zones.filter((z) => z.kind === 'room'));
   const people = rooms.reduce((s, z) => s + z.shown, 0);
   const busy = rooms.filter((z) => z.level === 'near' || z.level === 'over').length;
   const low = counting.flatMap((c) => c.zones).filter((z) => z.level === 'low').length;
   const parts = [];
-  if (rooms.length > 0) parts.push(`${people} ${people === 1 ? 'person' : 'people'} now in ${rooms.length} room zone${rooms.length === 1 ? '' : 's'}`);
+  if (rooms.length > 0) parts.push(`${people} ${people === 1 ? 'person' : 'people'}${connected ? ' now' : ''} in ${rooms.length} room zone${rooms.length === 1 ? '' : 's'}`);
   if (busy > 0) parts.push(`${busy} filling up or over capacity`);
   if (low > 0) parts.push(`${low} shelf section${low === 1 ? '' : 's'} running low`);
   const off = state.cameras.length - counting.length;
@@ -168,11 +168,11 @@ function zoneRow(c, z, current, day, tz) {
   let share = 0;
   let mark;
   if (z.kind === 'shelf') {
-    figure = [h('span', { class: 'big', dataset: { role: 'shown' } }, known ? percent(z.fill) : '—'), known ? h('span', { class: 'of' }, `full now · ${z.shown} item${z.shown === 1 ? '' : 's'}`) : null];
+    figure = [h('span', { class: 'big', dataset: { role: 'shown' } }, known ? percent(z.fill) : '—'), known ? h('span', { class: 'of' }, `full${current ? ' now' : ''} · ${z.shown} item${z.shown === 1 ? '' : 's'}`) : null];
     share = z.fill;
     mark = z.lowStock;
   } else {
-    const unit = z.shown === 1 ? 'person now' : 'people now';
+    const unit = `${z.shown === 1 ? 'person' : 'people'}${current ? ' now' : ''}`;
     figure = [
       h('span', { class: 'big', dataset: { role: 'shown' } }, known ? String(z.shown) : '—'),
       z.capacity !== undefined ? h('span', { class: 'of' }, known ? `of ${z.capacity} · ${unit}` : `of ${z.capacity}`) : h('span', { class: 'of' }, known ? unit : ''),

@@ -8,6 +8,11 @@ import { createEmptyScenePanel } from './emptyScene.js';
 import { dateTime, percent } from './format.js';
 import { brief, clamp01, clone, hexAlpha, inside, middleAtRow, nearestOnSegment, normRect, round, round4, topLeft } from './zoneGeometry.js';
 
+/** An id from a name: "Quiet corner" → "quiet-corner" (letters, digits and "-", up to 64). */
+function slug(name) {
+  return name.normalize('NFKD').replace(/[\u0300-\u036f]/g, '').toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-+|-+$/g, '').slice(0, 64).replace(/-+$/, '');
+}
+
 /** The form's words for the zone fields named in the server's messages. */
 const FIELD_WORDS = {
   id: 'short id',
@@ -1004,8 +1009,8 @@ export function createZonesView(app) {
     renderList();
     renderForm();
     changed();
-    $('#zf-id').focus();
-    $('#zf-id').select();
+    $('#zf-name').focus();
+    $('#zf-name').select();
   }
 
   function deleteSelected() {
@@ -1112,10 +1117,21 @@ export function createZonesView(app) {
     if (v === '') delete z[key];
     else z[key] = parse(v);
   };
+  /** New zones whose id was typed by hand; the others take their id from their name. */
+  const idTyped = new WeakSet();
   bindField('#zf-id', (z, v) => {
     z.id = v;
+    idTyped.add(z);
   });
-  bindField('#zf-name', setOptional('name', String));
+  bindField('#zf-name', (z, v) => {
+    setOptional('name', String)(z, v);
+    if (isSaved(z) || idTyped.has(z)) return;
+    const id = slug(v);
+    if (id && !draft.some((o) => o !== z && o.id === id)) {
+      z.id = id;
+      $('#zf-id').value = id;
+    }
+  });
   bindField('#zf-kind', (z, v) => {
     z.kind = v;
     if (v === 'shelf') {
