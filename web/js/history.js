@@ -178,7 +178,7 @@ export function createHistoryView(app) {
           h('td', { class: 'num' }, value(r.max)),
           h('td', { class: 'num' }, value(r.min)),
           h('td', { class: 'num' }, r.occupiedShare === null ? '' : percent(r.occupiedShare)),
-          h('td', { class: 'num' }, r.coverage > 0 ? percent(r.coverage) : 'no data'),
+          h('td', { class: 'num' }, r.coverage <= 0 ? 'no data' : r.coverage < 0.005 ? 'under 1 %' : percent(r.coverage)),
         ),
       ),
     );

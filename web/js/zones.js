@@ -6,37 +6,8 @@ import { api, apiBlob, ApiError, explain } from './api.js';
 import { $, $$, h, replace } from './dom.js';
 import { createEmptyScenePanel } from './emptyScene.js';
 import { dateTime, percent } from './format.js';
+import { FIELD_WORDS, problemWords, slug } from './zoneWords.js';
 import { brief, clamp01, clone, hexAlpha, inside, middleAtRow, nearestOnSegment, normRect, round, round4, topLeft } from './zoneGeometry.js';
-
-/** An id from a name: "Quiet corner" → "quiet-corner" (letters, digits and "-", up to 64). */
-function slug(name) {
-  return name.normalize('NFKD').replace(/[\u0300-\u036f]/g, '').toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-+|-+$/g, '').slice(0, 64).replace(/-+$/, '');
-}
-
-/** The form's words for the zone fields named in the server's messages. */
-const FIELD_WORDS = {
-  id: 'short id',
-  name: 'name',
-  kind: 'counts',
-  polygon: 'corners',
-  capacity: 'capacity',
-  personArea: 'one person covers',
-  minBlobArea: 'ignore spots smaller than',
-  threshold: 'sensitivity threshold',
-  absorbSeconds: 'time until something left standing counts as part of the shelf',
-  perspective: 'reference people',
-};
-
-/** A field's problem in plain words; the server's own words where they are plain already. */
-function problemWords(field, message) {
-  if (field === 'id' && /^must be/.test(message)) return `use 1 to 64 letters, digits, “-” or “_”, starting with a letter or digit (${message.replace(/^.*got /, 'now ')}).`;
-  if (field === 'id' && /used twice/.test(message)) return 'another zone of this camera has the same id; choose another.';
-  if (field === 'polygon' && /self-intersecting/.test(message)) return 'the outline crosses itself. Move a corner so that no two edges cross.';
-  if (field === 'polygon' && /zero area/.test(message)) return 'the corners lie on one line. Move one so the zone has an area.';
-  if (field === 'polygon' && /at least 3/.test(message)) return 'a zone needs at least three corners.';
-  const text = message.replace(/^\[\d+\](\[\d\])?\s*/, '');
-  return `${text.charAt(0).toUpperCase()}${text.slice(1)}${/[.!?]$/.test(text) ? '' : '.'}`;
-}
 
 const COLOURS = ['#2c5d6e', '#8a5a9e', '#b5651d', '#3d7a57', '#9e3d5a', '#4f6aa8', '#7a7a2e'];
 const HIT_PX = 9;
@@ -191,8 +162,11 @@ export function createZonesView(app) {
     } else {
       g.fillStyle = '#ddd7cb';
       g.fillRect(0, 0, W, H);
-      g.font = `${14 * dpr}px system-ui, sans-serif`;
       const text = !camera?.model ? 'No empty scene learned yet' : app.isAdmin() ? 'Loading the empty scene…' : 'The empty scene is shown once you enter the admin key';
+      // 14 px, smaller on a narrow picture so that the whole sentence fits.
+      g.font = `${14 * dpr}px system-ui, sans-serif`;
+      const fit = Math.min(1, (W - 30 * dpr) / g.measureText(text).width);
+      g.font = `${Math.max(9, 14 * fit) * dpr}px system-ui, sans-serif`;
       const tw = g.measureText(text).width;
       g.fillStyle = 'rgba(255, 253, 248, 0.85)';
       g.fillRect(W - tw - 22 * dpr, H - 34 * dpr, tw + 16 * dpr, 26 * dpr);
