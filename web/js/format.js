@@ -52,10 +52,10 @@ export function statusReason(camera, now = Date.now()) {
 }
 
 /**
- * A stored event in plain words, e.g. "Stopped sending pictures (folder not found)". `zoneNames`
- * maps zone ids to their names.
+ * A stored event in plain words, e.g. "Camera stopped sending pictures (folder not found) …".
+ * `zoneNames` maps zone ids to their names; `times` > 1 for a run of the same event shown as one.
  */
-export function eventWords(event, zoneNames = new Map()) {
+export function eventWords(event, zoneNames = new Map(), times = 1) {
   const d = event.detail ?? {};
   const zone = event.zone ? `“${zoneNames.get(event.zone) ?? event.zone}”` : '';
   switch (event.type) {
@@ -69,8 +69,12 @@ export function eventWords(event, zoneNames = new Map()) {
         : 'The view no longer looked like the learned empty scene (camera moved, covered, or the light changed); counting paused.';
     case 'view-restored':
       return 'The view matched the learned empty scene again; counting resumed.';
-    case 'capacity-exceeded':
-      return `Zone ${zone} went over its capacity${d.capacity !== undefined ? ` of ${d.capacity}` : ''}${typeof d.count === 'number' ? ` (about ${Math.round(d.count)} people)` : ''}.`;
+    case 'capacity-exceeded': {
+      const people = typeof d.count === 'number' ? `about ${Math.round(d.count)} people` : '';
+      const capacity = d.capacity !== undefined ? ` of ${d.capacity}` : '';
+      if (times > 1) return `Zone ${zone} went over its capacity${d.capacity !== undefined ? ` (${d.capacity})` : ''} ${times} times${people ? `; the last time ${people}` : ''}.`;
+      return `Zone ${zone} went over its capacity${capacity}${people ? ` (${people})` : ''}.`;
+    }
     case 'model-learned':
       return `Learned the empty scene again; now in use${d.level ? ` (quality: ${(verdictWords[d.level] ?? d.level).toLowerCase()})` : ''}.`;
     case 'learning-rejected':

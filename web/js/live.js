@@ -8,7 +8,7 @@ import { ago, clock, dateTime, eventWords, levelWords, percent, statusReason, st
 /** A counting camera whose last picture is older than this shows its figures as not current. */
 export const FRESH_MS = 20_000;
 /** How often today's peaks and the event log are fetched again while Now is shown. */
-const REFRESH_MS = 60_000;
+const REFRESH_MS = 15_000;
 
 export function createNowView(app) {
   const root = $('#cameras');
@@ -80,12 +80,12 @@ export function createNowView(app) {
       $('#events-list'),
       events.length === 0
         ? h('li', { class: 'hint' }, 'Nothing in the last 7 days.')
-        : events.map((e) =>
+        : runs(events, tz).map(({ event: e, times, first }) =>
             h(
               'li',
-              { class: 'event', dataset: { type: e.type } },
-              h('span', { class: 'when' }, dateTime(e.time, tz)),
-              h('span', { class: 'what' }, eventWords(e, names)),
+              { class: 'event', dataset: { type: e.type, times } },
+              h('span', { class: 'when' }, times > 1 ? `${dateTime(first, tz)} – ${clock(e.time, tz).slice(0, 5)}` : dateTime(e.time, tz)),
+              h('span', { class: 'what' }, eventWords(e, names, times)),
               h('span', { class: 'by' }, e.by === 'admin' ? 'by the admin' : 'by Residuum, automatically'),
             ),
           ),
@@ -109,6 +109,33 @@ export function createNowView(app) {
       clearInterval(refreshTimer);
     },
   };
+}
+
+/**
+ * A zone hovering at its capacity goes over it many times an hour: those events come as one line
+ * per zone and local hour (at the place of the newest); every other event has a line of its own.
+ */
+function runs(events, tz) {
+  const out = [];
+  const open = new Map();
+  for (const e of events) {
+    if (e.type !== 'capacity-exceeded') {
+      out.push({ event: e, times: 1, first: e.time });
+      continue;
+    }
+    const hour = dateTime(e.time, tz).replace(/:\d\d$/, '');
+    const key = `${e.zone}\u0000${hour}`;
+    const run = open.get(key);
+    if (run) {
+      run.times++;
+      run.first = e.time;
+    } else {
+      const fresh = { event: e, times: 1, first: e.time };
+      open.set(key, fresh);
+      out.push(fresh);
+    }
+  }
+  return out;
 }
 
 function summary(state, now, connected) {
@@ -195,14 +222,25 @@ function zoneRow(c, z, current, day, tz) {
     h('div', { class: 'figure' }, figure),
     h('div', { class: 'bar', 'aria-hidden': 'true' }, bar, markEl),
     h('div', { class: 'level' }, words),
-    h('div', { class: 'today', dataset: { role: 'today' } }, todayWords(z, day, tz)),
+    h('div', { class: 'today', dataset: { role: 'today' } }, todayWords(z, day, tz, current)),
   );
 }
 
-/** "Today's peak 7 at 10:42" for rooms, "Lowest today 12 % at 09:10" for shelves. */
-function todayWords(z, day, tz) {
-  if (!day || day.peak === null) return 'Today: nothing counted yet';
-  if (z.kind === 'shelf') return day.lowAt ? `Lowest today ${percent(day.low)} at ${clock(day.lowAt, tz).slice(0, 5)}` : '';
+/**
+ * "Today's peak 7 people at 10:42" for rooms, "Lowest today 12 % at 09:10" for shelves. The
+ * stored samples lag the live count by up to one sample interval, so a live count beyond them is
+ * today's extreme itself ("Today's peak: now, 8 people") and the two figures never contradict.
+ */
+function todayWords(z, day, tz, current) {
+  const live = current && z.level !== 'unknown';
+  const none = !day || day.peak === null;
+  if (z.kind === 'shelf') {
+    if (live && (none || z.fill < day.low)) return `Lowest today: now, ${percent(z.fill)}`;
+    return none ? 'Today: nothing counted yet' : `Lowest today ${percent(day.low)}${day.lowAt ? ` at ${clock(day.lowAt, tz).slice(0, 5)}` : ''}`;
+  }
+  const people = (n) => `${n} ${n === 1 ? 'person' : 'people'}`;
+  if (live && (none || z.shown > day.peak)) return `Today's peak: now, ${people(z.shown)}`;
+  if (none) return 'Today: nothing counted yet';
   const peak = Math.round(day.peak * 10) / 10;
-  return `Today's peak ${peak} ${peak === 1 ? 'person' : 'people'}${day.peakAt ? ` at ${clock(day.peakAt, tz).slice(0, 5)}` : ''}`;
+  return `Today's peak ${people(peak)}${day.peakAt ? ` at ${clock(day.peakAt, tz).slice(0, 5)}` : ''}`;
 }
