@@ -1,7 +1,9 @@
 import { Router } from 'express';
 import type { StoredEvent } from '../../store/index.ts';
+import { ID_PATTERN } from '../../store/validate.ts';
 import type { ServerContext } from '../context.ts';
-import { cameraParam, queryInt, serviceOf } from '../requestFields.ts';
+import { HttpError } from '../HttpError.ts';
+import { queryInt } from '../requestFields.ts';
 
 /** Most events one answer carries (the newest). */
 export const MAX_EVENTS = 200;
@@ -31,8 +33,11 @@ export interface CameraEvent {
 export function eventRoutes(ctx: ServerContext): Router {
   const router = Router();
   router.get('/cameras/:id/events', ctx.auth.view, (req, res) => {
-    const control = serviceOf(ctx);
-    const id = cameraParam(req, control);
+    // Cameras known to the store, so that the log also reads where no service runs (a collector's database).
+    const id = req.params.id;
+    if (typeof id !== 'string' || !ID_PATTERN.test(id) || !ctx.store.listCameras().some((c) => c.id === id)) {
+      throw new HttpError(404, `no camera ${JSON.stringify(String(id).slice(0, 64))}`);
+    }
     const days = queryInt(req, 'days', 1, 90) ?? 7;
     const from = Date.now() - days * 86_400_000;
     // The store lists oldest first; a week of a flapping camera stays far below this bound.
