@@ -322,6 +322,26 @@ describe('dashboard on a laptop and a phone', () => {
 });
 
 describe('when the service stops', () => {
+  it('a live stream gone quiet is checked against /api/health: no answer means not connected', async () => {
+    const { page, errors } = await browser.newPage();
+    // The page's timers run on a clock the test turns: 9 s of silence pass at once, while the
+    // stream itself stays open. The service's health check is made to fail, as on a dead network.
+    await page.clock.install();
+    await page.goto(`${t.base}/`);
+    await page.waitForSelector('#stream-state[data-state="live"]');
+    await page.waitForSelector(`.camera[data-camera="${CAMERA}"][data-current="true"] .zone`);
+    expect(await page.isVisible('#connection')).toBe(false);
+    await page.route('**/api/health', (route) => route.abort('connectionrefused'));
+    await page.route('**/api/live', (route) => route.abort('connectionrefused'));
+    await page.route('**/api/live/stream', (route) => route.abort('connectionrefused'));
+    await page.clock.runFor(9_000);
+    await page.waitForSelector('#connection:not([hidden])', { timeout: 10_000 });
+    expect(await page.textContent('#connection')).toMatch(/^No answer from the Residuum service since \d{2}:\d{2}:\d{2}/);
+    expect(await page.getAttribute(`.camera[data-camera="${CAMERA}"]`, 'data-current')).toBe('false');
+    expect(errors.filter((e) => !/ERR_CONNECTION_REFUSED|Failed to fetch|net::/.test(e))).toEqual([]);
+    await page.close();
+  });
+
   it('every view says so within 20 s: greyed figures, last seen, reconnecting', async () => {
     const own = await startTestService({ speed: 10 });
     const { page, errors } = await browser.newPage();
