@@ -6,6 +6,7 @@ import { api, apiBlob, ApiError, explain } from './api.js';
 import { $, $$, h, replace } from './dom.js';
 import { createEmptyScenePanel } from './emptyScene.js';
 import { dateTime, percent } from './format.js';
+import { createZoneKeys } from './zoneKeys.js';
 import { FIELD_WORDS, problemWords, slug } from './zoneWords.js';
 import { brief, clamp01, clone, hexAlpha, inside, middleAtRow, nearestOnSegment, normRect, round, round4, topLeft } from './zoneGeometry.js';
 
@@ -67,6 +68,45 @@ export function createZonesView(app) {
   /** The keyboard's cross while drawing, normalised. */
   let keyCursor = [0.5, 0.5];
   let visible = false;
+
+  const keys = createZoneKeys({
+    get draft() {
+      return draft;
+    },
+    get selected() {
+      return selected;
+    },
+    get corner() {
+      return corner;
+    },
+    set corner(v) {
+      corner = v;
+    },
+    get keyCursor() {
+      return keyCursor;
+    },
+    set keyCursor(v) {
+      keyCursor = v;
+    },
+    set cursor(v) {
+      cursor = v;
+    },
+    get drawing() {
+      return drawing;
+    },
+    set drawing(v) {
+      drawing = v;
+    },
+    set personBox(v) {
+      personBox = v;
+    },
+    changed: () => changed(),
+    draw: () => draw(),
+    deleteSelected: () => deleteSelected(),
+    finishDrawing: () => finishDrawing(),
+    choose: (i) => choose(i),
+  });
+  const { drawKey, selectKey, renderCorners, syncCorners, announce, where } = keys;
 
   // ---- loading ----------------------------------------------------------------------------
 
@@ -739,14 +779,7 @@ export function createZonesView(app) {
     draw();
   });
 
-  // ---- keyboard (WCAG 2.1.1 and 2.5.7: everything the pointer does, without one) -----------
-
-  /** Says what the keyboard just did, for screen readers (a polite live region). */
-  const announce = (text) => {
-    $('#canvas-status').textContent = text;
-  };
-  const where = (p) => `${percent(p[0], 1)} from the left, ${percent(p[1], 1)} from the top`;
-  const cornerText = (z, k) => `Corner ${k + 1} of ${z.polygon.length} of ${z.name || z.id}: ${where(z.polygon[k])}`;
+  // ---- keyboard (zoneKeys.js; here the reference boxes' keys and the tools' dispatch) -------
 
   canvas.addEventListener('keydown', (event) => {
     if (!camera || event.altKey || event.ctrlKey || event.metaKey) return;
@@ -777,98 +810,6 @@ export function createZonesView(app) {
     draw();
   });
 
-  /** Draw tool: arrows move the cross, Space places a corner, Backspace takes it back, Enter closes, Esc cancels. */
-  function drawKey(event) {
-    const step = event.shiftKey ? 0.05 : 0.01;
-    const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
-    if (event.key in arrows) {
-      const [dx, dy] = arrows[event.key];
-      keyCursor = round([clamp01(keyCursor[0] + dx), clamp01(keyCursor[1] + dy)]);
-      cursor = keyCursor;
-      announce(`Cross at ${where(keyCursor)}`);
-    } else if (event.key === ' ') {
-      drawing.push([...keyCursor]);
-      announce(`Corner ${drawing.length} placed at ${where(keyCursor)}${drawing.length >= 3 ? '. Enter closes the zone.' : ''}`);
-    } else if (event.key === 'Backspace') {
-      drawing.pop();
-      announce(`${drawing.length} corner${drawing.length === 1 ? '' : 's'} placed`);
-    } else if (event.key === 'Enter') {
-      finishDrawing();
-    } else if (event.key === 'Escape') {
-      drawing = [];
-      announce('Drawing cancelled');
-    } else return false;
-    return true;
-  }
-
-  /** Select tool: Z next zone, C next corner (Shift: previous), arrows move, Insert adds, Delete removes, Esc the whole zone. */
-  function selectKey(event) {
-    const z = draft[selected];
-    const key = event.key.length === 1 ? event.key.toLowerCase() : event.key;
-    const step = event.shiftKey ? 0.02 : 0.005;
-    const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
-    if (key === 'z') {
-      if (draft.length === 0) return true;
-      const n = draft.length;
-      choose((selected + (event.shiftKey ? n - 1 : 1) + n) % n);
-      announce(`Zone ${draft[selected].name || draft[selected].id} (${selected + 1} of ${n})`);
-    } else if (!z) {
-      if (key === 'c' || event.key in arrows) announce('No zone chosen: press Z to choose one, or draw one with “Draw zone”.');
-      else return false;
-    } else if (key === 'c') {
-      const n = z.polygon.length;
-      corner = corner < 0 ? (event.shiftKey ? n - 1 : 0) : (corner + (event.shiftKey ? n - 1 : 1)) % n;
-      announce(cornerText(z, corner));
-      renderCorners();
-    } else if (event.key in arrows) {
-      const [dx, dy] = arrows[event.key];
-      if (corner >= 0) {
-        const p = z.polygon[corner];
-        z.polygon[corner] = round([clamp01(p[0] + dx), clamp01(p[1] + dy)]);
-        announce(cornerText(z, corner));
-      } else {
-        z.polygon = shifted(z.polygon, dx, dy);
-        announce(`Zone ${z.name || z.id} moved: its top left at ${where(topLeft(z.polygon))}`);
-      }
-      changed();
-    } else if (event.key === 'Insert' || event.key === '+') {
-      const k = corner < 0 ? z.polygon.length - 1 : corner;
-      const a = z.polygon[k];
-      const b = z.polygon[(k + 1) % z.polygon.length];
-      z.polygon.splice(k + 1, 0, round([(a[0] + b[0]) / 2, (a[1] + b[1]) / 2]));
-      corner = k + 1;
-      changed();
-      announce(`Added. ${cornerText(z, corner)}`);
-    } else if (event.key === 'Delete' || event.key === 'Backspace') {
-      if (corner < 0) {
-        deleteSelected();
-        announce('Zone deleted');
-      } else if (z.polygon.length <= 3) announce('A zone needs at least three corners: this one cannot go.');
-      else {
-        z.polygon.splice(corner, 1);
-        corner = Math.min(corner, z.polygon.length - 1);
-        changed();
-        announce(`Corner removed. ${cornerText(z, corner)}`);
-      }
-    } else if (event.key === 'Escape') {
-      corner = -1;
-      drawing = [];
-      personBox = undefined;
-      renderCorners();
-      announce(`Whole zone ${z.name || z.id} chosen: arrow keys move it`);
-    } else return false;
-    return true;
-  }
-
-  /** The polygon moved by (dx, dy), kept inside the picture. */
-  function shifted(poly, dx, dy) {
-    const xs = poly.map((q) => q[0]);
-    const ys = poly.map((q) => q[1]);
-    const mx = Math.min(1 - Math.max(...xs), Math.max(-Math.min(...xs), dx));
-    const my = Math.min(1 - Math.max(...ys), Math.max(-Math.min(...ys), dy));
-    return poly.map((q) => round([q[0] + mx, q[1] + my]));
-  }
-
   /** Makes zone i the selected one (list, form and picture follow). */
   function choose(i) {
     if (i !== selected) {
@@ -880,94 +821,6 @@ export function createZonesView(app) {
     renderForm();
     draw();
   }
-
-  // ---- corners typed as numbers -----------------------------------------------------------
-
-  /** The selected zone's corners as number fields, % of the picture from the left and top. */
-  function renderCorners() {
-    const z = draft[selected];
-    const list = $('#corner-list');
-    if (!z) {
-      replace(list);
-      return;
-    }
-    const many = z.polygon.length > 3;
-    replace(
-      list,
-      z.polygon.map((p, k) =>
-        h(
-          'li',
-          { dataset: { corner: k, chosen: String(k === corner) } },
-          h('span', { class: 'corner-n', id: `corner-${k}-name` }, `Corner ${k + 1}`),
-          h('label', {}, 'left', cornerInput(k, 0, p[0])),
-          h('label', {}, 'top', cornerInput(k, 1, p[1])),
-          h('button', { type: 'button', class: 'quiet', disabled: !many, 'aria-label': `Remove corner ${k + 1}`, onclick: () => removeCorner(k) }, 'Remove'),
-        ),
-      ),
-    );
-  }
-
-  function cornerInput(k, axis, value) {
-    return h('input', {
-      type: 'number',
-      min: '0',
-      max: '100',
-      step: '0.1',
-      inputmode: 'decimal',
-      value: String(Math.round(value * 1000) / 10),
-      'aria-label': `Corner ${k + 1}, % from the ${axis === 0 ? 'left' : 'top'}`,
-      dataset: { corner: k, axis },
-      oninput: (event) => {
-        const z = draft[selected];
-        const v = Number(event.target.value);
-        if (!z || !z.polygon[k] || event.target.value.trim() === '' || !(v >= 0 && v <= 100)) return;
-        z.polygon[k][axis] = Math.round(v * 100) / 10000;
-        corner = k;
-        changed();
-        draw();
-      },
-    });
-  }
-
-  /** Updates the corner fields after the picture moved a corner, without disturbing the one being typed in. */
-  function syncCorners() {
-    const z = draft[selected];
-    const inputs = $$('#corner-list input');
-    if (!z || inputs.length !== z.polygon.length * 2) {
-      renderCorners();
-      return;
-    }
-    for (const input of inputs) {
-      if (input === document.activeElement) continue;
-      input.value = String(Math.round(z.polygon[Number(input.dataset.corner)][Number(input.dataset.axis)] * 1000) / 10);
-    }
-    for (const li of $$('#corner-list li')) li.dataset.chosen = String(Number(li.dataset.corner) === corner);
-  }
-
-  function removeCorner(k) {
-    const z = draft[selected];
-    if (!z || z.polygon.length <= 3) return;
-    z.polygon.splice(k, 1);
-    corner = -1;
-    changed();
-    renderCorners();
-    draw();
-    $(`#corner-list li[data-corner="${Math.min(k, z.polygon.length - 1)}"] input`)?.focus();
-  }
-
-  $('#corner-add').addEventListener('click', () => {
-    const z = draft[selected];
-    if (!z) return;
-    const k = corner < 0 ? z.polygon.length - 1 : corner;
-    const a = z.polygon[k];
-    const b = z.polygon[(k + 1) % z.polygon.length];
-    z.polygon.splice(k + 1, 0, round([(a[0] + b[0]) / 2, (a[1] + b[1]) / 2]));
-    corner = k + 1;
-    changed();
-    renderCorners();
-    draw();
-    $(`#corner-list li[data-corner="${k + 1}"] input`)?.focus();
-  });
 
   function finishDrawing() {
     if (drawing.length < 3) {
