@@ -5,8 +5,14 @@ import { api, explain } from './api.js';
 import { $, h, replace } from './dom.js';
 import { ago, clock, dateTime, eventWords, levelWords, percent, statusReason, statusWords } from './format.js';
 
-/** A counting camera whose last picture is older than this shows its figures as not current. */
+/**
+ * A counting camera whose last picture is older than this shows its figures as not current —
+ * or older than three of its usual gaps between pictures, for a camera that sends few (a drop
+ * folder filled once a minute is not late after 20 s).
+ */
 export const FRESH_MS = 20_000;
+/** How many recent gaps between a camera's pictures give its usual gap (their median). */
+const GAPS_KEPT = 9;
 /** How often today's peaks and the event log are fetched again while Now is shown. */
 const REFRESH_MS = 15_000;
 
@@ -17,12 +23,15 @@ export function createNowView(app) {
   /** Browser time when `last` arrived (its `time` is the server's clock). */
   let receivedAt = 0;
   let today = new Map();
+  /** Per camera: the last picture time seen and the recent gaps between pictures, ms. */
+  const pace = new Map();
   let visible = false;
   let refreshTimer;
 
   app.onLive((state) => {
     last = state;
     receivedAt = Date.now();
+    for (const c of state.cameras) notePicture(c);
     syncEventCameras();
     if (visible) render();
   });
@@ -31,6 +40,23 @@ export function createNowView(app) {
   setInterval(() => visible && last && render(), 5000);
   eventsCamera.addEventListener('change', loadEvents);
 
+  function notePicture(c) {
+    if (!c.lastFrameAt) return;
+    const p = pace.get(c.camera) ?? { at: c.lastFrameAt, gaps: [] };
+    if (c.lastFrameAt > p.at) {
+      p.gaps.push(c.lastFrameAt - p.at);
+      if (p.gaps.length > GAPS_KEPT) p.gaps.shift();
+    }
+    p.at = c.lastFrameAt;
+    pace.set(c.camera, p);
+  }
+
+  /** How old a camera's last picture may be while its figures count as current, ms. */
+  function freshFor(camera) {
+    const gaps = [...(pace.get(camera)?.gaps ?? [])].sort((a, b) => a - b);
+    return gaps.length === 0 ? FRESH_MS : Math.max(FRESH_MS, 3 * gaps[gaps.length >> 1]);
+  }
+
   /** The server's clock now, as far as the page can tell (its state's time plus the time since). */
   const serverNow = () => last.time + (Date.now() - receivedAt);
 
@@ -38,9 +64,9 @@ export function createNowView(app) {
     const tz = app.site.timeZone;
     const now = serverNow();
     const connected = app.connected();
-    replace(root, last.cameras.map((c) => cameraCard(c, tz, now, connected, today)));
+    replace(root, last.cameras.map((c) => cameraCard(c, tz, now, connected, today, freshFor(c.camera))));
     $('#now-updated').textContent = connected ? `· updated ${clock(last.time, tz)}` : `· last seen ${clock(last.time, tz)}`;
-    $('#now-summary').textContent = connected ? summary(last, now, true) : `Not connected. Last seen at ${clock(last.time, tz)}: ${summary(last, now, false)}`;
+    $('#now-summary').textContent = connected ? summary(last, now, true, freshFor) : `Not connected. Last seen at ${clock(last.time, tz)}: ${summary(last, now, false, freshFor)}`;
   }
 
   async function loadToday() {
@@ -138,8 +164,8 @@ function runs(events, tz) {
   return out;
 }
 
-function summary(state, now, connected) {
-  const counting = state.cameras.filter((c) => c.status === 'counting' && fresh(c, now));
+function summary(state, now, connected, freshFor) {
+  const counting = state.cameras.filter((c) => c.status === 'counting' && fresh(c, now, freshFor(c.camera)));
   const rooms = counting.flatMap((c) => c.zones.filter((z) => z.kind === 'room'));
   const people = rooms.reduce((s, z) => s + z.shown, 0);
   const busy = rooms.filter((z) => z.level === 'near' || z.level === 'over').length;
@@ -153,20 +179,20 @@ function summary(state, now, connected) {
   return parts.length > 0 ? `${parts.join(' · ')}.` : 'No zones are being counted.';
 }
 
-/** Whether a camera's last picture is recent enough for its figures to count as current. */
-function fresh(c, now) {
-  return c.lastFrameAt !== undefined && c.lastFrameAt !== null && now - c.lastFrameAt <= FRESH_MS;
+/** Whether a camera's last picture is at most `limit` ms old, so that its figures count as current. */
+function fresh(c, now, limit) {
+  return c.lastFrameAt !== undefined && c.lastFrameAt !== null && now - c.lastFrameAt <= limit;
 }
 
 function meta(c, tz, now) {
   return c.lastFrameAt ? `Last picture ${clock(c.lastFrameAt, tz)} (${ago(c.lastFrameAt, now)} ago)` : 'No picture yet';
 }
 
-function cameraCard(c, tz, now, connected, today) {
+function cameraCard(c, tz, now, connected, today, limit) {
   const counting = c.status === 'counting';
   // Current: the service answers and the camera counted a picture lately. Otherwise the last
   // figures stay visible, greyed and marked with when they were seen.
-  const current = connected && (!counting || fresh(c, now));
+  const current = connected && (!counting || fresh(c, now, limit));
   const reason = !connected
     ? `Not connected to the service: these figures are from ${clock(Math.min(now, c.lastFrameAt ?? now), tz)} or earlier and may have changed.`
     : counting && !current

@@ -1086,7 +1086,7 @@ export function createZonesView(app) {
               {},
               h('td', {}, dateTime(r.time, tz)),
               h('td', {}, r.zone),
-              h('td', {}, r.field === '*' ? (r.old === null ? 'added' : 'removed') : r.field),
+              h('td', {}, r.field === '*' ? (r.old === null ? 'added' : 'removed') : `changed: ${FIELD_WORDS[r.field] ?? r.field}`),
               h('td', {}, r.field === '*' ? '' : brief(r.old)),
               h('td', {}, r.field === '*' ? '' : brief(r.new)),
             ),
