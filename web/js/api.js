@@ -174,6 +174,7 @@ export function followLive(onData, onState) {
       let reason = 'the connection was interrupted';
       let wait = delay;
       let watchdog;
+      let reading = false;
       try {
         const res = await fetch('/api/live/stream', { headers: headers(), signal: controller.signal, cache: 'no-store' });
         if (res.status === 401 || res.status === 403) {
@@ -196,10 +197,13 @@ export function followLive(onData, onState) {
         delay = 1000;
         const reader = res.body.pipeThrough(new TextDecoderStream()).getReader();
         const ctl = controller;
+        reading = true;
         const arm = () => {
           clearTimeout(watchdog);
           watchdog = setTimeout(async () => {
-            if (await answers()) arm();
+            const up = await answers();
+            if (!reading) return; // the stream ended meanwhile; the loop has taken over
+            if (up) arm();
             else {
               // The stream went quiet and the service does not answer: say so now, then reconnect.
               if (mine === generation && !stopped) setState('lost');
@@ -226,6 +230,7 @@ export function followLive(onData, onState) {
         if (stopped || mine !== generation) return;
         if (error?.name === 'AbortError' && controller.signal.reason?.message !== 'silent') return;
       } finally {
+        reading = false;
         clearTimeout(watchdog);
       }
       if (stopped || mine !== generation) return;
