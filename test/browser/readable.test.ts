@@ -322,7 +322,7 @@ describe('dashboard on a laptop and a phone', () => {
 });
 
 describe('when the service stops', () => {
-  it('a live stream gone quiet is checked against /api/health: no answer means not connected', async () => {
+  it('a live stream gone quiet is checked against /api/health: no answer means not connected, until the service answers again', async () => {
     const { page, errors } = await browser.newPage();
     // The page's timers run on a clock the test turns: 9 s of silence pass at once, while the
     // stream itself stays open. The service's health check is made to fail, as on a dead network.
@@ -338,6 +338,12 @@ describe('when the service stops', () => {
     await page.waitForSelector('#connection:not([hidden])', { timeout: 10_000 });
     expect(await page.textContent('#connection')).toMatch(/^No answer from the Residuum service since \d{2}:\d{2}:\d{2}/);
     expect(await page.getAttribute(`.camera[data-camera="${CAMERA}"]`, 'data-current')).toBe('false');
+    // The network is back: the next poll finds the service, the stream opens again, the banner goes.
+    await page.unrouteAll();
+    await page.clock.runFor(6_000);
+    await page.waitForSelector('#stream-state[data-state="live"]', { timeout: 10_000 });
+    await page.waitForSelector('#connection', { state: 'hidden' });
+    await page.waitForSelector(`.camera[data-camera="${CAMERA}"][data-current="true"]`);
     expect(errors.filter((e) => !/ERR_CONNECTION_REFUSED|Failed to fetch|net::/.test(e))).toEqual([]);
     await page.close();
   });
