@@ -241,6 +241,41 @@ describe('dashboard on a laptop and a phone', () => {
     await page.close();
   });
 
+  it('places reference people with the keyboard alone: add, choose, move, resize, save', async () => {
+    const { page, errors } = await browser.newPage();
+    await page.goto(`${t.base}/`);
+    await signIn(page);
+    await page.goto(`${t.base}/#/zones`);
+    await page.waitForSelector('#zone-canvas[data-background="shown"]');
+    await page.waitForSelector('#zone-list button[data-zone="tables"]');
+    await page.locator('#zones-camera').focus();
+    await tabTo(page, '#zone-list button[data-zone="tables"]');
+    await page.keyboard.press('Enter');
+    await tabTo(page, 'button[data-tool="refs"]', true);
+    await page.keyboard.press('Enter');
+    await tabTo(page, '#zone-canvas');
+    // Box 1 in the middle row of the reading tables (0.54..0.98), moved 10 % up; box 2 moved 10 % down and made larger.
+    await page.keyboard.press('n');
+    for (let i = 0; i < 5; i++) await page.keyboard.press('Shift+ArrowUp');
+    await page.keyboard.press('n');
+    for (let i = 0; i < 5; i++) await page.keyboard.press('Shift+ArrowDown');
+    await page.keyboard.press('+');
+    expect(await page.textContent('#canvas-status')).toMatch(/^Reference person 2 of 2: feet 86\.0 % down, /);
+    await page.keyboard.press('b');
+    expect(await page.textContent('#canvas-status')).toMatch(/^Reference person 1 of 2: feet 66\.0 % down, /);
+    expect(await page.locator('#refs-list li').count()).toBe(2);
+    expect(await page.textContent('#refs-summary')).toMatch(/^Expected person: /);
+    await tabTo(page, '#zones-save');
+    await page.keyboard.press('Enter');
+    await page.waitForSelector('#zones-ok:text-matches("^Saved")');
+    const refs = t.service.store.getZone(CAMERA, 'tables')!.zone.perspective!;
+    expect(refs.map((r) => r.y)).toEqual([0.66, 0.86]);
+    // The larger box nearer the camera: 1.1² = 1.21 times the first one's area (within the rounding to 4 decimals).
+    expect(refs[1].area / refs[0].area).toBeCloseTo(1.21, 1);
+    expect(errors).toEqual([]);
+    await page.close();
+  });
+
   it('the capacity helper sets its suggestion as a zone capacity, with the admin key', async () => {
     const { page, errors } = await browser.newPage();
     await page.goto(`${t.base}/`);

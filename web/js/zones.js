@@ -26,6 +26,8 @@ const MIN_REF_SPREAD = 0.02;
 const PERSON_ASPECT_PX = 2.5;
 /** Smallest expected area, share of the frame (as the server's fit). */
 const MIN_AREA = 0.0002;
+/** One person's share of the frame in a room zone without personArea (the server's default). */
+const DEFAULT_PERSON_AREA = 0.008;
 /** The learned size fills boxes at these shares of the zone's rows. */
 const LEARNED_ROWS = [0.1, 0.5, 0.9];
 
@@ -783,18 +785,8 @@ export function createZonesView(app) {
 
   canvas.addEventListener('keydown', (event) => {
     if (!camera || event.altKey || event.ctrlKey || event.metaKey) return;
-    if (tool === 'refs' && refZone() && refSelected >= 0) {
-      const step = event.shiftKey ? 0.02 : 0.005;
-      const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
-      if (event.key === 'Delete' || event.key === 'Backspace') removeRef(refSelected);
-      else if (event.key in arrows) {
-        moveRef(refSelected, ...arrows[event.key]);
-        changed();
-        renderRefs();
-      } else if (event.key === 'Escape') {
-        refSelected = -1;
-        renderRefs();
-      } else return;
+    if (tool === 'refs' && refZone()) {
+      if (!refKey(event)) return;
       event.preventDefault();
       draw();
       return;
@@ -809,6 +801,67 @@ export function createZonesView(app) {
     event.preventDefault();
     draw();
   });
+
+  /**
+   * Reference people by keyboard: N adds a box in the zone's middle row (one person's size there),
+   * B chooses the next box (Shift+B the one before), arrows move it, + and − resize it about its
+   * foot point, Delete removes it, Esc lets go of it.
+   */
+  function refKey(event) {
+    const z = refZone();
+    const refs = refsOf(z);
+    const key = event.key.length === 1 ? event.key.toLowerCase() : event.key;
+    const step = event.shiftKey ? 0.02 : 0.005;
+    const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
+    const say = (i) => {
+      const r = refsOf(z)[i];
+      announce(`Reference person ${i + 1} of ${refsOf(z).length}: feet ${percent(r.y, 1)} down, ${(r.area * 100).toFixed(2)} % of the picture`);
+    };
+    if (key === 'n' || event.key === 'Insert') {
+      const ys = z.polygon.map((p) => p[1]);
+      const y = (Math.min(...ys) + Math.max(...ys)) / 2;
+      const area = expectedRect(z, [0.5, y])?.area ?? z.personArea ?? DEFAULT_PERSON_AREA;
+      const height = Math.min(y, Math.sqrt(area * refAspect(z)));
+      const width = Math.min(1, area / height);
+      const x = Math.min(1 - width / 2, Math.max(width / 2, middleAtRow(z.polygon, y)));
+      setRefs(z, [...refs, refFromRect({ x0: x - width / 2, y0: y - height, x1: x + width / 2, y1: y })]);
+      refSelected = refsOf(z).length - 1;
+      renderRefs();
+      say(refSelected);
+    } else if (key === 'b') {
+      if (refs.length === 0) return true;
+      refSelected = refSelected < 0 ? 0 : (refSelected + (event.shiftKey ? refs.length - 1 : 1)) % refs.length;
+      renderRefs();
+      say(refSelected);
+    } else if (refSelected < 0 || refSelected >= refs.length) {
+      if (!(event.key in arrows) && !['+', '=', '-', 'Delete', 'Backspace'].includes(event.key)) return false;
+      announce('No reference person chosen: press N to add one, B to choose one.');
+    } else if (event.key === 'Delete' || event.key === 'Backspace') {
+      removeRef(refSelected);
+      announce('Reference person removed');
+    } else if (event.key in arrows) {
+      moveRef(refSelected, ...arrows[event.key]);
+      changed();
+      renderRefs();
+      say(refSelected);
+    } else if (event.key === '+' || event.key === '=' || event.key === '-') {
+      const r = refRect(z, refs[refSelected]);
+      const f = event.key === '-' ? 1 / 1.1 : 1.1;
+      const cx = (r.x0 + r.x1) / 2;
+      const w = Math.max(MIN_BOX, (r.x1 - r.x0) * f);
+      const hh = Math.max(MIN_BOX, (r.y1 - r.y0) * f);
+      if (r.y1 - hh >= 0 && cx - w / 2 >= 0 && cx + w / 2 <= 1) {
+        z.perspective[refSelected] = refFromRect({ x0: cx - w / 2, y0: r.y1 - hh, x1: cx + w / 2, y1: r.y1 });
+        changed();
+        renderRefs();
+      }
+      say(refSelected);
+    } else if (event.key === 'Escape') {
+      refSelected = -1;
+      renderRefs();
+    } else return false;
+    return true;
+  }
 
   /** Makes zone i the selected one (list, form and picture follow). */
   function choose(i) {
