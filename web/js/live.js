@@ -110,7 +110,7 @@ export function createNowView(app) {
             h(
               'li',
               { class: 'event', dataset: { type: e.type, times } },
-              h('span', { class: 'when' }, times > 1 ? `${dateTime(first, tz)} – ${clock(e.time, tz).slice(0, 5)}` : dateTime(e.time, tz)),
+              h('span', { class: 'when' }, times > 1 && dateTime(first, tz) !== dateTime(e.time, tz) ? `${dateTime(first, tz)} – ${clock(e.time, tz).slice(0, 5)}` : dateTime(e.time, tz)),
               h('span', { class: 'what' }, eventWords(e, names, times)),
               h('span', { class: 'by' }, e.by === 'admin' ? 'by the admin' : 'by Residuum, automatically'),
             ),
