@@ -15,7 +15,7 @@ const HIT_PX = 9;
 const HINTS = {
   select: 'Click a zone to select it; drag the zone or its corners to move them. Double-click an edge to add a corner, a corner to remove it.',
   draw: 'Click to place corners; click the first corner again (or press Enter) to close the zone. Esc cancels.',
-  person: 'Drag a box around where one person would stand or sit in the selected zone: its share of the frame becomes “one person covers”.',
+  person: 'Drag a box around where one person would stand or sit in the selected zone: its share of the picture becomes “one person covers”.',
   refs: 'Drag a box around where one person would stand, feet on its bottom edge. Drag a box to move it, a corner to resize it; Delete removes the selected box, arrow keys move it. Place two or more, near and far: the dashed outline then shows the size expected where the pointer is.',
 };
 /** Smallest reference box, share of the frame's width and height: a click is not a box. */
@@ -303,7 +303,7 @@ export function createZonesView(app) {
       const share = Math.abs(a[0] - b[0]) * Math.abs(a[1] - b[1]);
       g.font = `600 ${12 * dpr}px system-ui, sans-serif`;
       g.fillStyle = '#a8382b';
-      const label = `one person ≈ ${(share * 100).toFixed(2)} % of the frame`;
+      const label = `one person ≈ ${(share * 100).toFixed(2)} % of the picture`;
       const below = y1 + 18 * dpr < H;
       const lw = g.measureText(label).width;
       const ly = below ? y1 + 16 * dpr : Math.max(14 * dpr, y0 - 6 * dpr);
@@ -453,7 +453,7 @@ export function createZonesView(app) {
     el.hidden = tool !== 'refs' || !z;
     if (el.hidden) return;
     const expected = guide && expectedRect(z, guide);
-    if (expected) el.textContent = `Expected person with feet here (${percent(guide[1], 0)} down): ${(expected.area * 100).toFixed(2)} % of the frame.`;
+    if (expected) el.textContent = `Expected person with feet here (${percent(guide[1], 0)} down): ${(expected.area * 100).toFixed(2)} % of the picture.`;
     else if (!fitRefs(refsOf(z))) el.textContent = 'The expected size shows once there are two boxes with their feet at different heights.';
     else el.textContent = 'Point at the picture to see the size expected there.';
   }
@@ -512,8 +512,8 @@ export function createZonesView(app) {
     let summary;
     if (refs.length === 0) summary = 'None: one person covers the same share everywhere in this zone. Place two or more with “Reference people” (near and far) to let the expected size follow the distance.';
     else if (refs.length === 1) summary = 'One box so far: place another where a person would stand nearer or farther away (lower or higher in the picture).';
-    else if (!fit) summary = `The boxes need their feet at different heights, at least ${percent(MIN_REF_SPREAD)} of the frame apart.`;
-    else summary = `Expected person: ${(fit.areaAt(Math.min(...ys)) * 100).toFixed(2)} % of the frame at the zone's top edge, ${(fit.areaAt(Math.max(...ys)) * 100).toFixed(2)} % at its bottom edge. This replaces “one person covers”.`;
+    else if (!fit) summary = `The boxes need their feet at different heights, at least ${percent(MIN_REF_SPREAD)} of the picture apart.`;
+    else summary = `Expected person: ${(fit.areaAt(Math.min(...ys)) * 100).toFixed(2)} % of the picture at the zone's top edge, ${(fit.areaAt(Math.max(...ys)) * 100).toFixed(2)} % at its bottom edge. This replaces “one person covers”.`;
     $('#refs-summary').textContent = summary;
     replace(
       $('#refs-list'),
@@ -535,7 +535,7 @@ export function createZonesView(app) {
                 draw();
               },
             },
-            `${i + 1}. feet ${percent(r.y, 0)} down · ${(r.area * 100).toFixed(2)} % of the frame`,
+            `${i + 1}. feet ${percent(r.y, 0)} down · ${(r.area * 100).toFixed(2)} % of the picture`,
           ),
           h('button', { type: 'button', class: 'quiet', 'aria-label': `Remove reference person ${i + 1}`, onclick: () => removeRef(i) }, 'Remove'),
         ),
@@ -736,7 +736,7 @@ export function createZonesView(app) {
         draft[selected].personArea = Number(share.toPrecision(3));
         renderForm();
         changed();
-        setHint(`“One person covers” of ${draft[selected].name || draft[selected].id} is now ${(share * 100).toFixed(2)} % of the frame. Save to apply.`);
+        setHint(`“One person covers” of ${draft[selected].name || draft[selected].id} is now ${(share * 100).toFixed(2)} % of the picture. Save to apply.`);
       }
     }
     drag = undefined;
