@@ -74,7 +74,7 @@ export function createCapacityView(app) {
     );
     if (keep) select.value = keep;
     $('#cap-apply-note').textContent = app.isAdmin()
-      ? 'Counts above the capacity show as “Over capacity”; from 80 % of it as “Filling up”.'
+      ? `Counts above the capacity show as “Over capacity”; from ${Math.round((app.live?.nearCapacity ?? 0.8) * 100)} % of it as “Filling up”.`
       : 'Setting a capacity needs the admin key (“Enter key” at the top right).';
   }
 
