@@ -1,7 +1,8 @@
 import type { ColourFrame } from '../frames/colourFrame.ts';
 import type { GreyFrame } from '../frames/frame.ts';
 import { fitChromaticity } from '../vision/fitChromaticity.ts';
-import { join, resolve } from 'node:path';
+import { statSync } from 'node:fs';
+import { dirname, join, resolve } from 'node:path';
 import { loadConfig } from '../config/loadConfig.ts';
 import { saveModel } from '../counting/modelFile.ts';
 import { learningOutcome, storeModel, type LearningOutcome } from '../counting/storeModel.ts';
@@ -65,6 +66,8 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
     seconds: { type: 'string' },
     data: { type: 'string' },
   });
+  // Before minutes of learning: a model that cannot be written is refused now, in words.
+  if (typeof v.out === 'string') checkOutFolder(v.out);
   if (v.config !== undefined) {
     if (v.colour) throw new UsageError('--colour does not go with --config yet: learn in colour from a folder of images');
     return learnFromCamera(v, io);
@@ -130,7 +133,7 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
   const robust = v.plain !== true;
   const model = fitSubspace(distinct, size, { components, variance, maxComponents, robustIterations: robust ? 2 : 0 });
   const colour = v.colour ? fitChromaticity(distinctColours, size, { robust }) : undefined;
-  await saveModel(out, model, {
+  await writeModel(out, model, {
     learnedAt: new Date().toISOString(),
     source: frames,
     settings: { components, variance: variance ?? 0.95, maxComponents: maxComponents ?? 12, every, limit, ...(v.colour && { colour: true }) },
@@ -146,6 +149,30 @@ function medianOf(values: Float32Array): number {
 }
 
 /** The learning report: frames, components, variance, noise, verdict; the colour spread when learned in colour. */
+/** Refuses an --out whose folder is missing or is no folder, naming the option and the folder. */
+export function checkOutFolder(out: string): void {
+  const folder = dirname(resolve(out));
+  let isFolder: boolean;
+  try {
+    isFolder = statSync(folder).isDirectory();
+  } catch {
+    throw new RangeError(`--out: the folder ${folder} does not exist; create it first or write the model elsewhere`);
+  }
+  if (!isFolder) throw new RangeError(`--out: ${folder} is not a folder`);
+}
+
+/** saveModel with a failure in words (no permission, disk full) naming --out, not a stack trace. */
+async function writeModel(...args: Parameters<typeof saveModel>): Promise<void> {
+  try {
+    await saveModel(...args);
+  } catch (error) {
+    const e = error as NodeJS.ErrnoException;
+    if (typeof e.code !== 'string') throw error;
+    const why = e.code === 'EACCES' || e.code === 'EPERM' ? 'no permission to write there' : e.code === 'ENOSPC' ? 'the disk is full' : e.code === 'ENOENT' ? 'its folder does not exist' : e.code;
+    throw new RangeError(`--out: cannot write the model to ${args[0]} (${why})`);
+  }
+}
+
 function printReport(out: NodeJS.WritableStream, model: SubspaceFit, repeated: number, skipped: number, writtenTo: string, colourSpread?: number): void {
   const verdict = modelVerdict(model);
   const rows: [string, string][] = [
@@ -227,7 +254,7 @@ async function learnFromCamera(
   } finally {
     store.close();
   }
-  if (v.out) await saveModel(v.out as string, model, info);
+  if (v.out) await writeModel(v.out as string, model, info);
   printReport(io.out, model, frames.length - distinct.length, 0, v.out ? `${v.out} and the database` : 'the database');
   if (!outcome.use) {
     io.err.write(`residuum learn: ${outcome.text} It is kept in the database as rejected; an admin can still choose it in the dashboard.\n`);

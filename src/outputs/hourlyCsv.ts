@@ -11,8 +11,9 @@ import { wallClockFormatter } from './zoneOffset.ts';
  * Hourly CSV export: one row per local hour of the site's IANA zone and per known zone, built
  * from the store's quarter-hour UTC rollups (see src/store/rollups.ts for why quarter hours).
  *
- * Every local hour in the range gets a row for every zone that existed during it, data or not: an
- * hour without samples has `coverage` 0, `samples` 0 and empty `mean`, `max`, `min` and
+ * Every local hour in the range that has begun gets a row for every zone that existed during it,
+ * data or not (hours after the current one have none: a day still going stops at the current hour,
+ * so the future never reads as a gap); an hour without samples has `coverage` 0, `samples` 0 and empty `mean`, `max`, `min` and
  * `occupied_share`, so a gap never reads as zero occupancy. A DST day has 23 or 25 rows per zone;
  * the repeated fall-back hour appears twice with different offsets in `hour_start`.
  *
@@ -46,6 +47,8 @@ export interface HourlyRowsOptions {
   readonly timeZone?: string;
   /** Most hours in the range before refusing; default 24 × 366 × 10. */
   readonly maxHours?: number;
+  /** The present, UTC epoch ms: hours starting after it get no row; default `Date.now()`. */
+  readonly now?: number;
 }
 
 export interface HourlyRow {
@@ -86,7 +89,7 @@ export interface HourlyRow {
  */
 export function hourlyRows(store: HourlySource, options: HourlyRowsOptions): HourlyRow[] {
   if (typeof options !== 'object' || options === null) throw new TypeError('options: expected { from, to, … }');
-  const { from, to, camera, zone, timeZone = store.timeZone, maxHours } = options;
+  const { from, to, camera, zone, timeZone = store.timeZone, maxHours, now = Date.now() } = options;
   wallClockFormatter(timeZone, 'timeZone');
   if (from === undefined) throw new TypeError('from: required (a date YYYY-MM-DD or an ISO 8601 timestamp)');
   if (to === undefined) throw new TypeError('to: required (a date YYYY-MM-DD or an ISO 8601 timestamp)');
@@ -106,7 +109,7 @@ export function hourlyRows(store: HourlySource, options: HourlyRowsOptions): Hou
   }
   const cameraNames = new Map(cameras.map((c) => [c.id, c.name]));
 
-  const hours = localHours({ from: start, to: end }, { timeZone, maxHours });
+  const hours = localHours({ from: start, to: end }, { timeZone, maxHours }).filter((h) => h.start <= now);
   const nh = hours.length;
   const nz = zones.length;
   if (nh === 0 || nz === 0) return [];

@@ -217,8 +217,9 @@ describe('dashboard in chromium', () => {
     // A bad id is refused by the server, naming the field.
     await page.fill('#zf-id', 'bad id!');
     await page.click('#zones-save');
-    await page.waitForSelector('#zones-error:text-matches("\\.id ")');
-    expect(await page.textContent('#zones-error')).toMatch(/zones\[3\]\.id must be/);
+    await page.waitForSelector('#zones-error:not(:empty)');
+    expect(await page.textContent('#zones-error > span')).toBe('Not saved. Zone “New zone 4”, short id: use 1 to 64 letters, digits, “-” or “_”, starting with a letter or digit (now "bad id!").');
+    expect(await page.textContent('#zones-error code')).toMatch(/zones\[3\]\.id must be/);
 
     await page.fill('#zf-id', 'window-seat');
     await page.fill('#zf-name', 'Window seat');

@@ -83,7 +83,7 @@ describe('reference people in the zone editor', () => {
     const guide = await page.textContent('#refs-guide');
     // check: least squares of √area on the foot row through the two boxes (fitPersonArea, the server's fit)
     const expected = fitPersonArea([{ y: 0.76, area: 0.06 * 0.14 }, { y: 0.96, area: 0.08 * 0.18 }]).areaAt(0.9);
-    const shown = Number(/: ([\d.]+) % of the frame/.exec(guide ?? '')![1]) / 100;
+    const shown = Number(/: ([\d.]+) % of the picture/.exec(guide ?? '')![1]) / 100;
     expect(guide).toMatch(/^Expected person with feet here \(90 % down\)/);
     expect(Math.abs(shown - expected)).toBeLessThan(0.0003);
 
@@ -97,7 +97,7 @@ describe('reference people in the zone editor', () => {
     expect(await listed()).toBe(3);
     await page.keyboard.press('Delete');
     expect(await listed()).toBe(2);
-    expect(await page.textContent('#refs-summary')).toMatch(/^Expected person: [\d.]+ % of the frame at the zone's top edge, [\d.]+ % at its bottom edge/);
+    expect(await page.textContent('#refs-summary')).toMatch(/^Expected person: [\d.]+ % of the picture at the zone's top edge, [\d.]+ % at its bottom edge/);
     await page.mouse.move(...at(0.2, 0.88));
     await page.screenshot({ path: join(shots, 'zones-references.png'), fullPage: true });
 

@@ -83,6 +83,11 @@ describe('residuum learn and count', () => {
     expect(empty.code).toBe(1);
     expect(empty.err).toMatch(/nothing/);
 
+    // A model that cannot be written is refused before learning, in words, without a stack trace.
+    const nowhere = residuum('learn', '--frames', 'empty', '--out', '/no/such/folder/room.rsdm');
+    expect(nowhere.code).toBe(1);
+    expect(nowhere.err).toBe('residuum learn: --out: the folder /no/such/folder does not exist; create it first or write the model elsewhere\n');
+
     writeFileSync(join(dir, 'broken.rsdm'), 'RSDMODEL but not really');
     const corrupt = residuum('count', '--model', 'broken.rsdm', '--frames', 'busy');
     expect(corrupt.code).toBe(1);

@@ -245,3 +245,26 @@ describe('writeHourlyCsv', () => {
     expect(formatNumber(null)).toBe('');
   });
 });
+
+describe('hourlyRows stops at the current hour', () => {
+  it('gives no row for hours that have not begun, and the hour in progress with its data so far', () => {
+    const store = site('Europe/Berlin');
+    // 10:30 local on the fall-back day (25 hours); the hour 10:00–11:00 is under way.
+    const now = DateTime.fromISO('2026-10-25T10:30', { zone: 'Europe/Berlin' }).toMillis();
+    put(store, 'room', now - 20 * MIN, 2);
+    const rows = byZone(hourlyRows(store, { from: '2026-10-25', to: '2026-10-25', now }), 'room');
+    // check: luxon's hour starts of the day (IANA tz database), cut after the hour containing `now`:
+    // midnight to 10:00 with the repeated 02:00 is 12 hours.
+    const expected = luxonHourStarts('2026-10-25', 'Europe/Berlin').filter((d) => d.toMillis() <= now);
+    expect(expected).toHaveLength(12);
+    expect(rows.map((r) => r.hourStartIso)).toEqual(expected.map((d) => d.toISO({ suppressMilliseconds: true })));
+    const last = rows[rows.length - 1];
+    expect(last.hourStartIso).toBe('2026-10-25T10:00:00+01:00');
+    expect(last.mean).toBe(2);
+    // The hour's coverage is of the whole hour: a minute of data in an hour is 1/60, future minutes count as not covered.
+    expect(last.coverage).toBeCloseTo(1 / 60, 9);
+    // A range wholly after `now` has no rows; the CSV is its header only.
+    expect(hourlyRows(store, { from: '2026-10-26', to: '2026-10-26', now })).toEqual([]);
+    expect(writeHourlyCsv(hourlyRows(store, { from: '2026-10-26', to: '2026-10-26', now }))).toBe(`${HOURLY_CSV_HEADER.join(',')}\r\n`);
+  });
+});

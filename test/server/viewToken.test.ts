@@ -16,6 +16,7 @@ let keys: NewTokens;
 beforeAll(async () => {
   t = tempStore({ timeZone: 'Europe/Berlin' });
   keys = prepareTokens(t.store, { viewToken: true });
+  t.store.upsertCamera({ id: 'reading-room', name: 'Reading room' });
   const app = createApp({ store: t.store, live: () => [], siteName: 'Closed site', timeZone: 'Europe/Berlin', startedAt: 0, viewTokenRequired: true, host: '127.0.0.1' });
   server = app.listen(0, '127.0.0.1');
   await new Promise((r) => server.once('listening', r));
@@ -38,7 +39,7 @@ describe('server.viewToken', () => {
   });
 
   it('refuses counts without a key and serves them with the view or admin key', async () => {
-    for (const path of ['/api/live', '/api/history?from=2026-01-01&to=2026-01-01', '/api/export/hourly.csv?from=2026-01-01&to=2026-01-01', '/api/settings']) {
+    for (const path of ['/api/live', '/api/history?from=2026-01-01&to=2026-01-01', '/api/export/hourly.csv?from=2026-01-01&to=2026-01-01', '/api/settings', '/api/today', '/api/cameras/reading-room/events']) {
       expect((await get(path)).status, path).toBe(401);
       expect((await get(path, keys.view)).status, path).toBe(200);
       expect((await get(path, keys.admin)).status, path).toBe(200);

@@ -2,6 +2,7 @@
 import { api, ApiError, explain, followLive, getKey, onKeyChange, setKey } from './api.js';
 import { $, $$ } from './dom.js';
 import { createCalibrationPanel } from './calibration.js';
+import { ago, clock } from './format.js';
 import { createCapacityView } from './capacity.js';
 import { createHistoryView } from './history.js';
 import { createNowView } from './live.js';
@@ -13,10 +14,21 @@ const app = {
   live: null,
   liveListeners: new Set(),
   roleListeners: new Set(),
+  connectionListeners: new Set(),
   streamState: 'connecting',
+  /** When the service last answered, epoch ms (browser clock); undefined before it did. */
+  lastContact: undefined,
   /** fn(liveState) on every live event. */
   onLive(fn) {
     this.liveListeners.add(fn);
+  },
+  /** fn(streamState) when the connection to the service changes. */
+  onConnection(fn) {
+    this.connectionListeners.add(fn);
+  },
+  /** Whether the figures on the page are current (the service answers). */
+  connected() {
+    return this.streamState === 'live' || this.streamState === 'polling';
   },
   /** fn(role) when the role changes. */
   onRole(fn) {
@@ -76,18 +88,48 @@ async function boot() {
       app.live = state;
       for (const fn of app.liveListeners) fn(state);
     },
-    (s) => {
+    (s, info) => {
+      const changed = s !== app.streamState;
       app.streamState = s;
-      const el = $('#stream-state');
-      el.dataset.state = s;
-      el.textContent = s === 'live' ? 'Live' : s === 'refused' ? 'A key is needed to view counts' : 'Reconnecting…';
+      app.lastContact = info.lastContact;
+      app.streamReason = info.reason;
+      showConnection();
+      if (changed) for (const fn of app.connectionListeners) fn(s);
       if (s === 'refused') openKeyDialog();
     },
   );
+  // Keep "since 14:02 (40 s ago)" current while the service does not answer.
+  setInterval(() => app.streamState === 'lost' && showConnection(), 5000);
   onKeyChange(async () => {
     await refreshRole();
     stream.restart();
   });
+}
+
+/** The status line of Now and the banner shown on every view while the service does not answer. */
+function showConnection() {
+  const s = app.streamState;
+  const tz = app.site.timeZone;
+  const el = $('#stream-state');
+  el.dataset.state = s;
+  el.title = s === 'polling' && app.streamReason ? `Live updates unavailable: ${app.streamReason}` : '';
+  el.textContent = s === 'live'
+    ? 'Live'
+    : s === 'polling'
+      ? 'Updating every 5 s'
+      : s === 'refused'
+        ? 'A key is needed to view counts'
+        : s === 'lost'
+          ? 'Not connected: reconnecting…'
+          : 'Connecting…';
+  document.body.dataset.connection = s;
+  const banner = $('#connection');
+  banner.hidden = s !== 'lost';
+  if (s === 'lost') {
+    banner.textContent = app.lastContact
+      ? `No answer from the Residuum service since ${clock(app.lastContact, tz)} (${ago(app.lastContact)} ago). The figures shown are from then, greyed out, not live. Reconnecting…`
+      : 'The Residuum service is not answering. Check that it is running; the page keeps trying to reconnect.';
+  }
 }
 
 async function refreshRole() {

@@ -6,7 +6,7 @@ export const statusWords = {
   offline: 'Offline',
   learning: 'Learning the empty scene',
   'view-changed': 'View changed',
-  stale: 'No recent frames',
+  stale: 'No recent pictures',
   stopped: 'Stopped',
 };
 
@@ -48,6 +48,45 @@ export function statusReason(camera, now = Date.now()) {
       return 'The service is stopping.';
     default:
       return 'Unknown state.';
+  }
+}
+
+/**
+ * A stored event in plain words, e.g. "Camera stopped sending pictures (folder not found) …".
+ * `zoneNames` maps zone ids to their names; `times` > 1 for a run of the same event shown as one.
+ */
+export function eventWords(event, zoneNames = new Map(), times = 1) {
+  const d = event.detail ?? {};
+  const zone = event.zone ? `“${zoneNames.get(event.zone) ?? event.zone}”` : '';
+  switch (event.type) {
+    case 'offline':
+      return `Camera stopped sending pictures${d.reason ? ` (${d.reason})` : ''}; not counted until it came back.`;
+    case 'online':
+      return 'Camera sending pictures again; counting resumed.';
+    case 'view-changed':
+      return d.reason === 'source size changed'
+        ? 'The camera started sending pictures of another size; counting paused until the empty scene is learned again.'
+        : 'The view no longer looked like the learned empty scene (camera moved, covered, or the light changed); counting paused.';
+    case 'view-restored':
+      return 'The view matched the learned empty scene again; counting resumed.';
+    case 'capacity-exceeded': {
+      const people = typeof d.count === 'number' ? `about ${Math.round(d.count)} people` : '';
+      const capacity = d.capacity !== undefined ? ` of ${d.capacity}` : '';
+      if (times > 1) return `Zone ${zone} went over its capacity${d.capacity !== undefined ? ` (${d.capacity})` : ''} ${times} times${people ? `; the last time ${people}` : ''}.`;
+      return `Zone ${zone} went over its capacity${capacity}${people ? ` (${people})` : ''}.`;
+    }
+    case 'model-learned':
+      return `Learned the empty scene again; now in use${d.level ? ` (quality: ${(verdictWords[d.level] ?? d.level).toLowerCase()})` : ''}.`;
+    case 'learning-rejected':
+      return `Learned the empty scene again, but the result was poor and is not used${d.reason ? `: ${d.reason}` : ''}. The camera kept the one it had.`;
+    case 'model-activated':
+      return `An earlier empty scene was put back in use${d.learnedAt ? ` (learned ${new Date(d.learnedAt).toLocaleDateString('en-GB', { day: 'numeric', month: 'short' })})` : ''}.`;
+    case 'model-stale':
+      return 'The empty scene looks out of date: learn it again when the view is empty.';
+    case 'settings-changed':
+      return d.what === 'zones' ? `Zones changed${Array.isArray(d.zones) ? ` (now ${d.zones.length}: ${d.zones.join(', ')})` : ''}.` : 'Settings changed.';
+    default:
+      return event.type;
   }
 }
 

@@ -76,10 +76,20 @@ export function createHistoryView(app) {
     const rows = result.rows;
     const shelf = zone.kind === 'shelf';
     $('#history-title').textContent = `${zone.cameraName} · ${zone.name}: hourly ${shelf ? 'fill' : 'mean and peak'}, ${from.value === to.value ? from.value : `${from.value} to ${to.value}`}`;
+    $('#history-legend').hidden = shelf;
+    $('#history-occupied-head').textContent = shelf ? 'Average fill' : 'Time occupied';
     const hasData = rows.some((r) => r.coverage > 0);
-    $('#history-empty').hidden = hasData;
-    drawChart(rows, zone, result.start, result.end);
-    fillTable(rows, shelf);
+    const empty = $('#history-empty');
+    empty.hidden = hasData;
+    empty.textContent = result.end <= result.start
+      ? 'This range has not begun yet: hours appear here once they start.'
+      : 'No counts are stored for this range. Hours without counts stay empty, never zero.';
+    if (result.end > result.start) drawChart(rows, zone, result.start, result.end);
+    else {
+      chart?.destroy();
+      chart = undefined;
+    }
+    fillTable(rows, shelf, from.value === to.value);
   }
 
   function drawChart(rows, zone, start, end) {
@@ -102,7 +112,7 @@ export function createHistoryView(app) {
     const series = [
       { label: 'Hour', value: (u, ts) => (ts === null ? '–' : `${hourText(ts - 1800)} – ${hourText(ts + 1800).slice(-5)}`) },
       {
-        label: shelf ? 'Mean fill %' : 'Mean people',
+        label: shelf ? 'Hourly mean fill %' : 'Hourly mean, people',
         stroke: '#2c5d6e',
         width: 1,
         fill: 'rgba(44, 93, 110, 0.55)',
@@ -110,7 +120,7 @@ export function createHistoryView(app) {
         points: { show: false },
         value: (u, v) => (v === null ? '–' : v.toFixed(1)),
       },
-      { label: shelf ? 'Highest %' : 'Peak', stroke: '#a86a12', width: 0, paths: () => null, points: { show: true, size: 7, width: 2, fill: '#fffdf8' }, value: (u, v) => (v === null ? '–' : v.toFixed(1)) },
+      { label: shelf ? 'Hourly highest fill %' : 'Hourly peak, people', stroke: '#8a5309', width: 0, paths: () => null, points: { show: true, size: 7, width: 2, fill: '#fffdf8' }, value: (u, v) => (v === null ? '–' : v.toFixed(1)) },
     ];
     const tz = app.site.timeZone;
     const opts = {
@@ -122,8 +132,8 @@ export function createHistoryView(app) {
       },
       series,
       axes: [
-        { stroke: '#5f6b76', grid: { stroke: '#ebe6dc' }, ticks: { stroke: '#ddd6c8' }, values: (u, splits) => splits.map((ts) => tick(ts, end - start, tz)) },
-        { stroke: '#5f6b76', grid: { stroke: '#ebe6dc' }, ticks: { stroke: '#ddd6c8' }, label: shelf ? 'fill %' : 'people' },
+        { stroke: '#4f5a64', grid: { stroke: '#ebe6dc' }, ticks: { stroke: '#ddd6c8' }, values: (u, splits) => splits.map((ts) => tick(ts, end - start, tz)) },
+        { stroke: '#4f5a64', grid: { stroke: '#ebe6dc' }, ticks: { stroke: '#ddd6c8' }, label: shelf ? 'fill %' : 'people' },
       ],
       cursor: { drag: { x: false, y: false } },
       hooks: { draw: [(u) => capacityLine(u, shelf ? undefined : zone.capacity)] },
@@ -154,22 +164,21 @@ export function createHistoryView(app) {
     g.restore();
   }
 
-  function fillTable(rows, shelf) {
+  function fillTable(rows, shelf, oneDay) {
     const tbody = $('#history-table tbody');
-    const value = (v) => (v === null ? '' : shelf ? percent(v, 1) : num(v, 2));
+    const value = (v) => (v === null ? '' : shelf ? percent(v, 1) : num(v, 1));
     replace(
       tbody,
       rows.map((r) =>
         h(
           'tr',
           { class: r.coverage > 0 ? '' : 'nodata' },
-          h('td', {}, r.hourStartIso.slice(0, 16).replace('T', ' ')),
+          h('td', { class: 'hour' }, oneDay ? r.hourStartIso.slice(11, 16) : r.hourStartIso.slice(0, 16).replace('T', ' ')),
           h('td', { class: 'num' }, value(r.mean)),
           h('td', { class: 'num' }, value(r.max)),
           h('td', { class: 'num' }, value(r.min)),
           h('td', { class: 'num' }, r.occupiedShare === null ? '' : percent(r.occupiedShare)),
-          h('td', { class: 'num' }, r.coverage > 0 ? percent(r.coverage) : 'no data'),
-          h('td', { class: 'num' }, String(r.samples)),
+          h('td', { class: 'num' }, r.coverage <= 0 ? 'no data' : r.coverage < 0.005 ? 'under 1 %' : percent(r.coverage)),
         ),
       ),
     );
@@ -202,6 +211,7 @@ export function createHistoryView(app) {
       $('#history-tz').textContent = app.site.timeZone;
       if (!loaded) {
         loaded = await loadZones();
+        if (!loaded) return;
         const today = localDate(Date.now(), app.site.timeZone);
         from.value ||= today;
         to.value ||= today;

@@ -2,16 +2,20 @@
 // figures, place reference people (boxes whose size the expected person follows with the distance),
 // preview the coarse foreground mask, learn the empty scene again, and see the history of changes.
 // Coordinates are normalised like the server's: x 0..1 from the left, y 0..1 from the top.
-import { api, apiBlob, explain } from './api.js';
+import { api, apiBlob, ApiError, explain } from './api.js';
 import { $, $$, h, replace } from './dom.js';
-import { dateTime, percent, verdictWords } from './format.js';
+import { createEmptyScenePanel } from './emptyScene.js';
+import { dateTime, percent } from './format.js';
+import { createZoneKeys } from './zoneKeys.js';
+import { FIELD_WORDS, problemWords, slug } from './zoneWords.js';
+import { brief, clamp01, clone, hexAlpha, inside, middleAtRow, nearestOnSegment, normRect, round, round4, topLeft } from './zoneGeometry.js';
 
 const COLOURS = ['#2c5d6e', '#8a5a9e', '#b5651d', '#3d7a57', '#9e3d5a', '#4f6aa8', '#7a7a2e'];
 const HIT_PX = 9;
 const HINTS = {
   select: 'Click a zone to select it; drag the zone or its corners to move them. Double-click an edge to add a corner, a corner to remove it.',
   draw: 'Click to place corners; click the first corner again (or press Enter) to close the zone. Esc cancels.',
-  person: 'Drag a box around where one person would stand or sit in the selected zone: its share of the frame becomes “one person covers”.',
+  person: 'Drag a box around where one person would stand or sit in the selected zone: its share of the picture becomes “one person covers”.',
   refs: 'Drag a box around where one person would stand, feet on its bottom edge. Drag a box to move it, a corner to resize it; Delete removes the selected box, arrow keys move it. Place two or more, near and far: the dashed outline then shows the size expected where the pointer is.',
 };
 /** Smallest reference box, share of the frame's width and height: a click is not a box. */
@@ -22,6 +26,8 @@ const MIN_REF_SPREAD = 0.02;
 const PERSON_ASPECT_PX = 2.5;
 /** Smallest expected area, share of the frame (as the server's fit). */
 const MIN_AREA = 0.0002;
+/** One person's share of the frame in a room zone without personArea (the server's default). */
+const DEFAULT_PERSON_AREA = 0.008;
 /** The learned size fills boxes at these shares of the zone's rows. */
 const LEARNED_ROWS = [0.1, 0.5, 0.9];
 
@@ -31,6 +37,14 @@ export function createZonesView(app) {
   const cameraSelect = $('#zones-camera');
   const errorEl = $('#zones-error');
   const okEl = $('#zones-ok');
+
+  const scene = createEmptyScenePanel(app, {
+    camera: () => camera,
+    onModelChanged: async () => {
+      await loadBackground();
+      draw();
+    },
+  });
 
   let cameras = [];
   let camera;
@@ -51,10 +65,50 @@ export function createZonesView(app) {
   let frame = { width: 4, height: 3 };
   let mask;
   let maskTimer;
-  let learnTimer;
-  /** Stored id of the empty scene the camera counts with, when known. */
-  let inUse;
+  /** The corner of the selected zone chosen for the keyboard (index), or -1 for the whole zone. */
+  let corner = -1;
+  /** The keyboard's cross while drawing, normalised. */
+  let keyCursor = [0.5, 0.5];
   let visible = false;
+
+  const keys = createZoneKeys({
+    get draft() {
+      return draft;
+    },
+    get selected() {
+      return selected;
+    },
+    get corner() {
+      return corner;
+    },
+    set corner(v) {
+      corner = v;
+    },
+    get keyCursor() {
+      return keyCursor;
+    },
+    set keyCursor(v) {
+      keyCursor = v;
+    },
+    set cursor(v) {
+      cursor = v;
+    },
+    get drawing() {
+      return drawing;
+    },
+    set drawing(v) {
+      drawing = v;
+    },
+    set personBox(v) {
+      personBox = v;
+    },
+    changed: () => changed(),
+    draw: () => draw(),
+    deleteSelected: () => deleteSelected(),
+    finishDrawing: () => finishDrawing(),
+    choose: (i) => choose(i),
+  });
+  const { drawKey, selectKey, renderCorners, syncCorners, announce, where } = keys;
 
   // ---- loading ----------------------------------------------------------------------------
 
@@ -74,7 +128,8 @@ export function createZonesView(app) {
 
   async function selectCamera(id) {
     camera = cameras.find((c) => c.id === id);
-    inUse = undefined;
+    scene.reset();
+    corner = -1;
     if (!camera) return;
     saved = camera.zones.map(clone);
     draft = saved.map(clone);
@@ -95,8 +150,8 @@ export function createZonesView(app) {
     renderForm();
     renderDirty();
     draw();
-    loadModel();
-    loadKept();
+    scene.loadModel();
+    scene.loadKept();
     loadHistory();
     restartMask();
   }
@@ -149,12 +204,15 @@ export function createZonesView(app) {
     } else {
       g.fillStyle = '#ddd7cb';
       g.fillRect(0, 0, W, H);
-      g.font = `${14 * dpr}px system-ui, sans-serif`;
       const text = !camera?.model ? 'No empty scene learned yet' : app.isAdmin() ? 'Loading the empty scene…' : 'The empty scene is shown once you enter the admin key';
+      // 14 px, smaller on a narrow picture so that the whole sentence fits.
+      g.font = `${14 * dpr}px system-ui, sans-serif`;
+      const fit = Math.min(1, (W - 30 * dpr) / g.measureText(text).width);
+      g.font = `${Math.max(9, 14 * fit) * dpr}px system-ui, sans-serif`;
       const tw = g.measureText(text).width;
       g.fillStyle = 'rgba(255, 253, 248, 0.85)';
       g.fillRect(W - tw - 22 * dpr, H - 34 * dpr, tw + 16 * dpr, 26 * dpr);
-      g.fillStyle = '#5f6b76';
+      g.fillStyle = '#4f5a64';
       g.fillText(text, W - tw - 14 * dpr, H - 16 * dpr);
     }
     if (mask) {
@@ -187,15 +245,16 @@ export function createZonesView(app) {
       g.fillStyle = colour;
       g.fillText(label, lx + 9 * dpr, ly + 19 * dpr);
       if (active && tool === 'select') {
-        for (const p of z.polygon) {
+        z.polygon.forEach((p, k) => {
+          const chosen = k === corner;
           g.beginPath();
-          g.arc(...P(p), 5.5 * dpr, 0, Math.PI * 2);
-          g.fillStyle = '#fffdf8';
+          g.arc(...P(p), (chosen ? 8 : 5.5) * dpr, 0, Math.PI * 2);
+          g.fillStyle = chosen ? '#e0b44c' : '#fffdf8';
           g.fill();
-          g.lineWidth = 2 * dpr;
-          g.strokeStyle = colour;
+          g.lineWidth = (chosen ? 3 : 2) * dpr;
+          g.strokeStyle = chosen ? '#1f2933' : colour;
           g.stroke();
-        }
+        });
       }
     });
     if (drawing.length > 0) {
@@ -217,6 +276,20 @@ export function createZonesView(app) {
         g.stroke();
       });
     }
+    if (tool === 'draw' && document.activeElement === canvas) {
+      // The keyboard's cross (arrow keys move it, Space places a corner there).
+      const [cx, cy] = P(keyCursor);
+      g.lineWidth = 2 * dpr;
+      g.strokeStyle = '#1f2933';
+      g.beginPath();
+      g.moveTo(cx - 12 * dpr, cy);
+      g.lineTo(cx + 12 * dpr, cy);
+      g.moveTo(cx, cy - 12 * dpr);
+      g.lineTo(cx, cy + 12 * dpr);
+      g.stroke();
+      g.strokeStyle = '#e0b44c';
+      g.strokeRect(cx - 4 * dpr, cy - 4 * dpr, 8 * dpr, 8 * dpr);
+    }
     drawReferences(P, dpr);
     if (personBox) {
       const [a, b] = personBox;
@@ -230,7 +303,7 @@ export function createZonesView(app) {
       const share = Math.abs(a[0] - b[0]) * Math.abs(a[1] - b[1]);
       g.font = `600 ${12 * dpr}px system-ui, sans-serif`;
       g.fillStyle = '#a8382b';
-      const label = `one person ≈ ${(share * 100).toFixed(2)} % of the frame`;
+      const label = `one person ≈ ${(share * 100).toFixed(2)} % of the picture`;
       const below = y1 + 18 * dpr < H;
       const lw = g.measureText(label).width;
       const ly = below ? y1 + 16 * dpr : Math.max(14 * dpr, y0 - 6 * dpr);
@@ -380,7 +453,7 @@ export function createZonesView(app) {
     el.hidden = tool !== 'refs' || !z;
     if (el.hidden) return;
     const expected = guide && expectedRect(z, guide);
-    if (expected) el.textContent = `Expected person with feet here (${percent(guide[1], 0)} down): ${(expected.area * 100).toFixed(2)} % of the frame.`;
+    if (expected) el.textContent = `Expected person with feet here (${percent(guide[1], 0)} down): ${(expected.area * 100).toFixed(2)} % of the picture.`;
     else if (!fitRefs(refsOf(z))) el.textContent = 'The expected size shows once there are two boxes with their feet at different heights.';
     else el.textContent = 'Point at the picture to see the size expected there.';
   }
@@ -439,8 +512,8 @@ export function createZonesView(app) {
     let summary;
     if (refs.length === 0) summary = 'None: one person covers the same share everywhere in this zone. Place two or more with “Reference people” (near and far) to let the expected size follow the distance.';
     else if (refs.length === 1) summary = 'One box so far: place another where a person would stand nearer or farther away (lower or higher in the picture).';
-    else if (!fit) summary = `The boxes need their feet at different heights, at least ${percent(MIN_REF_SPREAD)} of the frame apart.`;
-    else summary = `Expected person: ${(fit.areaAt(Math.min(...ys)) * 100).toFixed(2)} % of the frame at the zone's top edge, ${(fit.areaAt(Math.max(...ys)) * 100).toFixed(2)} % at its bottom edge. This replaces “one person covers”.`;
+    else if (!fit) summary = `The boxes need their feet at different heights, at least ${percent(MIN_REF_SPREAD)} of the picture apart.`;
+    else summary = `Expected person: ${(fit.areaAt(Math.min(...ys)) * 100).toFixed(2)} % of the picture at the zone's top edge, ${(fit.areaAt(Math.max(...ys)) * 100).toFixed(2)} % at its bottom edge. This replaces “one person covers”.`;
     $('#refs-summary').textContent = summary;
     replace(
       $('#refs-list'),
@@ -462,7 +535,7 @@ export function createZonesView(app) {
                 draw();
               },
             },
-            `${i + 1}. feet ${percent(r.y, 0)} down · ${(r.area * 100).toFixed(2)} % of the frame`,
+            `${i + 1}. feet ${percent(r.y, 0)} down · ${(r.area * 100).toFixed(2)} % of the picture`,
           ),
           h('button', { type: 'button', class: 'quiet', 'aria-label': `Remove reference person ${i + 1}`, onclick: () => removeRef(i) }, 'Remove'),
         ),
@@ -581,10 +654,12 @@ export function createZonesView(app) {
     const v = hitVertex(p);
     if (v >= 0) {
       drag = { kind: 'vertex', index: v };
+      corner = v;
     } else {
       const z = hitZone(p);
       if (z !== selected) refSelected = -1;
       selected = z;
+      corner = -1;
       if (z >= 0) drag = { kind: 'move', start: p, original: draft[z].polygon.map((q) => [...q]) };
       renderList();
       renderForm();
@@ -661,7 +736,7 @@ export function createZonesView(app) {
         draft[selected].personArea = Number(share.toPrecision(3));
         renderForm();
         changed();
-        setHint(`“One person covers” of ${draft[selected].name || draft[selected].id} is now ${(share * 100).toFixed(2)} % of the frame. Save to apply.`);
+        setHint(`“One person covers” of ${draft[selected].name || draft[selected].id} is now ${(share * 100).toFixed(2)} % of the picture. Save to apply.`);
       }
     }
     drag = undefined;
@@ -706,32 +781,99 @@ export function createZonesView(app) {
     draw();
   });
 
+  // ---- keyboard (zoneKeys.js; here the reference boxes' keys and the tools' dispatch) -------
+
   canvas.addEventListener('keydown', (event) => {
-    if (tool === 'refs' && refZone() && refSelected >= 0) {
-      const step = event.shiftKey ? 0.02 : 0.005;
-      const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
-      if (event.key === 'Delete' || event.key === 'Backspace') removeRef(refSelected);
-      else if (event.key in arrows) {
-        moveRef(refSelected, ...arrows[event.key]);
-        changed();
-        renderRefs();
-      } else if (event.key === 'Escape') {
-        refSelected = -1;
-        renderRefs();
-      } else return;
+    if (!camera || event.altKey || event.ctrlKey || event.metaKey) return;
+    if (tool === 'refs' && refZone()) {
+      if (!refKey(event)) return;
       event.preventDefault();
       draw();
       return;
     }
-    if (event.key === 'Enter' && tool === 'draw') finishDrawing();
-    else if (event.key === 'Escape') {
-      drawing = [];
+    if (tool === 'draw') {
+      if (!drawKey(event)) return;
+    } else if (tool === 'select') {
+      if (!selectKey(event)) return;
+    } else if (event.key === 'Escape') {
       personBox = undefined;
-    } else if ((event.key === 'Delete' || event.key === 'Backspace') && tool === 'select' && selected >= 0) deleteSelected();
-    else return;
+    } else return;
     event.preventDefault();
     draw();
   });
+
+  /**
+   * Reference people by keyboard: N adds a box in the zone's middle row (one person's size there),
+   * B chooses the next box (Shift+B the one before), arrows move it, + and − resize it about its
+   * foot point, Delete removes it, Esc lets go of it.
+   */
+  function refKey(event) {
+    const z = refZone();
+    const refs = refsOf(z);
+    const key = event.key.length === 1 ? event.key.toLowerCase() : event.key;
+    const step = event.shiftKey ? 0.02 : 0.005;
+    const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
+    const say = (i) => {
+      const r = refsOf(z)[i];
+      announce(`Reference person ${i + 1} of ${refsOf(z).length}: feet ${percent(r.y, 1)} down, ${(r.area * 100).toFixed(2)} % of the picture`);
+    };
+    if (key === 'n' || event.key === 'Insert') {
+      const ys = z.polygon.map((p) => p[1]);
+      const y = (Math.min(...ys) + Math.max(...ys)) / 2;
+      const area = expectedRect(z, [0.5, y])?.area ?? z.personArea ?? DEFAULT_PERSON_AREA;
+      const height = Math.min(y, Math.sqrt(area * refAspect(z)));
+      const width = Math.min(1, area / height);
+      const x = Math.min(1 - width / 2, Math.max(width / 2, middleAtRow(z.polygon, y)));
+      setRefs(z, [...refs, refFromRect({ x0: x - width / 2, y0: y - height, x1: x + width / 2, y1: y })]);
+      refSelected = refsOf(z).length - 1;
+      renderRefs();
+      say(refSelected);
+    } else if (key === 'b') {
+      if (refs.length === 0) return true;
+      refSelected = refSelected < 0 ? 0 : (refSelected + (event.shiftKey ? refs.length - 1 : 1)) % refs.length;
+      renderRefs();
+      say(refSelected);
+    } else if (refSelected < 0 || refSelected >= refs.length) {
+      if (!(event.key in arrows) && !['+', '=', '-', 'Delete', 'Backspace'].includes(event.key)) return false;
+      announce('No reference person chosen: press N to add one, B to choose one.');
+    } else if (event.key === 'Delete' || event.key === 'Backspace') {
+      removeRef(refSelected);
+      announce('Reference person removed');
+    } else if (event.key in arrows) {
+      moveRef(refSelected, ...arrows[event.key]);
+      changed();
+      renderRefs();
+      say(refSelected);
+    } else if (event.key === '+' || event.key === '=' || event.key === '-') {
+      const r = refRect(z, refs[refSelected]);
+      const f = event.key === '-' ? 1 / 1.1 : 1.1;
+      const cx = (r.x0 + r.x1) / 2;
+      const w = Math.max(MIN_BOX, (r.x1 - r.x0) * f);
+      const hh = Math.max(MIN_BOX, (r.y1 - r.y0) * f);
+      if (r.y1 - hh >= 0 && cx - w / 2 >= 0 && cx + w / 2 <= 1) {
+        z.perspective[refSelected] = refFromRect({ x0: cx - w / 2, y0: r.y1 - hh, x1: cx + w / 2, y1: r.y1 });
+        changed();
+        renderRefs();
+      }
+      say(refSelected);
+    } else if (event.key === 'Escape') {
+      refSelected = -1;
+      renderRefs();
+    } else return false;
+    return true;
+  }
+
+  /** Makes zone i the selected one (list, form and picture follow). */
+  function choose(i) {
+    if (i !== selected) {
+      refSelected = -1;
+      corner = -1;
+    }
+    selected = i;
+    renderList();
+    renderForm();
+    draw();
+  }
 
   function finishDrawing() {
     if (drawing.length < 3) {
@@ -747,8 +889,8 @@ export function createZonesView(app) {
     renderList();
     renderForm();
     changed();
-    $('#zf-id').focus();
-    $('#zf-id').select();
+    $('#zf-name').focus();
+    $('#zf-name').select();
   }
 
   function deleteSelected() {
@@ -765,7 +907,7 @@ export function createZonesView(app) {
   function setTool(next) {
     tool = next;
     canvas.dataset.tool = next;
-    for (const b of $$('[data-tool]')) b.setAttribute('aria-pressed', String(b.dataset.tool === next));
+    for (const b of $$('button[data-tool]')) b.setAttribute('aria-pressed', String(b.dataset.tool === next));
     drawing = [];
     personBox = undefined;
     refDraft = undefined;
@@ -801,13 +943,7 @@ export function createZonesView(app) {
               type: 'button',
               'aria-pressed': String(i === selected),
               dataset: { zone: z.id },
-              onclick: () => {
-                if (i !== selected) refSelected = -1;
-                selected = i;
-                renderList();
-                renderForm();
-                draw();
-              },
+              onclick: () => choose(i),
             },
             swatch,
             h('span', {}, z.name || z.id),
@@ -843,6 +979,7 @@ export function createZonesView(app) {
     $('#zf-lowstock').placeholder = String(Math.round(display.defaultLowStock * 100));
     for (const label of $$('[data-for]', form)) label.hidden = label.dataset.for !== z.kind;
     $('#zf-personarea-label').textContent = z.kind === 'shelf' ? 'One item covers' : 'One person covers';
+    renderCorners();
     renderRefs();
   }
 
@@ -860,10 +997,21 @@ export function createZonesView(app) {
     if (v === '') delete z[key];
     else z[key] = parse(v);
   };
+  /** New zones whose id was typed by hand; the others take their id from their name. */
+  const idTyped = new WeakSet();
   bindField('#zf-id', (z, v) => {
     z.id = v;
+    idTyped.add(z);
   });
-  bindField('#zf-name', setOptional('name', String));
+  bindField('#zf-name', (z, v) => {
+    setOptional('name', String)(z, v);
+    if (isSaved(z) || idTyped.has(z)) return;
+    const id = slug(v);
+    if (id && !draft.some((o) => o !== z && o.id === id)) {
+      z.id = id;
+      $('#zf-id').value = id;
+    }
+  });
   bindField('#zf-kind', (z, v) => {
     z.kind = v;
     if (v === 'shelf') {
@@ -885,6 +1033,7 @@ export function createZonesView(app) {
     okEl.textContent = '';
     errorEl.textContent = '';
     renderDirty();
+    syncCorners();
   }
 
   function dirty() {
@@ -917,8 +1066,25 @@ export function createZonesView(app) {
       draw();
       loadHistory();
     } catch (e) {
-      errorEl.textContent = explain(e);
+      showError(e);
     }
+  }
+
+  /** A refused save in the words of the form (zone name and field label), the server's text one click away. */
+  function showError(e) {
+    const m = e instanceof ApiError && e.status === 400 ? /zones\[(\d+)\]\.(\w+)(\S*)\s+(.*)$/.exec(e.message) : null;
+    if (!m) {
+      errorEl.textContent = explain(e);
+      return;
+    }
+    const z = draft[Number(m[1])];
+    const label = FIELD_WORDS[m[2]] ?? m[2];
+    const what = problemWords(m[2], m[4]);
+    replace(
+      errorEl,
+      h('span', {}, `Not saved. Zone “${z?.name || z?.id || Number(m[1]) + 1}”, ${label}: ${what}`),
+      h('details', { class: 'more' }, h('summary', {}, 'Technical details'), h('code', {}, e.message)),
+    );
   }
 
   // ---- foreground preview -----------------------------------------------------------------
@@ -951,178 +1117,6 @@ export function createZonesView(app) {
     maskTimer = setInterval(tick, 1000);
   }
 
-  // ---- learning and model figures ---------------------------------------------------------
-
-  async function loadModel() {
-    if (!camera) return;
-    let info;
-    try {
-      info = await api(`/api/cameras/${encodeURIComponent(camera.id)}/learn`);
-    } catch (e) {
-      $('#learn-error').textContent = explain(e);
-      return;
-    }
-    const m = info.model;
-    const figures = $('#model-figures');
-    if (!m) {
-      replace(figures, h('dt', {}, 'Model'), h('dd', {}, 'none yet'));
-      replace($('#model-findings'));
-    } else {
-      replace(
-        figures,
-        h('dt', {}, 'Verdict'),
-        h('dd', {}, h('span', { class: 'verdict', dataset: { level: m.verdict.level } }, m.verdict.level)),
-        h('dt', {}, 'Learned from'),
-        h('dd', {}, `${m.frames} frames at ${m.width}×${m.height}`),
-        h('dt', {}, 'Eigen-images kept'),
-        h('dd', {}, String(m.components)),
-        h('dt', {}, 'Variation explained'),
-        h('dd', {}, percent(m.retainedVariance, 1)),
-        h('dt', {}, 'Residual noise'),
-        h('dd', {}, `${m.verdict.medianNoise.toFixed(1)} grey levels (median; 95th percentile ${m.verdict.noiseP95.toFixed(1)})`),
-      );
-      replace($('#model-findings'), m.verdict.findings.map((f) => h('li', {}, f)));
-    }
-    inUse = m?.id;
-    showLearn(info.status);
-  }
-
-  function showLearn(status) {
-    const bar = $('#learn-progress');
-    const learning = status?.state === 'learning';
-    bar.hidden = !learning;
-    bar.firstElementChild.style.width = `${Math.round((status?.progress ?? 0) * 100)}%`;
-    $('#learn-start').disabled = learning;
-    $('#learn-start').textContent = !learning ? 'Learn again' : status.progress >= 0.98 ? 'Fitting the model…' : `Learning… ${Math.round(status.progress * 100)} %`;
-    if (status?.state === 'failed') $('#learn-error').textContent = `Learning failed: ${status.error}`;
-    showLearnNote(status);
-    if (learning && !learnTimer) learnTimer = setInterval(pollLearn, 1000);
-    if (!learning && learnTimer) {
-      clearInterval(learnTimer);
-      learnTimer = undefined;
-    }
-  }
-
-  async function pollLearn() {
-    if (!camera) return;
-    try {
-      const info = await api(`/api/cameras/${encodeURIComponent(camera.id)}/learn`);
-      const was = learnTimer !== undefined;
-      showLearn(info.status);
-      if (was && info.status?.state !== 'learning') {
-        await loadModel();
-        await loadBackground();
-        draw();
-        await loadKept();
-      }
-    } catch {
-      // the next poll tries again
-    }
-  }
-
-  $('#learn-form').addEventListener('submit', async (event) => {
-    event.preventDefault();
-    $('#learn-error').textContent = '';
-    if (!camera) return;
-    const seconds = Number($('#learn-seconds').value);
-    try {
-      const { status } = await api(`/api/cameras/${encodeURIComponent(camera.id)}/learn`, { method: 'POST', body: { seconds } });
-      showLearn(status);
-    } catch (e) {
-      $('#learn-error').textContent = explain(e);
-    }
-  });
-
-  /** What came of the last learning, in plain words: in use, in use although poor, or not used and why. */
-  function showLearnNote(status) {
-    const note = $('#learn-note');
-    const when = status?.finishedAt ? dateTime(status.finishedAt, app.site.timeZone) : '';
-    let text = '';
-    let tone = 'done';
-    if (status?.state === 'rejected' && status.modelId !== undefined && status.modelId === inUse) {
-      text = `The empty scene learned ${when} was not used at first, as it turned out poor (${status.reason ?? 'no reason given'}). It has since been chosen from the kept ones and is in use.`;
-      tone = 'poor';
-    } else if (status?.state === 'rejected') {
-      text = `The empty scene learned ${when} was not used: ${status.reason ?? 'it turned out poor'}. The camera kept counting with the empty scene it had.`;
-      tone = 'rejected';
-    } else if (status?.state === 'done' && status.verdict?.level === 'poor') {
-      text = `The empty scene learned ${when} is in use, but it is poor: ${status.reason}. It was used because the camera had none; learn again when the view is empty.`;
-      tone = 'poor';
-    } else if (status?.state === 'done' && status.verdict) {
-      text = `The empty scene learned ${when} is in use (${verdictWords[status.verdict.level].toLowerCase()}).`;
-    }
-    note.textContent = text;
-    note.dataset.tone = tone;
-    note.hidden = text === '';
-  }
-
-  // ---- kept empty scenes (going back to one) ----------------------------------------------
-
-  async function loadKept() {
-    if (!camera) return;
-    const list = $('#kept-list');
-    const hint = $('#kept-hint');
-    $('#kept-error').textContent = '';
-    if (!app.isAdmin()) {
-      replace(list);
-      hint.textContent = 'The last few empty scenes learned are kept. Enter the admin key to see them and go back to one.';
-      return;
-    }
-    let models;
-    try {
-      models = (await api(`/api/cameras/${encodeURIComponent(camera.id)}/models`)).models;
-    } catch (e) {
-      $('#kept-error').textContent = explain(e);
-      return;
-    }
-    hint.textContent = models.length === 0
-      ? 'None yet.'
-      : 'Newest first. If counting got worse after learning again, go back to one that worked.';
-    const tz = app.site.timeZone;
-    replace(
-      list,
-      models.map((m) => {
-        const when = dateTime(m.learnedAt, tz);
-        const words = verdictWords[m.verdict.level] ?? m.verdict.level;
-        return h(
-          'li',
-          { class: 'kept', dataset: { model: m.id, active: m.active, level: m.verdict.level } },
-          h(
-            'div',
-            { class: 'kept-head' },
-            h('span', { class: 'kept-when' }, when),
-            m.active ? h('span', { class: 'kept-badge' }, 'In use') : null,
-            m.rejected ? h('span', { class: 'kept-badge rejected' }, 'Not used when learned') : null,
-          ),
-          h('p', { class: 'kept-verdict' }, h('span', { class: 'verdict', dataset: { level: m.verdict.level } }, words), ` — ${m.verdict.findings[0] ?? ''}`),
-          m.active
-            ? null
-            : h('button', { type: 'button', class: 'quiet kept-use', 'aria-label': `Use the empty scene learned ${when}`, onclick: () => useKept(m, when) }, 'Use this one'),
-        );
-      }),
-    );
-  }
-
-  async function useKept(m, when) {
-    if (!camera) return;
-    $('#kept-error').textContent = '';
-    $('#kept-ok').textContent = '';
-    if (m.verdict.level === 'poor' && !window.confirm(`This empty scene was judged poor: ${m.verdict.findings[0] ?? ''}. Counting may be wrong with it. Use it anyway?`)) return;
-    try {
-      await api(`/api/cameras/${encodeURIComponent(camera.id)}/models/${encodeURIComponent(m.id)}/activate`, { method: 'POST' });
-    } catch (e) {
-      $('#kept-error').textContent = explain(e);
-      return;
-    }
-    $('#kept-ok').textContent = `Counting now uses the empty scene learned ${when}.`;
-    await loadKept();
-    await loadModel();
-    await loadBackground();
-    draw();
-    $('#kept-list .kept[data-active="true"]')?.setAttribute('tabindex', '-1');
-    $('#kept-list .kept[data-active="true"]')?.focus();
-  }
-
   // ---- change history ---------------------------------------------------------------------
 
   async function loadHistory() {
@@ -1145,7 +1139,7 @@ export function createZonesView(app) {
               {},
               h('td', {}, dateTime(r.time, tz)),
               h('td', {}, r.zone),
-              h('td', {}, r.field === '*' ? (r.old === null ? 'added' : 'removed') : r.field),
+              h('td', {}, r.field === '*' ? (r.old === null ? 'added' : 'removed') : `changed: ${FIELD_WORDS[r.field] ?? r.field}`),
               h('td', {}, r.field === '*' ? '' : brief(r.old)),
               h('td', {}, r.field === '*' ? '' : brief(r.new)),
             ),
@@ -1156,7 +1150,7 @@ export function createZonesView(app) {
   // ---- wiring -----------------------------------------------------------------------------
 
   cameraSelect.addEventListener('change', () => selectCamera(cameraSelect.value));
-  for (const b of $$('[data-tool]')) b.addEventListener('click', () => setTool(b.dataset.tool));
+  for (const b of $$('button[data-tool]')) b.addEventListener('click', () => setTool(b.dataset.tool));
   $('#zone-delete').addEventListener('click', deleteSelected);
   $('#refs-learned').addEventListener('click', useLearned);
   $('#refs-clear').addEventListener('click', () => {
@@ -1187,12 +1181,17 @@ export function createZonesView(app) {
   app.onRole(async () => {
     if (!visible || !camera) return;
     errorEl.textContent = '';
-    loadKept();
+    scene.loadKept();
     await loadBackground();
     sizeCanvas();
     draw();
     restartMask();
   });
+  canvas.addEventListener('focus', () => {
+    draw();
+    if (tool === 'draw') announce(`Drawing: the cross is at ${where(keyCursor)}. Arrow keys move it, Space places a corner, Enter closes the zone.`);
+  });
+  canvas.addEventListener('blur', draw);
   setTool('select');
 
   return {
@@ -1203,95 +1202,14 @@ export function createZonesView(app) {
         sizeCanvas();
         draw();
         restartMask();
-        loadModel();
-        loadKept();
+        scene.loadModel();
+        scene.loadKept();
       }
     },
     hide() {
       visible = false;
       restartMask();
-      clearInterval(learnTimer);
-      learnTimer = undefined;
+      scene.stop();
     },
   };
-}
-
-function clone(z) {
-  return JSON.parse(JSON.stringify(z));
-}
-
-function clamp01(v) {
-  return Math.min(1, Math.max(0, v));
-}
-
-function round(p) {
-  return [Math.round(p[0] * 10000) / 10000, Math.round(p[1] * 10000) / 10000];
-}
-
-function round4(v) {
-  return Math.round(v * 10000) / 10000;
-}
-
-/** The box spanned by two corner points. */
-function normRect([a, b]) {
-  return { x0: Math.min(a[0], b[0]), y0: Math.min(a[1], b[1]), x1: Math.max(a[0], b[0]), y1: Math.max(a[1], b[1]) };
-}
-
-/** The middle of the widest stretch of the polygon's inside along row y (even–odd rule), or of its bounding box. */
-function middleAtRow(poly, y) {
-  const crossings = [];
-  for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
-    const [xi, yi] = poly[i];
-    const [xj, yj] = poly[j];
-    if (yi > y !== yj > y) crossings.push(xi + ((y - yi) * (xj - xi)) / (yj - yi));
-  }
-  crossings.sort((a, b) => a - b);
-  let best;
-  let widest = -1;
-  for (let k = 0; k + 1 < crossings.length; k += 2) {
-    if (crossings[k + 1] - crossings[k] > widest) {
-      widest = crossings[k + 1] - crossings[k];
-      best = (crossings[k] + crossings[k + 1]) / 2;
-    }
-  }
-  if (best !== undefined) return best;
-  const xs = poly.map((p) => p[0]);
-  return (Math.min(...xs) + Math.max(...xs)) / 2;
-}
-
-function topLeft(poly) {
-  return [Math.min(...poly.map((p) => p[0])), Math.min(...poly.map((p) => p[1]))];
-}
-
-/** Even–odd rule point-in-polygon test (ray casting). */
-function inside(p, poly) {
-  let c = false;
-  for (let i = 0, j = poly.length - 1; i < poly.length; j = i++) {
-    const [xi, yi] = poly[i];
-    const [xj, yj] = poly[j];
-    if (yi > p[1] !== yj > p[1] && p[0] < ((xj - xi) * (p[1] - yi)) / (yj - yi) + xi) c = !c;
-  }
-  return c;
-}
-
-function nearestOnSegment(p, a, b) {
-  const dx = b[0] - a[0];
-  const dy = b[1] - a[1];
-  const len = dx * dx + dy * dy;
-  const t = len === 0 ? 0 : Math.max(0, Math.min(1, ((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) / len));
-  const q = [a[0] + t * dx, a[1] + t * dy];
-  return [q, 0];
-}
-
-function hexAlpha(hex, alpha) {
-  const n = parseInt(hex.slice(1), 16);
-  return `rgba(${(n >> 16) & 255}, ${(n >> 8) & 255}, ${n & 255}, ${alpha})`;
-}
-
-function brief(v) {
-  if (v === null || v === undefined) return '—';
-  if (Array.isArray(v) && Array.isArray(v[0])) return `${v.length} corners`;
-  if (Array.isArray(v) && v[0] && typeof v[0] === 'object' && 'area' in v[0]) return `${v.length} reference ${v.length === 1 ? 'person' : 'people'}`;
-  const s = JSON.stringify(v);
-  return s.length > 60 ? `${s.slice(0, 57)}…` : s;
 }

@@ -1,5 +1,6 @@
 import { Router } from 'express';
 import { hourlyRows } from '../../outputs/hourlyCsv.ts';
+import { localHours } from '../../outputs/localHours.ts';
 import { parseTimeBound } from '../../outputs/parseTimeBound.ts';
 import type { ServerContext } from '../context.ts';
 import { HttpError } from '../HttpError.ts';
@@ -12,7 +13,9 @@ export const MAX_RANGE_HOURS = 24 * 400;
  * `GET /api/history?from=&to=[&camera=][&zone=]` (view access): the hourly rows of the range in
  * the site's time zone, exactly the rows of the hourly CSV (src/outputs/hourlyCsv.ts) as JSON.
  * `from`/`to` are local dates (both inclusive) or ISO 8601 times; `start`/`end` in the answer are
- * the range as UTC epoch ms (end exclusive). Hours before a zone existed, without data, have no row.
+ * the range as UTC epoch ms (end exclusive), `end` cut at the end of the current hour: hours that
+ * have not begun have no row and no place on the chart. Hours before a zone existed, without data,
+ * have no row.
  */
 export function historyRoutes(ctx: ServerContext): Router {
   const router = Router();
@@ -27,7 +30,10 @@ export function historyRoutes(ctx: ServerContext): Router {
     try {
       start = parseTimeBound(from, { name: 'from', timeZone: ctx.timeZone });
       end = parseTimeBound(to, { name: 'to', timeZone: ctx.timeZone });
-      rows = hourlyRows(ctx.store, { from, to, timeZone: ctx.timeZone, maxHours: MAX_RANGE_HOURS, ...(camera && { camera }), ...(zone && { zone }) });
+      const now = Date.now();
+      rows = hourlyRows(ctx.store, { from, to, now, timeZone: ctx.timeZone, maxHours: MAX_RANGE_HOURS, ...(camera && { camera }), ...(zone && { zone }) });
+      const begun = localHours({ from: start, to: end }, { timeZone: ctx.timeZone, maxHours: MAX_RANGE_HOURS }).filter((h) => h.start <= now);
+      end = begun.length > 0 ? begun[begun.length - 1].end : start;
     } catch (error) {
       throw new HttpError(400, (error as Error).message);
     }
