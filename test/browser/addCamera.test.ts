@@ -54,7 +54,7 @@ describe('adding a camera from the dashboard', () => {
     await page.fill('#ac-url', `${cameraUrl}/wrong.jpg`);
     await page.click('#ac-add');
     await page.waitForSelector('#add-camera-error:not(:empty)');
-    expect(await page.textContent('#add-camera-error')).toMatch(/^Camera address gives no usable picture: .*HTTP 404 Not Found$/);
+    expect(await page.textContent('#add-camera-error')).toMatch(/^Camera address gives no usable picture: .*HTTP 404 Not Found\.?$/);
     expect(svc.service.cameras.has('side')).toBe(false);
     await page.locator('#add-camera').scrollIntoViewIfNeeded();
     await page.screenshot({ path: join(shots, 'add-camera-error-1280.png'), fullPage: true });

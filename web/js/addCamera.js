@@ -17,8 +17,9 @@ const LABELS = [
 
 /** The service's message in the form's words: `request body: source.url gives …` → `Camera address gives …`. */
 function plain(message) {
-  const text = message.replace(/^request body: /, '');
-  for (const [field, label] of LABELS) if (text.startsWith(`${field} `)) return `${label} ${text.slice(field.length + 1)}`;
+  // explain() has already dropped "request body: " and capitalised the first letter.
+  const text = message.replace(/^request body: /i, '');
+  for (const [field, label] of LABELS) if (text.toLowerCase().startsWith(`${field.toLowerCase()} `)) return `${label} ${text.slice(field.length + 1)}`;
   return text;
 }
 
