@@ -1,4 +1,6 @@
+import { createHash } from 'node:crypto';
 import { EventEmitter } from 'node:events';
+import { readFile } from 'node:fs/promises';
 import type { Server } from 'node:http';
 import { join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
@@ -21,6 +23,8 @@ import { createApp } from '../server/createApp.ts';
 import { ModelChoiceError, type KeptModel, type ServiceControl, type SmallImage } from '../server/serviceControl.ts';
 import { prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts';
 import { validateZones } from '../counting/parseZones.ts';
+import type { Zone } from '../counting/zone.ts';
+import { describeZoneChange, reconcileZones } from '../config/reconcileZones.ts';
 import { openStore, type ModelInfo, type Store } from '../store/index.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
@@ -137,12 +141,11 @@ export async function startService(config: ResiduumConfig, options: StartService
   };
   const stopCameras = () => Promise.all([...hosts.values()].map((h) => h.stop()));
   try {
-    for (const camera of config.cameras) {
+    // The zones counted are the database's (see applyConfigZones), not necessarily the file's.
+    const cameras = config.cameras.map((camera) => {
       store.upsertCamera({ id: camera.id, name: camera.name });
-      const known = new Set(camera.zones.map((z) => z.id));
-      for (const zone of camera.zones) store.upsertZone(camera.id, zone);
-      for (const old of store.listZones({ camera: camera.id })) if (!known.has(old.zone.id)) store.removeZone(camera.id, old.zone.id);
-    }
+      return { ...camera, zones: applyConfigZones(store, camera, config.file, log) };
+    });
     const models = new Map<string, CameraModel | undefined>();
     for (const camera of config.cameras) {
       models.set(camera.id, await cameraModel(camera, store, keepModels, log));
@@ -150,7 +153,7 @@ export async function startService(config: ResiduumConfig, options: StartService
       const pruned = store.pruneModels(camera.id, keepModels);
       if (pruned.length > 0) log(`camera ${camera.id}: deleted ${pruned.length} older model${pruned.length === 1 ? '' : 's'} (models.keep is ${keepModels})`);
     }
-    for (const camera of config.cameras) {
+    for (const camera of cameras) {
       const chosen = models.get(camera.id);
       const fault = workerFaults[camera.id];
       const host = createCameraHost({
@@ -256,6 +259,53 @@ export async function startService(config: ResiduumConfig, options: StartService
   };
 }
 
+/** Settings key of the configured model file (name and SHA-256 of its content) at the last start. */
+export function configModelSetting(camera: string): string {
+  return `config.model.${camera}`;
+}
+
+/** Settings key of what the configuration file said about a camera's zones at the last start. */
+export function configZonesSetting(camera: string): string {
+  return `config.zones.${camera}`;
+}
+
+/**
+ * Puts the camera's zones in the database by the rule of {@link reconcileZones}: the file seeds
+ * them the first time; afterwards the database's zones (the dashboard's edits) are kept and only
+ * what changed in the file since the last start is applied, with a `settings-changed` event and a
+ * log line naming each change. One transaction: the zones, the record of the file and the event.
+ */
+function applyConfigZones(store: Store, camera: CameraConfig, file: string, log: (line: string) => void): Zone[] {
+  const key = configZonesSetting(camera.id);
+  const tx = store.db.transaction(() => {
+    const recorded = store.getSetting(key);
+    const lastConfig = Array.isArray(recorded) ? (recorded as Zone[]) : undefined;
+    const stored = store.listZones({ camera: camera.id }).map((r) => r.zone);
+    const { zones, changes, basis } = reconcileZones({ config: camera.zones, lastConfig, stored });
+    let valid: Zone[];
+    try {
+      valid = validateZones(zones, `camera ${camera.id}`, 'zones');
+    } catch (error) {
+      // A file change that does not fit the dashboard's zones (e.g. a person size next to reference
+      // people): the file's zones are taken as they are, and the event says so.
+      log(`camera ${camera.id}: the configuration's changes do not fit the zones saved in the dashboard (${(error as Error).message}); using the configuration's zones`);
+      valid = camera.zones.map((z) => ({ ...z }));
+    }
+    const keep = new Set(valid.map((z) => z.id));
+    for (const zone of valid) store.upsertZone(camera.id, zone);
+    for (const old of store.listZones({ camera: camera.id })) if (!keep.has(old.zone.id)) store.removeZone(camera.id, old.zone.id);
+    store.setSetting(key, camera.zones);
+    if (basis === 'seeded') log(`camera ${camera.id}: zones taken from ${file} (first start)`);
+    if (changes.length > 0) {
+      const text = `The configuration file ${file} changed since the last start: ${changes.map(describeZoneChange).join('; ')}.`;
+      store.insertEvent({ camera: camera.id, type: 'settings-changed', detail: { what: 'zones', by: 'configuration', file, changes, text } });
+      log(`camera ${camera.id}: ${text}`);
+    }
+    return valid;
+  });
+  return tx.immediate();
+}
+
 /** A camera's model at start and its stored id (undefined when it could not be stored). */
 interface CameraModel {
   readonly model: Subspace;
@@ -281,14 +331,27 @@ async function cameraModel(camera: CameraConfig, store: Store, keep: number, log
     }
     return model;
   };
+  // The configured model file is put to use when it is new to this database or the file (its
+  // name or content) changed since the last start; otherwise the model in use stays, so that the
+  // admin's choice in the dashboard survives restarts (the same rule as for zones).
   if (camera.model) {
-    const model = check(withColour(await loadModel(camera.model)), camera.model);
-    const same = keptCopy(store, camera.id, camera.model, model);
-    if (same !== undefined) {
-      if (store.activeModelId(camera.id) !== same) store.activateModel(camera.id, same);
-      return { model, id: same };
+    const key = configModelSetting(camera.id);
+    const digest = createHash('sha256').update(await readFile(camera.model).catch(() => Buffer.alloc(0))).digest('hex');
+    const recorded = store.getSetting(key) as { file?: unknown; sha256?: unknown } | undefined;
+    const unchanged = recorded?.file === camera.model && recorded?.sha256 === digest && store.activeModelId(camera.id) !== undefined;
+    if (!unchanged) {
+      const model = check(withColour(await loadModel(camera.model)), camera.model);
+      const same = keptCopy(store, camera.id, camera.model, model);
+      let id = same;
+      if (same !== undefined) {
+        if (store.activeModelId(camera.id) !== same) store.activateModel(camera.id, same);
+      } else {
+        id = storeModel(store, camera.id, model, camera.model, { keep });
+      }
+      store.setSetting(key, { file: camera.model, sha256: digest });
+      if (recorded !== undefined) log(`camera ${camera.id}: the model file ${camera.model} changed since the last start; put to use`);
+      return { model, ...(id !== undefined && { id }) };
     }
-    return { model, id: storeModel(store, camera.id, model, camera.model, { keep }) };
   }
   const stored = store.activeModel(camera.id);
   if (stored) return { model: check(withColour(decodeModel(Buffer.from(stored.data), `stored model ${stored.id}`)), 'the database'), id: stored.id };
