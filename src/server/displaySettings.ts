@@ -21,14 +21,37 @@ export const DEFAULT_DISPLAY: DisplaySettings = { nearCapacity: 0.8, defaultLowS
 
 const ZONE_KEY = /^[A-Za-z0-9_-]{1,64}\/[A-Za-z0-9_-]{1,64}$/;
 
-/** The stored settings merged over the defaults (a damaged value falls back to the default). */
+/**
+ * The stored settings merged over the defaults, field by field: a damaged field (or one zone's
+ * damaged mark) falls back to its default on its own, so that the next change, which is merged
+ * into what is read here, does not lose the others.
+ */
 export function readDisplaySettings(store: SettingStore): DisplaySettings {
   const raw = store.getSetting(DISPLAY_SETTING);
-  try {
-    return raw === undefined ? DEFAULT_DISPLAY : mergeDisplaySettings(DEFAULT_DISPLAY, raw, 'stored');
-  } catch {
-    return DEFAULT_DISPLAY;
+  if (typeof raw !== 'object' || raw === null || Array.isArray(raw)) return DEFAULT_DISPLAY;
+  const r = raw as Record<string, unknown>;
+  let settings = DEFAULT_DISPLAY;
+  const take = (change: Record<string, unknown>) => {
+    try {
+      settings = mergeDisplaySettings(settings, change, 'stored');
+    } catch {
+      // this field (or mark) keeps its default
+    }
+  };
+  if (r.nearCapacity !== undefined) take({ nearCapacity: r.nearCapacity });
+  if (r.defaultLowStock !== undefined) take({ defaultLowStock: r.defaultLowStock });
+  const lowStock: Record<string, number> = {};
+  if (typeof r.lowStock === 'object' && r.lowStock !== null && !Array.isArray(r.lowStock)) {
+    for (const [key, value] of Object.entries(r.lowStock)) {
+      if (value === null) continue;
+      try {
+        Object.assign(lowStock, mergeDisplaySettings(DEFAULT_DISPLAY, { lowStock: { [key]: value } }, 'stored').lowStock);
+      } catch {
+        // this zone's mark is dropped; the others stay
+      }
+    }
   }
+  return { ...settings, lowStock };
 }
 
 /**
