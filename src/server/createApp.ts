@@ -153,7 +153,9 @@ export function createApp(deps: AppDeps): express.Express {
     const e = error as { status?: number; statusCode?: number; type?: string; message?: string };
     let status = error instanceof HttpError ? error.status : (e.status ?? e.statusCode ?? 500);
     if (!(status >= 400 && status <= 599)) status = 500;
-    let message = status >= 500 ? 'internal error' : String(e.message ?? 'error');
+    // An HttpError's message is written for the client, whatever its status (503 "all slots in
+    // use…"); any other 5xx is a fault of ours, told in the log, not to the client.
+    let message = status >= 500 && !(error instanceof HttpError) ? 'internal error' : String(e.message ?? 'error');
     if (e.type === 'entity.too.large') message = 'request body is larger than 256 kB';
     else if (e.type === 'entity.parse.failed') message = 'request body is not valid JSON';
     if (error instanceof HttpError) res.set(error.headers);
