@@ -9,6 +9,7 @@ import { createAuth } from './auth.ts';
 import type { ServerContext } from './context.ts';
 import { readDisplaySettings } from './displaySettings.ts';
 import type { FailureLimiter } from './failureLimiter.ts';
+import { heavyReadGate, type HeavyReadOptions } from './heavyReads.ts';
 import { HttpError } from './HttpError.ts';
 import type { LiveStreamOptions } from './liveStream.ts';
 import { liveView } from './liveView.ts';
@@ -51,8 +52,10 @@ export interface AppDeps {
   readonly host?: string;
   /** Limiter of failed key attempts; default 10 per minute per address. */
   readonly limiter?: FailureLimiter;
-  /** Live stream timing; default a check every 500 ms. */
+  /** Live stream timing and slots; default a check every 500 ms, 32 slots. */
   readonly stream?: LiveStreamOptions;
+  /** Limits on long history and export reads without a key (see heavyReadGate); default its defaults. */
+  readonly heavyReads?: HeavyReadOptions;
   /** Service log lines (never a token). Default: none. */
   readonly log?: (line: string) => void;
   /** Metrics registry served at GET /metrics (Prometheus text format); default: no such route. */
@@ -84,6 +87,7 @@ export function createApp(deps: AppDeps): express.Express {
     startedAt: deps.startedAt,
     sampleRetentionDays: deps.sampleRetentionDays,
     auth,
+    heavyReads: heavyReadGate(deps.heavyReads),
     log,
     display: () => readDisplaySettings(store),
     liveView() {

@@ -1,37 +1,42 @@
 import { Router } from 'express';
-import { hourlyRows } from '../../outputs/hourlyCsv.ts';
-import { parseTimeBound } from '../../outputs/parseTimeBound.ts';
 import type { ServerContext } from '../context.ts';
-import { HttpError } from '../HttpError.ts';
+import { checkHourlyRange, writeChunk } from '../hourlyChunks.ts';
 import { queryBound, queryId } from '../requestFields.ts';
 
-/** Longest range of one request, hours (400 days). */
-export const MAX_RANGE_HOURS = 24 * 400;
+export { MAX_RANGE_DAYS } from '../hourlyChunks.ts';
 
 /**
  * `GET /api/history?from=&to=[&camera=][&zone=]` (view access): the hourly rows of the range in
  * the site's time zone, exactly the rows of the hourly CSV (src/outputs/hourlyCsv.ts) as JSON.
  * `from`/`to` are local dates (both inclusive) or ISO 8601 times; `start`/`end` in the answer are
  * the range as UTC epoch ms (end exclusive). Hours before a zone existed, without data, have no row.
+ * At most 400 days per request; the rows are read a week at a time and the JSON written as they
+ * come (see checkHourlyRange), long reads without a key are limited (see heavyReadGate).
  */
 export function historyRoutes(ctx: ServerContext): Router {
   const router = Router();
-  router.get('/history', ctx.auth.view, (req, res) => {
+  router.get('/history', ctx.auth.view, async (req, res) => {
     const from = queryBound(req, 'from');
     const to = queryBound(req, 'to');
     const camera = queryId(req, 'camera');
     const zone = queryId(req, 'zone');
-    let rows;
-    let start: number;
-    let end: number;
+    const range = checkHourlyRange(ctx.store, { from, to, timeZone: ctx.timeZone, ...(camera && { camera }), ...(zone && { zone }) });
+    const release = ctx.heavyReads.enter(req, range.hours, ctx.auth.role(req) !== 'none');
     try {
-      start = parseTimeBound(from, { name: 'from', timeZone: ctx.timeZone });
-      end = parseTimeBound(to, { name: 'to', timeZone: ctx.timeZone });
-      rows = hourlyRows(ctx.store, { from, to, timeZone: ctx.timeZone, maxHours: MAX_RANGE_HOURS, ...(camera && { camera }), ...(zone && { zone }) });
-    } catch (error) {
-      throw new HttpError(400, (error as Error).message);
+      res.set('Cache-Control', 'no-store').type('application/json');
+      res.write(`${JSON.stringify({ timeZone: ctx.timeZone, from, to, start: range.start, end: range.end }).slice(0, -1)},"rows":[`);
+      let first = true;
+      for await (const rows of range.chunks()) {
+        if (res.destroyed) return;
+        if (rows.length === 0) continue;
+        const text = rows.map((r) => JSON.stringify(r)).join(',');
+        await writeChunk(res, first ? text : `,${text}`);
+        first = false;
+      }
+      res.end(']}');
+    } finally {
+      release();
     }
-    res.set('Cache-Control', 'no-store').json({ timeZone: ctx.timeZone, from, to, start, end, rows });
   });
   return router;
 }
