@@ -7,7 +7,7 @@ import { HttpError } from './HttpError.ts';
  * says, not what is counted.
  */
 export interface DisplaySettings {
-  /** A room is "near" capacity at shown ≥ nearCapacity × capacity; share in (0, 1], default 0.8. */
+  /** A room is "near" capacity at shown ≥ nearCapacity × capacity; share 0.1..1 inclusive, default 0.8. */
   readonly nearCapacity: number;
   /** A shelf is "low" below this fill, 0..1; default 0.15. */
   readonly defaultLowStock: number;
@@ -16,6 +16,9 @@ export interface DisplaySettings {
 }
 
 export const DISPLAY_SETTING = 'dashboard.display';
+
+/** Smallest near-capacity share (inclusive): below a tenth of capacity, "filling up" says nothing. */
+export const MIN_NEAR_CAPACITY = 0.1;
 
 export const DEFAULT_DISPLAY: DisplaySettings = { nearCapacity: 0.8, defaultLowStock: 0.15, lowStock: {} };
 
@@ -65,10 +68,8 @@ export function mergeDisplaySettings(current: DisplaySettings, change: unknown, 
   if (typeof change !== 'object' || change === null || Array.isArray(change)) fail('', 'must be a JSON object');
   const c = change as Record<string, unknown>;
   for (const k of Object.keys(c)) if (!['nearCapacity', 'defaultLowStock', 'lowStock'].includes(k)) fail(k, 'is not a display setting (known: nearCapacity, defaultLowStock, lowStock)');
-  const share = (v: unknown, field: string, min: number, minInclusive: boolean): number => {
-    if (typeof v !== 'number' || !Number.isFinite(v) || v > 1 || (minInclusive ? v < min : v <= min)) {
-      fail(field, `must be a number in ${minInclusive ? '[' : '('}${min}, 1], got ${JSON.stringify(v)}`);
-    }
+  const share = (v: unknown, field: string, min: number): number => {
+    if (typeof v !== 'number' || !Number.isFinite(v) || v > 1 || v < min) fail(field, `must be a number from ${min} to 1, got ${typeof v === 'number' ? String(v) : JSON.stringify(v)}`);
     return v as number;
   };
   const lowStock: Record<string, number> = { ...current.lowStock };
@@ -79,12 +80,12 @@ export function mergeDisplaySettings(current: DisplaySettings, change: unknown, 
     for (const [key, v] of entries) {
       if (!ZONE_KEY.test(key)) fail(`lowStock["${key.slice(0, 80)}"]`, 'must be keyed "camera/zone" (ids of letters, digits, - and _)');
       if (v === null) delete lowStock[key];
-      else lowStock[key] = share(v, `lowStock["${key}"]`, 0, true);
+      else lowStock[key] = share(v, `lowStock["${key}"]`, 0);
     }
   }
   return {
-    nearCapacity: c.nearCapacity === undefined ? current.nearCapacity : share(c.nearCapacity, 'nearCapacity', 0, false),
-    defaultLowStock: c.defaultLowStock === undefined ? current.defaultLowStock : share(c.defaultLowStock, 'defaultLowStock', 0, true),
+    nearCapacity: c.nearCapacity === undefined ? current.nearCapacity : share(c.nearCapacity, 'nearCapacity', MIN_NEAR_CAPACITY),
+    defaultLowStock: c.defaultLowStock === undefined ? current.defaultLowStock : share(c.defaultLowStock, 'defaultLowStock', 0),
     lowStock,
   };
 }

@@ -379,7 +379,7 @@ describe('empty scene, mask and settings', () => {
   it('PUT /api/settings changes the near mark and shelf marks, naming bad fields', async () => {
     const bad = await fetch(`${t.base}/api/settings`, json({ nearCapacity: 1.5 }));
     expect(bad.status).toBe(400);
-    expect((await jsonOf(bad)).error).toMatch(/nearCapacity must be a number in \(0, 1\]/);
+    expect((await jsonOf(bad)).error).toMatch(/nearCapacity must be a number from 0\.1 to 1, got 1\.5/);
     const badZone = await fetch(`${t.base}/api/settings`, json({ lowStock: { 'reading-room/tables': 'lots' } }));
     expect((await jsonOf(badZone)).error).toMatch(/lowStock\["reading-room\/tables"\]/);
     const ok = await fetch(`${t.base}/api/settings`, json({ nearCapacity: 0.5, lowStock: { 'stock-room/shelf-top': 0.3 } }));

@@ -43,4 +43,10 @@ describe('display settings', () => {
     put({ lowStock: { 'stock-room/shelf-middle': 0.1 } });
     expect(readDisplaySettings(t.store)).toEqual({ nearCapacity: 0.8, defaultLowStock: 0.2, lowStock: { 'stock-room/shelf-top': 0.3, 'stock-room/shelf-middle': 0.1 } });
   });
+
+  it('refuses implausible numbers, naming the field and the range', () => {
+    expect(() => put({ nearCapacity: 5e-324 })).toThrow('request body: nearCapacity must be a number from 0.1 to 1, got 5e-324');
+    expect(() => put({ defaultLowStock: 1e308 })).toThrow('request body: defaultLowStock must be a number from 0 to 1, got 1e+308');
+    expect(() => put({ lowStock: { 'stock-room/shelf-top': -1 } })).toThrow('request body: lowStock["stock-room/shelf-top"] must be a number from 0 to 1, got -1');
+  });
 });
