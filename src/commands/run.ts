@@ -459,10 +459,10 @@ function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts:
       const id = host(camera).modelId();
       return { ...(id !== undefined && { id }), width: model.width, height: model.height, components: model.components, retainedVariance: model.retainedVariance, frames: model.frameCount, verdict: modelVerdict(model) };
     },
-    maskPreview(camera: string, cell = 4): SmallImage | undefined {
+    maskPreview(camera: string, cell = 8): SmallImage | undefined {
       const mask = host(camera).lastMask();
       if (!mask) return undefined;
-      if (!(Number.isInteger(cell) && cell >= 2 && cell <= 32)) throw new RangeError(`cell must be a whole number from 2 to 32, got ${cell}`);
+      if (!(Number.isInteger(cell) && cell >= 8 && cell <= 32)) throw new RangeError(`cell must be a whole number from 8 to 32, got ${cell}`);
       const width = Math.ceil(mask.width / cell);
       const height = Math.ceil(mask.height / cell);
       const data = new Uint8Array(width * height);
