@@ -32,7 +32,8 @@ export interface Auth {
   role(req: Request): Role;
 }
 
-const BEARER = /^Bearer ([A-Za-z0-9_-]{1,200})$/;
+// The scheme is case-insensitive (RFC 7235 §2.1): `bearer`, `BEARER` and `Bearer` are the same.
+const BEARER = /^Bearer +([A-Za-z0-9_-]{1,200})$/i;
 
 export function createAuth(store: SettingStore, options: AuthOptions = {}): Auth {
   const { viewTokenRequired = false, limiter = failureLimiter() } = options;

@@ -1,4 +1,5 @@
-import express, { Router } from 'express';
+import { Router } from 'express';
+import { jsonBody } from '../jsonBody.ts';
 import sharp from 'sharp';
 import { ZoneError } from '../../counting/parseZones.ts';
 import type { ServerContext } from '../context.ts';
@@ -12,8 +13,7 @@ export const MIN_MASK_CELL = 8;
 /** Foreground previews per camera per second. */
 export const MASKS_PER_SECOND = 2;
 
-/** Largest JSON body accepted by the change routes. */
-export const BODY_LIMIT = '256kb';
+export { BODY_LIMIT } from '../jsonBody.ts';
 
 /**
  * Cameras and their zones:
@@ -32,7 +32,7 @@ export function cameraRoutes(ctx: ServerContext): Router {
   // The foreground preview, coarse and slow enough never to be a silhouette video: cells of at
   // least 8 pixels, at most 2 previews a second per camera.
   const masks = rateLimit({ max: MASKS_PER_SECOND, windowMs: 1000 });
-  const json = express.json({ limit: BODY_LIMIT });
+  const json = jsonBody();
 
   router.get('/cameras', ctx.auth.view, (_req, res) => {
     const control = serviceOf(ctx);

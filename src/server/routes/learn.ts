@@ -1,9 +1,9 @@
-import express, { Router } from 'express';
+import { Router } from 'express';
+import { jsonBody } from '../jsonBody.ts';
 import type { ServerContext } from '../context.ts';
 import { HttpError } from '../HttpError.ts';
 import { rateLimit } from '../rateLimit.ts';
 import { cameraParam, jsonObject, serviceOf } from '../requestFields.ts';
-import { BODY_LIMIT } from './cameras.ts';
 
 /**
  * Learning the empty scene from the live source:
@@ -18,7 +18,7 @@ export function learnRoutes(ctx: ServerContext): Router {
   // Each start replaces the empty scene after its seconds and keeps a model of about 4 MB: at most
   // once a minute and 10 times an hour per camera. A request while learning runs starts nothing.
   const starts = rateLimit({ max: 10, windowMs: 3_600_000, minGapMs: 60_000 });
-  router.post('/cameras/:id/learn', ctx.auth.admin, express.json({ limit: BODY_LIMIT }), (req, res) => {
+  router.post('/cameras/:id/learn', ctx.auth.admin, jsonBody(), (req, res) => {
     const control = serviceOf(ctx);
     const id = cameraParam(req, control);
     const body = jsonObject(req);
