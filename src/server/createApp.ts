@@ -77,7 +77,7 @@ export const WEB_DIR = fileURLToPath(new URL('../../web/', import.meta.url));
  */
 export function createApp(deps: AppDeps): express.Express {
   const { store, viewTokenRequired = false, log = () => {} } = deps;
-  const auth = createAuth(store, { viewTokenRequired, ...(deps.limiter && { limiter: deps.limiter }) });
+  const auth = createAuth(store, { viewTokenRequired, log, ...(deps.limiter && { limiter: deps.limiter }) });
   const ctx: ServerContext = {
     store,
     control: deps.control,
