@@ -2,6 +2,7 @@ import { createHash } from 'node:crypto';
 import { EventEmitter } from 'node:events';
 import { readFile } from 'node:fs/promises';
 import type { Server } from 'node:http';
+import { chmodSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraHost, type CameraHost } from '../counting/cameraHost.ts';
@@ -62,8 +63,8 @@ export async function runCommand(argv: string[]): Promise<number> {
   const service = await startService(config, { dataDir: v.data ?? 'data', port, log: logLine, resetToken: v['reset-token'] === true });
   logLine(`serving the API at http://${config.server.host}:${service.port}/api/live`);
   logLine(`dashboard at http://${config.server.host}:${service.port}/`);
-  // Straight to stdout, once, never through the log function.
-  process.stdout.write(tokenNotice(service.newTokens));
+  // Once, to the terminal or a file only this user can read; never through the log function.
+  process.stdout.write(showNewTokens(service.newTokens, { dataDir: v.data ?? 'data', out: process.stdout }));
   await runUntilSignal(service);
   return 0;
 }
@@ -77,6 +78,25 @@ export async function runUntilSignal(service: RunningService): Promise<void> {
   });
   logLine('stopping');
   await service.stop();
+}
+
+/** The file new keys are written to when standard output is not a terminal. */
+export const NEW_KEYS_FILE = 'new-keys.txt';
+
+/**
+ * Shows keys made at this start once: on standard output when it is a terminal; otherwise (the
+ * output goes to a log, a pipe, a journal) written to `<data>/new-keys.txt`, readable by this user
+ * only (mode 0600), and the returned line says where — so that a key never lands in a log that is
+ * collected. Returns what to print on standard output.
+ */
+export function showNewTokens(tokens: NewTokens, options: { dataDir: string; out: { isTTY?: boolean } }): string {
+  const notice = tokenNotice(tokens);
+  if (notice === '' || options.out.isTTY === true) return notice;
+  const file = join(resolve(options.dataDir), NEW_KEYS_FILE);
+  writeFileSync(file, `${new Date().toISOString()}\n${notice}`, { mode: 0o600 });
+  // An older file keeps its mode on rewrite: make sure.
+  chmodSync(file, 0o600);
+  return `New ${tokens.view ? 'keys were' : 'admin key was'} written to ${file} (readable by this user only, as standard output is not a terminal); read it, then delete the file.\n`;
 }
 
 export function logLine(line: string): void {
