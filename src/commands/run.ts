@@ -61,10 +61,10 @@ export async function runCommand(argv: string[]): Promise<number> {
   const port = numberOption(v.port, 'port', { min: 0, max: 65535, integer: true });
   const config = loadConfig(configFile);
   const service = await startService(config, { dataDir: v.data ?? 'data', port, log: logLine, resetToken: v['reset-token'] === true });
-  logLine(`serving the API at http://${config.server.host}:${service.port}/api/live`);
-  logLine(`dashboard at http://${config.server.host}:${service.port}/`);
   // Once, to the terminal or a file only this user can read; never through the log function.
   process.stdout.write(showNewTokens(service.newTokens, { dataDir: v.data ?? 'data', out: process.stdout }));
+  logLine(`serving the API at http://${config.server.host}:${service.port}/api/live`);
+  logLine(`dashboard at http://${config.server.host}:${service.port}/`);
   await runUntilSignal(service);
   return 0;
 }
