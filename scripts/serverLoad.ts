@@ -2,8 +2,9 @@
 // the real service (`residuum run` in a child process, its camera thread counting the synthetic
 // reading room) on a database with a year of data. About two minutes; loopback only.
 //   1. /api/live response times with nothing else going on (the baseline);
-//   2. 40 live streams without a key, each from its own loopback address (127.0.0.2…), then one
-//      with the admin key: does the dashboard still stream, and what do the others get;
+//   2. 6 live streams without a key from one address, 40 more each from its own loopback address
+//      (127.0.0.2…), then one with the admin key: does the dashboard still stream, and what do
+//      the others get;
 //   3. four 400-day exports at once while /api/live is asked every 50 ms: its response times;
 //      the same with the admin key (not limited), and a ten-year export (refused).
 // Prints one line per figure. A year of data: one sample per zone every 15 minutes for 365 days
@@ -129,15 +130,19 @@ function openStream(from: string, headers: Record<string, string> = {}): Promise
     req.end();
   });
 }
+const tally = (list: { status: number }[]) => {
+  const counts = new Map<number, number>();
+  for (const s of list) counts.set(s.status, (counts.get(s.status) ?? 0) + 1);
+  return [...counts].map(([status, n]) => `${n} × ${status}`).join(', ');
+};
+const fromOne: Awaited<ReturnType<typeof openStream>>[] = [];
+for (let i = 0; i < 6; i++) fromOne.push(await openStream('127.0.0.1'));
+console.log(`6 streams without a key from one address: ${tally(fromOne)}`);
 const anonymous = await Promise.all(Array.from({ length: 40 }, (_, i) => openStream(`127.0.0.${i + 2}`)));
-const counts = new Map<number, number>();
-for (const s of anonymous) counts.set(s.status, (counts.get(s.status) ?? 0) + 1);
-console.log(`40 streams without a key, one per address: ${[...counts].map(([status, n]) => `${n} × ${status}`).join(', ')}`);
-const fromOne = await Promise.all(Array.from({ length: 6 }, () => openStream('127.0.0.1')));
-console.log(`6 more from one address: ${fromOne.map((s) => s.status).join(', ')}`);
+console.log(`then 40 without a key, one per address: ${tally(anonymous)}`);
 const dashboard = await openStream('127.0.0.1', admin);
 console.log(`then the dashboard with the admin key: ${dashboard.status}, first event after ${dashboard.firstEventMs?.toFixed(1)} ms`);
-console.log(`/api/live with ${anonymous.filter((s) => s.status === 200).length + 1} streams open: ${summary(await pollLive(sleep(5000)))}`);
+console.log(`/api/live with ${[...fromOne, ...anonymous].filter((s) => s.status === 200).length + 1} streams open: ${summary(await pollLive(sleep(5000)))}`);
 for (const s of [...anonymous, ...fromOne, dashboard]) s.res.destroy();
 await sleep(500);
 

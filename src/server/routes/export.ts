@@ -1,7 +1,7 @@
 import { Router } from 'express';
 import { writeHourlyCsv } from '../../outputs/hourlyCsv.ts';
 import type { ServerContext } from '../context.ts';
-import { checkHourlyRange, writeChunk } from '../hourlyChunks.ts';
+import { checkHourlyRange, prepend, writeChunk } from '../hourlyChunks.ts';
 import { queryBound, queryId } from '../requestFields.ts';
 
 /**
@@ -19,12 +19,15 @@ export function exportRoutes(ctx: ServerContext): Router {
     const range = checkHourlyRange(ctx.store, { from, to, timeZone: ctx.timeZone, ...(camera && { camera }), ...(zone && { zone }) });
     const release = ctx.heavyReads.enter(req, range.hours, ctx.auth.role(req) !== 'none');
     try {
+      const chunks = range.chunks();
+      // The first day before any byte is sent: an unknown camera or zone is still a 400.
+      const first = await chunks.next();
       const name = `residuum-hourly-${from}-${to}${camera ? `-${camera}` : ''}${zone ? `-${zone}` : ''}.csv`.replace(/[^A-Za-z0-9._+-]/g, '_');
       res.set('Cache-Control', 'no-store');
       res.type('text/csv; charset=utf-8');
       res.attachment(name);
       let header = true;
-      for await (const rows of range.chunks()) {
+      for await (const rows of prepend(first, chunks)) {
         if (res.destroyed) return;
         // The header once, then each week's rows.
         let text = writeHourlyCsv(rows);

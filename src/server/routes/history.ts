@@ -1,6 +1,6 @@
 import { Router } from 'express';
 import type { ServerContext } from '../context.ts';
-import { checkHourlyRange, writeChunk } from '../hourlyChunks.ts';
+import { checkHourlyRange, prepend, writeChunk } from '../hourlyChunks.ts';
 import { queryBound, queryId } from '../requestFields.ts';
 
 export { MAX_RANGE_DAYS } from '../hourlyChunks.ts';
@@ -23,15 +23,18 @@ export function historyRoutes(ctx: ServerContext): Router {
     const range = checkHourlyRange(ctx.store, { from, to, timeZone: ctx.timeZone, ...(camera && { camera }), ...(zone && { zone }) });
     const release = ctx.heavyReads.enter(req, range.hours, ctx.auth.role(req) !== 'none');
     try {
+      const chunks = range.chunks();
+      // The first day before any byte is sent: an unknown camera or zone is still a 400.
+      const first = await chunks.next();
       res.set('Cache-Control', 'no-store').type('application/json');
       res.write(`${JSON.stringify({ timeZone: ctx.timeZone, from, to, start: range.start, end: range.end }).slice(0, -1)},"rows":[`);
-      let first = true;
-      for await (const rows of range.chunks()) {
+      let empty = true;
+      for await (const rows of prepend(first, chunks)) {
         if (res.destroyed) return;
         if (rows.length === 0) continue;
         const text = rows.map((r) => JSON.stringify(r)).join(',');
-        await writeChunk(res, first ? text : `,${text}`);
-        first = false;
+        await writeChunk(res, empty ? text : `,${text}`);
+        empty = false;
       }
       res.end(']}');
     } finally {
