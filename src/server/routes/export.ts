@@ -7,7 +7,7 @@ import { queryBound, queryId } from '../requestFields.ts';
 /**
  * `GET /api/export/hourly.csv?from=&to=[&camera=][&zone=]` (view access): the hourly CSV, the same
  * bytes as `residuum export --from … --to …` on the same database. At most 400 days per request;
- * read a week at a time and streamed (see checkHourlyRange); long reads without a key are limited.
+ * read a day at a time and streamed (see checkHourlyRange); long reads without a key are limited.
  */
 export function exportRoutes(ctx: ServerContext): Router {
   const router = Router();

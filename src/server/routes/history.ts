@@ -10,7 +10,7 @@ export { MAX_RANGE_DAYS } from '../hourlyChunks.ts';
  * the site's time zone, exactly the rows of the hourly CSV (src/outputs/hourlyCsv.ts) as JSON.
  * `from`/`to` are local dates (both inclusive) or ISO 8601 times; `start`/`end` in the answer are
  * the range as UTC epoch ms (end exclusive). Hours before a zone existed, without data, have no row.
- * At most 400 days per request; the rows are read a week at a time and the JSON written as they
+ * At most 400 days per request; the rows are read a day at a time and the JSON written as they
  * come (see checkHourlyRange), long reads without a key are limited (see heavyReadGate).
  */
 export function historyRoutes(ctx: ServerContext): Router {
