@@ -2,7 +2,7 @@ import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { parse } from 'yaml';
-import { afterEach, describe, expect, it } from 'vitest';
+import { afterEach, describe, expect, it, onTestFinished } from 'vitest';
 import { NEW_KEYS_FILE } from '../../src/commands/run.ts';
 import { DISPLAY_SETTING } from '../../src/server/displaySettings.ts';
 import { openStore } from '../../src/store/index.ts';
@@ -42,9 +42,15 @@ describe('durability: the service killed with SIGKILL while the dashboard edits'
     let key = '';
     let edit = 0;
     const killedAfter: number[] = [];
+    const children: ReturnType<typeof spawnResiduum>[] = [];
+    // A round that fails before its kill leaves no service running.
+    onTestFinished(() => {
+      for (const c of children) if (c.child.exitCode === null && c.child.signalCode === null) c.child.kill('SIGKILL');
+    });
     for (let round = 0; round < ROUNDS; round++) {
       const what = `round ${round + 1}`;
       const run = spawnResiduum(['run', '--config', configFile, '--data', data]);
+      children.push(run);
       const [, port] = await run.waitForOutput(/serving the API at http:\/\/127\.0\.0\.1:(\d+)\//, 60_000);
       if (round === 0) key = /^ {2}([A-Za-z0-9_-]{43})$/m.exec(readFileSync(join(data, NEW_KEYS_FILE), 'utf8'))![1];
       const base = `http://127.0.0.1:${port}`;
