@@ -2,9 +2,8 @@ import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { loadConfig, type ResiduumConfig } from '../config/loadConfig.ts';
-import { tokenNotice } from '../server/tokens.ts';
 import { numberOption, parseOptions } from './args.ts';
-import { logLine, runUntilSignal, startService } from './run.ts';
+import { logLine, runUntilSignal, showNewTokens, startService } from './run.ts';
 
 /** The demo's configuration: two synthetic cameras (invented scenes; nobody real). */
 export const demoConfigFile = fileURLToPath(new URL('../../config/demo.yaml', import.meta.url));
@@ -23,7 +22,7 @@ room (invented scenes, nobody real), counted live, with the dashboard in your br
 The admin key (needed to draw zones and learn the empty scene) is printed at the first start only.`;
 
 /** `residuum demo`: the service on the demo configuration, until SIGINT or SIGTERM. */
-export async function demoCommand(argv: string[], io = { out: process.stdout }): Promise<number> {
+export async function demoCommand(argv: string[], io: { out: { write(text: string): unknown; isTTY?: boolean } } = { out: process.stdout }): Promise<number> {
   const v = parseOptions(argv, {
     port: { type: 'string' },
     data: { type: 'string' },
@@ -38,8 +37,8 @@ export async function demoCommand(argv: string[], io = { out: process.stdout }):
   io.out.write(`Residuum demo: ${config.cameras.map((c) => c.name).join(' and ')} (synthetic scenes; nobody real is shown)\n`);
   io.out.write(`data folder: ${dataDir}\n`);
   const service = await startService(config, { dataDir, port, log: logLine, resetToken: v['reset-token'] === true });
-  // Once, to standard output, never through the log.
-  io.out.write(tokenNotice(service.newTokens));
+  // Once, to the terminal or a file only this user can read; never through the log.
+  io.out.write(showNewTokens(service.newTokens, { dataDir, out: io.out }));
   io.out.write(`\nDashboard: http://${config.server.host}:${service.port}/\nStop with Ctrl+C.\n\n`);
   await runUntilSignal(service);
   return 0;

@@ -1,5 +1,8 @@
+import { createHash } from 'node:crypto';
 import { EventEmitter } from 'node:events';
+import { readFile } from 'node:fs/promises';
 import type { Server } from 'node:http';
+import { chmodSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraHost, type CameraHost } from '../counting/cameraHost.ts';
@@ -26,6 +29,8 @@ import { createApp } from '../server/createApp.ts';
 import { ModelChoiceError, type KeptModel, type ServiceControl, type SmallImage } from '../server/serviceControl.ts';
 import { prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts';
 import { validateZones } from '../counting/parseZones.ts';
+import type { Zone } from '../counting/zone.ts';
+import { describeZoneChange, reconcileZones } from '../config/reconcileZones.ts';
 import { openStore, type ModelInfo, type Store } from '../store/index.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
@@ -63,10 +68,10 @@ export async function runCommand(argv: string[]): Promise<number> {
   const port = numberOption(v.port, 'port', { min: 0, max: 65535, integer: true });
   const config = loadConfig(configFile);
   const service = await startService(config, { dataDir: v.data ?? 'data', port, log: logLine, resetToken: v['reset-token'] === true });
+  // Once, to the terminal or a file only this user can read; never through the log function.
+  process.stdout.write(showNewTokens(service.newTokens, { dataDir: v.data ?? 'data', out: process.stdout }));
   logLine(`serving the API at http://${config.server.host}:${service.port}/api/live`);
   logLine(`dashboard at http://${config.server.host}:${service.port}/`);
-  // Straight to stdout, once, never through the log function.
-  process.stdout.write(tokenNotice(service.newTokens));
   await runUntilSignal(service);
   return 0;
 }
@@ -80,6 +85,25 @@ export async function runUntilSignal(service: RunningService): Promise<void> {
   });
   logLine('stopping');
   await service.stop();
+}
+
+/** The file new keys are written to when standard output is not a terminal. */
+export const NEW_KEYS_FILE = 'new-keys.txt';
+
+/**
+ * Shows keys made at this start once: on standard output when it is a terminal; otherwise (the
+ * output goes to a log, a pipe, a journal) written to `<data>/new-keys.txt`, readable by this user
+ * only (mode 0600), and the returned line says where — so that a key never lands in a log that is
+ * collected. Returns what to print on standard output.
+ */
+export function showNewTokens(tokens: NewTokens, options: { dataDir: string; out: { isTTY?: boolean } }): string {
+  const notice = tokenNotice(tokens);
+  if (notice === '' || options.out.isTTY === true) return notice;
+  const file = join(resolve(options.dataDir), NEW_KEYS_FILE);
+  writeFileSync(file, `${new Date().toISOString()}\n${notice}`, { mode: 0o600 });
+  // An older file keeps its mode on rewrite: make sure.
+  chmodSync(file, 0o600);
+  return `New ${tokens.view ? 'keys were' : 'admin key was'} written to ${file} (readable by this user only, as standard output is not a terminal); read it, then delete the file.\n`;
 }
 
 export function logLine(line: string): void {
@@ -151,12 +175,11 @@ export async function startService(config: ResiduumConfig, options: StartService
   };
   const stopCameras = () => Promise.all([...hosts.values()].map((h) => h.stop()));
   try {
-    for (const camera of config.cameras) {
+    // The zones counted are the database's (see applyConfigZones), not necessarily the file's.
+    const cameras = config.cameras.map((camera) => {
       store.upsertCamera({ id: camera.id, name: camera.name });
-      const known = new Set(camera.zones.map((z) => z.id));
-      for (const zone of camera.zones) store.upsertZone(camera.id, zone);
-      for (const old of store.listZones({ camera: camera.id })) if (!known.has(old.zone.id)) store.removeZone(camera.id, old.zone.id);
-    }
+      return { ...camera, zones: applyConfigZones(store, camera, config.file, log) };
+    });
     const models = new Map<string, CameraModel | undefined>();
     for (const camera of config.cameras) {
       models.set(camera.id, await cameraModel(camera, store, keepModels, log));
@@ -201,7 +224,7 @@ export async function startService(config: ResiduumConfig, options: StartService
       log(`camera ${camera.id}: started (${camera.source.kind}, ${camera.zones.length} zone${camera.zones.length === 1 ? '' : 's'}) in its own thread`);
       return host;
     };
-    for (const camera of config.cameras) startCamera(camera);
+    for (const camera of cameras) startCamera(camera);
     await Promise.all([...hosts.values()].map((h) => h.ready()));
     const prune = () => {
       const { deleted, rollupsDeleted = 0 } = store.applyRetention({
@@ -301,6 +324,53 @@ export async function startService(config: ResiduumConfig, options: StartService
   };
 }
 
+/** Settings key of the configured model file (name and SHA-256 of its content) at the last start. */
+export function configModelSetting(camera: string): string {
+  return `config.model.${camera}`;
+}
+
+/** Settings key of what the configuration file said about a camera's zones at the last start. */
+export function configZonesSetting(camera: string): string {
+  return `config.zones.${camera}`;
+}
+
+/**
+ * Puts the camera's zones in the database by the rule of {@link reconcileZones}: the file seeds
+ * them the first time; afterwards the database's zones (the dashboard's edits) are kept and only
+ * what changed in the file since the last start is applied, with a `settings-changed` event and a
+ * log line naming each change. One transaction: the zones, the record of the file and the event.
+ */
+function applyConfigZones(store: Store, camera: CameraConfig, file: string, log: (line: string) => void): Zone[] {
+  const key = configZonesSetting(camera.id);
+  const tx = store.db.transaction(() => {
+    const recorded = store.getSetting(key);
+    const lastConfig = Array.isArray(recorded) ? (recorded as Zone[]) : undefined;
+    const stored = store.listZones({ camera: camera.id }).map((r) => r.zone);
+    const { zones, changes, basis } = reconcileZones({ config: camera.zones, lastConfig, stored });
+    let valid: Zone[];
+    try {
+      valid = validateZones(zones, `camera ${camera.id}`, 'zones');
+    } catch (error) {
+      // A file change that does not fit the dashboard's zones (e.g. a person size next to reference
+      // people): the file's zones are taken as they are, and the event says so.
+      log(`camera ${camera.id}: the configuration's changes do not fit the zones saved in the dashboard (${(error as Error).message}); using the configuration's zones`);
+      valid = camera.zones.map((z) => ({ ...z }));
+    }
+    const keep = new Set(valid.map((z) => z.id));
+    for (const zone of valid) store.upsertZone(camera.id, zone);
+    for (const old of store.listZones({ camera: camera.id })) if (!keep.has(old.zone.id)) store.removeZone(camera.id, old.zone.id);
+    store.setSetting(key, camera.zones);
+    if (basis === 'seeded') log(`camera ${camera.id}: zones taken from ${file} (first start)`);
+    if (changes.length > 0) {
+      const text = `The configuration file ${file} changed since the last start: ${changes.map(describeZoneChange).join('; ')}.`;
+      store.insertEvent({ camera: camera.id, type: 'settings-changed', detail: { what: 'zones', by: 'configuration', file, changes, text } });
+      log(`camera ${camera.id}: ${text}`);
+    }
+    return valid;
+  });
+  return tx.immediate();
+}
+
 /** A camera's model at start and its stored id (undefined when it could not be stored). */
 interface CameraModel {
   readonly model: Subspace;
@@ -326,14 +396,27 @@ async function cameraModel(camera: CameraConfig, store: Store, keep: number, log
     }
     return model;
   };
+  // The configured model file is put to use when it is new to this database or the file (its
+  // name or content) changed since the last start; otherwise the model in use stays, so that the
+  // admin's choice in the dashboard survives restarts (the same rule as for zones).
   if (camera.model) {
-    const model = check(withColour(await loadModel(camera.model)), camera.model);
-    const same = keptCopy(store, camera.id, camera.model, model);
-    if (same !== undefined) {
-      if (store.activeModelId(camera.id) !== same) store.activateModel(camera.id, same);
-      return { model, id: same };
+    const key = configModelSetting(camera.id);
+    const digest = createHash('sha256').update(await readFile(camera.model).catch(() => Buffer.alloc(0))).digest('hex');
+    const recorded = store.getSetting(key) as { file?: unknown; sha256?: unknown } | undefined;
+    const unchanged = recorded?.file === camera.model && recorded?.sha256 === digest && store.activeModelId(camera.id) !== undefined;
+    if (!unchanged) {
+      const model = check(withColour(await loadModel(camera.model)), camera.model);
+      const same = keptCopy(store, camera.id, camera.model, model);
+      let id = same;
+      if (same !== undefined) {
+        if (store.activeModelId(camera.id) !== same) store.activateModel(camera.id, same);
+      } else {
+        id = storeModel(store, camera.id, model, camera.model, { keep });
+      }
+      store.setSetting(key, { file: camera.model, sha256: digest });
+      if (recorded !== undefined) log(`camera ${camera.id}: the model file ${camera.model} changed since the last start; put to use`);
+      return { model, ...(id !== undefined && { id }) };
     }
-    return { model, id: storeModel(store, camera.id, model, camera.model, { keep }) };
   }
   const stored = store.activeModel(camera.id);
   if (stored) return { model: check(withColour(decodeModel(Buffer.from(stored.data), `stored model ${stored.id}`)), 'the database'), id: stored.id };
@@ -440,10 +523,10 @@ function serviceControl(store: Store, events: Pick<Store, 'insertEvent'>, hosts:
       const id = host(camera).modelId();
       return { ...(id !== undefined && { id }), width: model.width, height: model.height, components: model.components, retainedVariance: model.retainedVariance, frames: model.frameCount, verdict: modelVerdict(model) };
     },
-    maskPreview(camera: string, cell = 4): SmallImage | undefined {
+    maskPreview(camera: string, cell = 8): SmallImage | undefined {
       const mask = host(camera).lastMask();
       if (!mask) return undefined;
-      if (!(Number.isInteger(cell) && cell >= 2 && cell <= 32)) throw new RangeError(`cell must be a whole number from 2 to 32, got ${cell}`);
+      if (!(Number.isInteger(cell) && cell >= 8 && cell <= 32)) throw new RangeError(`cell must be a whole number from 8 to 32, got ${cell}`);
       const width = Math.ceil(mask.width / cell);
       const height = Math.ceil(mask.height / cell);
       const data = new Uint8Array(width * height);

@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import { parse as parseYaml } from 'yaml';
-import { validateZones } from '../counting/parseZones.ts';
+import { validateZones, ZONE_RANGES } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
 import type { CameraSourceDescription } from '../frames/live/createCameraSource.ts';
 import { sceneIds } from '../frames/synthetic/index.ts';
@@ -197,7 +197,7 @@ function validateCamera(raw: unknown, at: string, fail: Fail, file: string, base
     learnSeconds: num(c.learnSeconds ?? 30, `${at}.learnSeconds`, fail, 1, 3600),
     sampleSeconds: num(c.sampleSeconds ?? 10, `${at}.sampleSeconds`, fail, 1, 3600),
     smoothing: { window: int(smoothing.window ?? 5, `${at}.smoothing.window`, fail, 1, 1000), method: method as 'median' | 'mean' },
-    threshold: num(c.threshold ?? 3, `${at}.threshold`, fail, 0.1, 100),
+    threshold: num(c.threshold ?? 3, `${at}.threshold`, fail, ZONE_RANGES.threshold[0], ZONE_RANGES.threshold[1]),
     ...(c.adaptToDrift !== undefined && { adaptToDrift: bool(c.adaptToDrift, `${at}.adaptToDrift`, fail) }),
     zones,
   };

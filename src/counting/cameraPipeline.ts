@@ -303,6 +303,12 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       backlog.length = 0;
     } catch (error) {
       if (!isStorageFault(error)) {
+        // A sample the store refuses (say, of a zone removed meanwhile) must not cost the other
+        // zones theirs: each is tried on its own, and only the refused ones are dropped.
+        if (samples.length > 1) {
+          for (const sample of samples) storeSamples([sample]);
+          return;
+        }
         log(`camera ${camera.id}: could not store samples (${(error as Error).message})`);
         // A backlog that was waiting for space is kept; only the new samples were at fault.
         if (backlog.length > 0) storeSamples([]);

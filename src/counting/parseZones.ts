@@ -73,15 +73,17 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
   if (typeof z.kind !== 'string' || !kinds.includes(z.kind)) fail('kind', `must be one of ${kinds.join(', ')}, got ${show(z.kind)}`);
   const polygon = validatePolygon(z.polygon, (message) => fail('polygon', message));
 
-  const fraction = (key: string) => {
+  const fraction = (key: 'personArea' | 'minBlobArea') => {
     const v = z[key];
     if (v === undefined) return undefined;
-    if (typeof v !== 'number' || !(v > 0 && v <= 1)) fail(key, `must be a fraction of the frame area in (0, 1], got ${show(v)}`);
+    const [min, max] = ZONE_RANGES[key];
+    if (typeof v !== 'number' || !(v >= min && v <= max)) fail(key, `must be a fraction of the frame area from ${min} to ${max}, got ${show(v)}`);
     return v as number;
   };
   const threshold = z.threshold;
-  if (threshold !== undefined && (typeof threshold !== 'number' || !(threshold > 0 && threshold <= 100))) {
-    fail('threshold', `must be a number of noise units in (0, 100], got ${show(threshold)}`);
+  const [tMin, tMax] = ZONE_RANGES.threshold;
+  if (threshold !== undefined && (typeof threshold !== 'number' || !(threshold >= tMin && threshold <= tMax))) {
+    fail('threshold', `must be a number of noise units from ${tMin} to ${tMax}, got ${show(threshold)}`);
   }
   const anchors = Object.values(AnchorPoint) as string[];
   if (z.anchor !== undefined && (typeof z.anchor !== 'string' || !anchors.includes(z.anchor))) {
@@ -92,8 +94,8 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
     fail('absorbSeconds', `must be a number of seconds from 1 to ${MAX_ABSORB_SECONDS} (a week), got ${show(absorbSeconds)}; leave it out to never absorb`);
   }
   const capacity = z.capacity;
-  if (capacity !== undefined && (typeof capacity !== 'number' || !Number.isInteger(capacity) || capacity < 0)) {
-    fail('capacity', `must be a whole number ≥ 0, got ${show(capacity)}`);
+  if (capacity !== undefined && (typeof capacity !== 'number' || !Number.isInteger(capacity) || capacity < 0 || capacity > ZONE_RANGES.capacity[1])) {
+    fail('capacity', `must be a whole number of people from 0 to ${ZONE_RANGES.capacity[1]}, got ${show(capacity)}`);
   }
   let perspective: PerspectiveReference[] | undefined;
   if (z.perspective !== undefined) {
@@ -123,6 +125,22 @@ function validateZone(raw: unknown, source: string, at: string): Zone {
   return zone;
 }
 
+/**
+ * Plausible ranges of a zone's numbers, inclusive (values outside them are mistakes, and the
+ * extreme ones make absurd counts: a person area of 5e-324 turns any blob into the largest count).
+ * Areas are fractions of the frame: 0.00005 is about 4 pixels at 320×240, the smallest blob that
+ * can still be a person; 0.5 is half the frame. Thresholds in noise units: below 0.5 every pixel
+ * is foreground, above 50 none is. Capacity in people.
+ */
+export const ZONE_RANGES = {
+  personArea: [0.00005, 0.5],
+  minBlobArea: [0.00001, 0.5],
+  threshold: [0.5, 50],
+  capacity: [0, 100_000],
+  /** A perspective reference's box height, fraction of the frame height. */
+  referenceHeight: [0.005, 1],
+} as const;
+
 /** Longest absorption time of a zone, seconds (inclusive): a week. */
 const MAX_ABSORB_SECONDS = 604_800;
 
@@ -140,11 +158,13 @@ function validateReference(raw: unknown, fail: (field: string, message: string) 
   for (const key of Object.keys(raw)) if (!['x', 'y', 'area', 'height'].includes(key)) fail(`.${key}`, 'is not a reference field (known: x, y, area, height)');
   const { x, y, area, height } = raw;
   if (typeof y !== 'number' || !(y >= 0 && y <= 1)) fail('.y', `must be the foot row in 0..1, got ${show(y)}`);
-  if (typeof area !== 'number' || !(area > 0 && area <= 1)) fail('.area', `must be a fraction of the frame area in (0, 1], got ${show(area)}`);
+  const [aMin, aMax] = ZONE_RANGES.personArea;
+  if (typeof area !== 'number' || !(area >= aMin && area <= aMax)) fail('.area', `must be a fraction of the frame area from ${aMin} to ${aMax}, got ${show(area)}`);
   if ((x === undefined) !== (height === undefined)) fail('', 'needs both x and height (a box) or neither');
   if (x === undefined) return { y: y as number, area: area as number };
   if (typeof x !== 'number' || !(x >= 0 && x <= 1)) fail('.x', `must be the foot point's x in 0..1, got ${show(x)}`);
-  if (typeof height !== 'number' || !(height > 0 && height <= 1)) fail('.height', `must be the box height as a fraction of the frame height in (0, 1], got ${show(height)}`);
+  const [hMin, hMax] = ZONE_RANGES.referenceHeight;
+  if (typeof height !== 'number' || !(height >= hMin && height <= hMax)) fail('.height', `must be the box height as a fraction of the frame height from ${hMin} to ${hMax}, got ${show(height)}`);
   const [fx, fy, a, h] = [x as number, y as number, area as number, height as number];
   const width = a / h;
   if (fy - h < -BOX_SLACK) fail('', `is a box reaching above the top of the frame (y − height = ${show(fy - h)})`);

@@ -20,6 +20,8 @@ export interface AuthOptions {
   readonly viewTokenRequired?: boolean;
   /** Limiter of failed attempts; default 10 failures per minute per address. */
   readonly limiter?: FailureLimiter;
+  /** Service log: each wrong key is logged with the address and route, never the key itself. */
+  readonly log?: (line: string) => void;
 }
 
 export interface Auth {
@@ -32,10 +34,13 @@ export interface Auth {
   role(req: Request): Role;
 }
 
-const BEARER = /^Bearer ([A-Za-z0-9_-]{1,200})$/;
+// The scheme is case-insensitive (RFC 7235 §2.1): `bearer`, `BEARER` and `Bearer` are the same.
+const BEARER = /^Bearer +([A-Za-z0-9_-]{1,200})$/i;
 
 export function createAuth(store: SettingStore, options: AuthOptions = {}): Auth {
-  const { viewTokenRequired = false, limiter = failureLimiter() } = options;
+  const { viewTokenRequired = false, limiter = failureLimiter(), log = () => {} } = options;
+  /** Addresses whose block was logged, until they may try again (one line per block, not per refused request). */
+  const blockLogged = new Map<string, number>();
   const key = (req: Request) => req.ip ?? req.socket.remoteAddress ?? 'unknown';
 
   function role(req: Request): Role {
@@ -51,7 +56,15 @@ export function createAuth(store: SettingStore, options: AuthOptions = {}): Auth
       if (tokenMatches(store, 'admin', token)) return Role.admin;
       if (viewTokenRequired && tokenMatches(store, 'view', token)) return Role.viewer;
     }
-    limiter.fail(key(req));
+    const address = key(req);
+    const count = limiter.fail(address);
+    log(`auth: a wrong key from ${address} on ${req.method} ${(req.baseUrl + req.path).slice(0, 200)} (${count} in the last minute)`);
+    const blocked = limiter.retryAfterMs(address);
+    if (blocked > 0 && (blockLogged.get(address) ?? 0) < Date.now()) {
+      blockLogged.set(address, Date.now() + blocked);
+      if (blockLogged.size > 10_000) blockLogged.clear();
+      log(`auth: ${address} blocked for ${Math.ceil(blocked / 1000)} s after ${count} wrong keys`);
+    }
     throw new HttpError(401, 'the key was not accepted (header Authorization: Bearer <key>)', { 'WWW-Authenticate': 'Bearer realm="residuum", error="invalid_token"' });
   }
 

@@ -2,6 +2,7 @@ import type { CameraLive } from '../counting/cameraPipeline.ts';
 import type { Store } from '../store/index.ts';
 import type { Auth } from './auth.ts';
 import type { DisplaySettings } from './displaySettings.ts';
+import type { HeavyReadGate } from './heavyReads.ts';
 import type { LiveViewResult } from './liveView.ts';
 import type { ServiceControl } from './serviceControl.ts';
 
@@ -17,6 +18,8 @@ export interface ServerContext {
   /** Days raw samples are kept (config storage.sampleRetentionDays), for the privacy notice. */
   readonly sampleRetentionDays?: number;
   readonly auth: Auth;
+  /** Limits on long history and export reads without a key. */
+  readonly heavyReads: HeavyReadGate;
   /** Service log lines; never given a token or pixels. */
   readonly log: (line: string) => void;
   display(): DisplaySettings;

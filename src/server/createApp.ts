@@ -9,6 +9,7 @@ import { createAuth } from './auth.ts';
 import type { ServerContext } from './context.ts';
 import { readDisplaySettings } from './displaySettings.ts';
 import type { FailureLimiter } from './failureLimiter.ts';
+import { heavyReadGate, type HeavyReadOptions } from './heavyReads.ts';
 import { HttpError } from './HttpError.ts';
 import type { LiveStreamOptions } from './liveStream.ts';
 import { liveView } from './liveView.ts';
@@ -55,8 +56,10 @@ export interface AppDeps {
   readonly host?: string;
   /** Limiter of failed key attempts; default 10 per minute per address. */
   readonly limiter?: FailureLimiter;
-  /** Live stream timing; default a check every 500 ms. */
+  /** Live stream timing and slots; default a check every 500 ms, 32 slots. */
   readonly stream?: LiveStreamOptions;
+  /** Limits on long history and export reads without a key (see heavyReadGate); default its defaults. */
+  readonly heavyReads?: HeavyReadOptions;
   /** Service log lines (never a token). Default: none. */
   readonly log?: (line: string) => void;
   /** Metrics registry served at GET /metrics (Prometheus text format); default: no such route. */
@@ -78,7 +81,7 @@ export const WEB_DIR = fileURLToPath(new URL('../../web/', import.meta.url));
  */
 export function createApp(deps: AppDeps): express.Express {
   const { store, viewTokenRequired = false, log = () => {} } = deps;
-  const auth = createAuth(store, { viewTokenRequired, ...(deps.limiter && { limiter: deps.limiter }) });
+  const auth = createAuth(store, { viewTokenRequired, log, ...(deps.limiter && { limiter: deps.limiter }) });
   const ctx: ServerContext = {
     store,
     control: deps.control,
@@ -88,6 +91,7 @@ export function createApp(deps: AppDeps): express.Express {
     startedAt: deps.startedAt,
     sampleRetentionDays: deps.sampleRetentionDays,
     auth,
+    heavyReads: heavyReadGate(deps.heavyReads),
     log,
     display: () => readDisplaySettings(store),
     liveView() {
@@ -161,7 +165,9 @@ export function createApp(deps: AppDeps): express.Express {
     const e = error as { status?: number; statusCode?: number; type?: string; message?: string };
     let status = error instanceof HttpError ? error.status : (e.status ?? e.statusCode ?? 500);
     if (!(status >= 400 && status <= 599)) status = 500;
-    let message = status >= 500 ? 'internal error' : String(e.message ?? 'error');
+    // An HttpError's message is written for the client, whatever its status (503 "all slots in
+    // use…"); any other 5xx is a fault of ours, told in the log, not to the client.
+    let message = status >= 500 && !(error instanceof HttpError) ? 'internal error' : String(e.message ?? 'error');
     if (e.type === 'entity.too.large') message = 'request body is larger than 256 kB';
     else if (e.type === 'entity.parse.failed') message = 'request body is not valid JSON';
     if (error instanceof HttpError) res.set(error.headers);

@@ -7,7 +7,7 @@ import { HttpError } from './HttpError.ts';
  * says, not what is counted.
  */
 export interface DisplaySettings {
-  /** A room is "near" capacity at shown ≥ nearCapacity × capacity; share in (0, 1], default 0.8. */
+  /** A room is "near" capacity at shown ≥ nearCapacity × capacity; share 0.1..1 inclusive, default 0.8. */
   readonly nearCapacity: number;
   /** A shelf is "low" below this fill, 0..1; default 0.15. */
   readonly defaultLowStock: number;
@@ -17,18 +17,44 @@ export interface DisplaySettings {
 
 export const DISPLAY_SETTING = 'dashboard.display';
 
+/** Smallest near-capacity share (inclusive): below a tenth of capacity, "filling up" says nothing. */
+export const MIN_NEAR_CAPACITY = 0.1;
+
 export const DEFAULT_DISPLAY: DisplaySettings = { nearCapacity: 0.8, defaultLowStock: 0.15, lowStock: {} };
 
 const ZONE_KEY = /^[A-Za-z0-9_-]{1,64}\/[A-Za-z0-9_-]{1,64}$/;
 
-/** The stored settings merged over the defaults (a damaged value falls back to the default). */
+/**
+ * The stored settings merged over the defaults, field by field: a damaged field (or one zone's
+ * damaged mark) falls back to its default on its own, so that the next change, which is merged
+ * into what is read here, does not lose the others.
+ */
 export function readDisplaySettings(store: SettingStore): DisplaySettings {
   const raw = store.getSetting(DISPLAY_SETTING);
-  try {
-    return raw === undefined ? DEFAULT_DISPLAY : mergeDisplaySettings(DEFAULT_DISPLAY, raw, 'stored');
-  } catch {
-    return DEFAULT_DISPLAY;
+  if (typeof raw !== 'object' || raw === null || Array.isArray(raw)) return DEFAULT_DISPLAY;
+  const r = raw as Record<string, unknown>;
+  let settings = DEFAULT_DISPLAY;
+  const take = (change: Record<string, unknown>) => {
+    try {
+      settings = mergeDisplaySettings(settings, change, 'stored');
+    } catch {
+      // this field (or mark) keeps its default
+    }
+  };
+  if (r.nearCapacity !== undefined) take({ nearCapacity: r.nearCapacity });
+  if (r.defaultLowStock !== undefined) take({ defaultLowStock: r.defaultLowStock });
+  const lowStock: Record<string, number> = {};
+  if (typeof r.lowStock === 'object' && r.lowStock !== null && !Array.isArray(r.lowStock)) {
+    for (const [key, value] of Object.entries(r.lowStock)) {
+      if (value === null) continue;
+      try {
+        Object.assign(lowStock, mergeDisplaySettings(DEFAULT_DISPLAY, { lowStock: { [key]: value } }, 'stored').lowStock);
+      } catch {
+        // this zone's mark is dropped; the others stay
+      }
+    }
   }
+  return { ...settings, lowStock };
 }
 
 /**
@@ -42,10 +68,8 @@ export function mergeDisplaySettings(current: DisplaySettings, change: unknown, 
   if (typeof change !== 'object' || change === null || Array.isArray(change)) fail('', 'must be a JSON object');
   const c = change as Record<string, unknown>;
   for (const k of Object.keys(c)) if (!['nearCapacity', 'defaultLowStock', 'lowStock'].includes(k)) fail(k, 'is not a display setting (known: nearCapacity, defaultLowStock, lowStock)');
-  const share = (v: unknown, field: string, min: number, minInclusive: boolean): number => {
-    if (typeof v !== 'number' || !Number.isFinite(v) || v > 1 || (minInclusive ? v < min : v <= min)) {
-      fail(field, `must be a number in ${minInclusive ? '[' : '('}${min}, 1], got ${JSON.stringify(v)}`);
-    }
+  const share = (v: unknown, field: string, min: number): number => {
+    if (typeof v !== 'number' || !Number.isFinite(v) || v > 1 || v < min) fail(field, `must be a number from ${min} to 1, got ${typeof v === 'number' ? String(v) : JSON.stringify(v)}`);
     return v as number;
   };
   const lowStock: Record<string, number> = { ...current.lowStock };
@@ -56,12 +80,12 @@ export function mergeDisplaySettings(current: DisplaySettings, change: unknown, 
     for (const [key, v] of entries) {
       if (!ZONE_KEY.test(key)) fail(`lowStock["${key.slice(0, 80)}"]`, 'must be keyed "camera/zone" (ids of letters, digits, - and _)');
       if (v === null) delete lowStock[key];
-      else lowStock[key] = share(v, `lowStock["${key}"]`, 0, true);
+      else lowStock[key] = share(v, `lowStock["${key}"]`, 0);
     }
   }
   return {
-    nearCapacity: c.nearCapacity === undefined ? current.nearCapacity : share(c.nearCapacity, 'nearCapacity', 0, false),
-    defaultLowStock: c.defaultLowStock === undefined ? current.defaultLowStock : share(c.defaultLowStock, 'defaultLowStock', 0, true),
+    nearCapacity: c.nearCapacity === undefined ? current.nearCapacity : share(c.nearCapacity, 'nearCapacity', MIN_NEAR_CAPACITY),
+    defaultLowStock: c.defaultLowStock === undefined ? current.defaultLowStock : share(c.defaultLowStock, 'defaultLowStock', 0),
     lowStock,
   };
 }

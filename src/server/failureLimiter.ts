@@ -25,8 +25,8 @@ export interface FailureLimiterOptions {
 export interface FailureLimiter {
   /** 0 when the key may try; otherwise ms until it may try again. */
   retryAfterMs(key: string): number;
-  /** Records one failure of the key. */
-  fail(key: string): void;
+  /** Records one failure of the key; returns its failures within the window, this one included. */
+  fail(key: string): number;
 }
 
 export function failureLimiter(options: FailureLimiterOptions = {}): FailureLimiter {
@@ -57,6 +57,7 @@ export function failureLimiter(options: FailureLimiterOptions = {}): FailureLimi
       failures.delete(key);
       failures.set(key, list);
       while (failures.size > maxKeys) failures.delete(failures.keys().next().value as string);
+      return list.length;
     },
   };
 }

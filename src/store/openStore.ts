@@ -1,4 +1,4 @@
-import { mkdirSync } from 'node:fs';
+import { closeSync, existsSync, mkdirSync, openSync } from 'node:fs';
 import { dirname } from 'node:path';
 import Database from 'better-sqlite3';
 import { prepareCalibration, type CalibrationStore } from './calibration.ts';
@@ -66,7 +66,12 @@ export function openStore(file: string, options: OpenStoreOptions = {}): Store {
   const inMemory = file === ':memory:';
   let db: Database.Database;
   try {
-    if (!inMemory) mkdirSync(dirname(file), { recursive: true });
+    if (!inMemory) {
+      // Counts of people are personal data in many places: a new folder and database are for
+      // this user only (0700 and 0600; SQLite gives its -wal and -shm files the database's mode).
+      mkdirSync(dirname(file), { recursive: true, mode: 0o700 });
+      if (!existsSync(file)) closeSync(openSync(file, 'a', 0o600));
+    }
     db = new Database(file);
   } catch (error) {
     throw new Error(`cannot open store ${file}: ${(error as Error).message}`, { cause: error });

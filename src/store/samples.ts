@@ -149,7 +149,11 @@ export function prepareSamples(db: Database.Database, rollups: RollupWriter): Sa
     const s = validateSample(input, field);
     const z = zoneKind.get(s.camera, s.zone) as { kind: 'room' | 'shelf'; removed: number | null } | undefined;
     if (z === undefined) throw new RangeError(`${field}.zone: no zone '${s.zone}' on camera '${s.camera}'; add it with upsertZone first`);
-    if (z.removed !== null) throw new RangeError(`${field}.zone: zone '${s.camera}/${s.zone}' was removed`);
+    // A removed zone still takes the interval that was open when it was removed (measured while it
+    // existed; the camera thread writes it just after the removal), nothing that starts later.
+    if (z.removed !== null && s.time - s.intervalMs >= z.removed) {
+      throw new RangeError(`${field}.zone: zone '${s.camera}/${s.zone}' was removed at ${new Date(z.removed).toISOString()}, before this interval began`);
+    }
     const expected = SAMPLE_KIND_OF_ZONE[z.kind];
     if (s.kind !== expected) {
       throw new RangeError(`${field}.kind: zone '${s.camera}/${s.zone}' is a ${z.kind} zone and takes '${expected}' samples, got '${s.kind}'`);

@@ -98,8 +98,8 @@ describe('the service runs each camera in its own worker thread', () => {
       expect(run.service.control.cameras().find((c) => c.camera === 'a')!.zones.map((z) => z.id)).toEqual(['floor', 'left']);
       await waitUntil(() => run.samples('a', 'left').length >= 1, { what: 'a sample of the new zone' });
       // The coarse mask preview reads A's last mask from shared memory.
-      const preview = run.service.control.maskPreview('a', 4);
-      expect(preview).toMatchObject({ width: WIDTH / 4, height: HEIGHT / 4 });
+      const preview = run.service.control.maskPreview('a', 8);
+      expect(preview).toMatchObject({ width: Math.ceil(WIDTH / 8), height: Math.ceil(HEIGHT / 8) });
     } finally {
       await run.service.stop();
     }

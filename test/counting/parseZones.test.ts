@@ -33,6 +33,22 @@ describe('parseZones', () => {
     expect(() => parseZones(text, 'z.yaml')).toThrow(message);
   });
 
+  // Plausible ranges (issue: 5e-324 and 1e308 were accepted; one zone then stored 1000 people per
+  // sample). The bounds are ours, stated in the README's zones table: a person of at least about
+  // 4 pixels at 320×240 and at most half the frame; a threshold of 0.5 to 50 noise units.
+  it.each([
+    ['personArea', 'personArea: 5.0e-324', /zones\[0\]\.personArea must be a fraction of the frame area from 0\.00005 to 0\.5, got 5e-324/],
+    ['personArea', 'personArea: 1.0e+308', /zones\[0\]\.personArea must be a fraction of the frame area from 0\.00005 to 0\.5, got 1e\+308/],
+    ['minBlobArea', 'minBlobArea: 5.0e-324', /zones\[0\]\.minBlobArea must be a fraction of the frame area from 0\.00001 to 0\.5, got 5e-324/],
+    ['threshold', 'threshold: 5.0e-324', /zones\[0\]\.threshold must be a number of noise units from 0\.5 to 50, got 5e-324/],
+    ['threshold', 'threshold: 1.0e+308', /zones\[0\]\.threshold must be a number of noise units from 0\.5 to 50, got 1e\+308/],
+    ['capacity', 'capacity: 1000000000000', /zones\[0\]\.capacity must be a whole number of people from 0 to 100000, got 1000000000000/],
+    ['perspective area', 'perspective: [{y: 0.5, area: 5.0e-324}, {y: 0.9, area: 0.01}]', /zones\[0\]\.perspective\[0\]\.area must be a fraction of the frame area from 0\.00005 to 0\.5, got 5e-324/],
+    ['perspective height', 'perspective: [{x: 0.5, y: 0.5, area: 0.0001, height: 1.0e-300}, {y: 0.9, area: 0.01}]', /zones\[0\]\.perspective\[0\]\.height must be the box height as a fraction of the frame height from 0\.005 to 1, got 1e-300/],
+  ])('rejects an implausible %s, naming the range', (_what, field, message) => {
+    expect(() => parseZones(`- {id: a, kind: room, polygon: ${square}, ${field}}`, 'z.yaml')).toThrow(message);
+  });
+
   it('accepts a concave polygon and a polygon touching the frame edges', () => {
     const zones = parseZones(`- {id: u, kind: room, polygon: [[0,0],[1,0],[1,1],[0.6,1],[0.6,0.3],[0.4,0.3],[0.4,1],[0,1]]}`);
     expect(zones[0].polygon).toHaveLength(8);

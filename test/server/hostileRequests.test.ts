@@ -55,4 +55,23 @@ describe('hostile requests', () => {
     expect((await jsonOf(res)).error).toMatch(/\w/);
     expect(t.service.store.listZones({ camera: CAMERA }).length).toBe(before);
   });
+
+  it.each([
+    ['zones', `/api/cameras/${CAMERA}/zones`, 'PUT', (deep: string) => `{"zones": [{"id": ${deep}}]}`],
+    ['settings', '/api/settings', 'PUT', (deep: string) => `{"nearCapacity": ${deep}}`],
+    ['learn', `/api/cameras/${CAMERA}/learn`, 'POST', (deep: string) => `{"seconds": ${deep}}`],
+  ])('answers JSON nested 20 000 deep (%s) with a 400 naming the limit, not a stack overflow', async (_what, path, method, body) => {
+    const deep = '['.repeat(20_000) + ']'.repeat(20_000);
+    const res = await fetch(`${t.base}${path}`, { method, headers: { Authorization: `Bearer ${t.adminKey}`, 'Content-Type': 'application/json' }, body: body(deep) });
+    expect(res.status).toBe(400);
+    expect((await jsonOf(res)).error).toBe('request body is nested too deeply (more than 32 levels of objects and lists)');
+  });
+
+  it('takes the auth scheme in any case (check: RFC 7235 §2.1, "the scheme is case-insensitive", recalled from memory)', async () => {
+    for (const scheme of ['bearer', 'BEARER', 'BeArEr']) {
+      const res = await fetch(`${t.base}/api/auth`, { headers: { Authorization: `${scheme} ${t.adminKey}` } });
+      expect(res.status, scheme).toBe(200);
+      expect((await jsonOf(res)).role, scheme).toBe('admin');
+    }
+  });
 });

@@ -25,6 +25,11 @@ describe('the admin key', () => {
       }
       await fetch(`${base}/api/cameras/reading-room/learn`, { method: 'POST', headers: { Authorization: `Bearer ${key}`, 'Content-Type': 'application/json' }, body: '{"seconds": 1}' });
       expect(lines.length).toBeGreaterThan(0);
+      // Failed logins are logged (without the key): where from and what was asked.
+      const failures = lines.filter((l) => l.startsWith('auth: a wrong key from '));
+      expect(failures.length).toBeGreaterThanOrEqual(10);
+      expect(failures[0]).toMatch(/^auth: a wrong key from (::ffff:)?127\.0\.0\.1 on PUT \/api\/cameras\/reading-room\/zones \(1 in the last minute\)$/);
+      expect(lines.some((l) => /^auth: 127\.0\.0\.1 .*blocked for \d+ s after 10 wrong keys/.test(l.replace('::ffff:', '')))).toBe(true);
       for (const line of lines) {
         expect(line).not.toContain(key);
         expect(line).not.toContain(key.slice(0, 16));

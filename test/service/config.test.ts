@@ -104,6 +104,18 @@ describe('loadConfig refuses a bad configuration file, naming the file and the f
     expect(loadConfig(write(ok)).cameras[0].source.kind).toBe('snapshot');
   });
 
+  it('implausible numbers, naming the range (issue: 5e-324 and 1e308 were taken)', () => {
+    const threshold = base();
+    threshold.cameras[0].threshold = 5e-324;
+    expectConfigError(write(threshold), 'cameras[0].threshold', 'must be a number from 0.5 to 50, got 5e-324');
+    const area = base();
+    area.cameras[0].zones[0].personArea = 1e308;
+    expectConfigError(write(area), 'cameras[0].zones[0].personArea', 'must be a fraction of the frame area from 0.00005 to 0.5, got 1e+308');
+    const blob = base();
+    blob.cameras[0].zones[0].minBlobArea = 5e-324;
+    expectConfigError(write(blob), 'cameras[0].zones[0].minBlobArea', 'from 0.00001 to 0.5');
+  });
+
   it('a size that is not [width, height]', () => {
     for (const size of [[320], [320, 240, 1], '320x240', 320]) {
       const doc = base();

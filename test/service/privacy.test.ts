@@ -201,8 +201,8 @@ describe('privacy: the running service keeps no image of people', () => {
     expect([...running, ...rawHits('stopped')]).toEqual([]);
     expect(readdirSync(drop)).toEqual([]);
     expect(readdirSync(tmp)).toEqual([]);
-    // Nothing written besides the database: the tree holds our inputs and residuum.db(-wal, -shm).
-    for (const name of filesBelow(root)) expect(['residuum.yaml', 'door.rsdm', join('data', 'residuum.db'), join('data', 'residuum.db-wal'), join('data', 'residuum.db-shm')]).toContain(name);
+    // Nothing written besides the database: the tree holds our inputs and residuum.db(-wal, -shm), and new-keys.txt (the admin key, no picture).
+    for (const name of filesBelow(root)) expect(['residuum.yaml', 'door.rsdm', join('data', 'residuum.db'), join('data', 'residuum.db-wal'), join('data', 'residuum.db-shm'), join('data', 'new-keys.txt')]).toContain(name);
 
     // The database content through SQL: every TEXT and BLOB value outside the models table.
     const db = new Database(file, { readonly: true, fileMustExist: true });

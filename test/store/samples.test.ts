@@ -71,4 +71,12 @@ describe('samples', () => {
     t.store.removeZone('cam', 'room', { time: 5 });
     expect(() => t.store.insertSample(room(T0, 1))).toThrow(/was removed/);
   });
+
+  it('takes the interval that was open when its zone was removed, and none that began later', () => {
+    // The camera thread writes the open interval just after the dashboard removed the zone.
+    t.store.removeZone('cam', 'room', { time: T0 + 3000 });
+    t.store.insertSample(room(T0 + 4000, 1, 2000));
+    expect(t.store.listSamples({ camera: 'cam', zone: 'room' }).map((s) => s.time)).toEqual([T0 + 4000]);
+    expect(() => t.store.insertSample(room(T0 + 6000, 1, 2000))).toThrow(/was removed at .* before this interval began/);
+  });
 });

@@ -1107,7 +1107,7 @@ export function createZonesView(app) {
     }
     const tick = async () => {
       try {
-        mask = await api(`/api/cameras/${encodeURIComponent(camera.id)}/mask?format=json&cell=4`);
+        mask = await api(`/api/cameras/${encodeURIComponent(camera.id)}/mask?format=json&cell=8`);
       } catch {
         mask = undefined;
       }

@@ -1,13 +1,19 @@
-import express, { Router } from 'express';
+import { Router } from 'express';
+import { jsonBody } from '../jsonBody.ts';
 import sharp from 'sharp';
 import { ZoneError } from '../../counting/parseZones.ts';
 import type { ServerContext } from '../context.ts';
 import { HttpError } from '../HttpError.ts';
+import { rateLimit } from '../rateLimit.ts';
 import { cameraParam, jsonObject, queryChoice, queryInt, serviceOf } from '../requestFields.ts';
 import type { SmallImage } from '../serviceControl.ts';
 
-/** Largest JSON body accepted by the change routes. */
-export const BODY_LIMIT = '256kb';
+/** Smallest cell of the foreground preview, pixels of the working frame (inclusive). */
+export const MIN_MASK_CELL = 8;
+/** Foreground previews per camera per second. */
+export const MASKS_PER_SECOND = 2;
+
+export { BODY_LIMIT } from '../jsonBody.ts';
 
 /**
  * Cameras and their zones:
@@ -18,11 +24,15 @@ export const BODY_LIMIT = '256kb';
  * - `GET /api/cameras/:id/zones/history` (view): every change, oldest first;
  * - `GET /api/cameras/:id/background.png` (admin): the learned empty scene, PNG made in memory;
  * - `GET /api/cameras/:id/mask?format=json|png&cell=N` (admin): the coarse foreground mask of the
- *   last frame, computed on request, never stored or cached.
+ *   last frame in cells of N = 8..32 pixels (default 8), computed on request, never stored or
+ *   cached, at most 2 a second per camera (429).
  */
 export function cameraRoutes(ctx: ServerContext): Router {
   const router = Router();
-  const json = express.json({ limit: BODY_LIMIT });
+  // The foreground preview, coarse and slow enough never to be a silhouette video: cells of at
+  // least 8 pixels, at most 2 previews a second per camera.
+  const masks = rateLimit({ max: MASKS_PER_SECOND, windowMs: 1000 });
+  const json = jsonBody();
 
   router.get('/cameras', ctx.auth.view, (_req, res) => {
     const control = serviceOf(ctx);
@@ -83,7 +93,11 @@ export function cameraRoutes(ctx: ServerContext): Router {
     const control = serviceOf(ctx);
     const id = cameraParam(req, control);
     const format = queryChoice(req, 'format', ['json', 'png'] as const) ?? 'json';
-    const cell = queryInt(req, 'cell', 2, 32) ?? 4;
+    const cell = queryInt(req, 'cell', MIN_MASK_CELL, 32) ?? MIN_MASK_CELL;
+    const wait = masks.take(id);
+    if (wait > 0) {
+      throw new HttpError(429, `the foreground preview of camera ${id} is limited to ${MASKS_PER_SECOND} a second; try again in ${wait} ms`, { 'Retry-After': '1', 'Cache-Control': 'no-store' });
+    }
     const mask = control.maskPreview(id, cell);
     if (!mask) throw new HttpError(404, `camera ${id} has not counted a frame yet`);
     res.set('Cache-Control', 'no-store');

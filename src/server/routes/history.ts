@@ -1,13 +1,9 @@
 import { Router } from 'express';
-import { hourlyRows } from '../../outputs/hourlyCsv.ts';
-import { localHours } from '../../outputs/localHours.ts';
-import { parseTimeBound } from '../../outputs/parseTimeBound.ts';
 import type { ServerContext } from '../context.ts';
-import { HttpError } from '../HttpError.ts';
+import { checkHourlyRange, prepend, writeChunk } from '../hourlyChunks.ts';
 import { queryBound, queryId } from '../requestFields.ts';
 
-/** Longest range of one request, hours (400 days). */
-export const MAX_RANGE_HOURS = 24 * 400;
+export { MAX_RANGE_DAYS } from '../hourlyChunks.ts';
 
 /**
  * `GET /api/history?from=&to=[&camera=][&zone=]` (view access): the hourly rows of the range in
@@ -15,29 +11,36 @@ export const MAX_RANGE_HOURS = 24 * 400;
  * `from`/`to` are local dates (both inclusive) or ISO 8601 times; `start`/`end` in the answer are
  * the range as UTC epoch ms (end exclusive), `end` cut at the end of the current hour: hours that
  * have not begun have no row and no place on the chart. Hours before a zone existed, without data,
- * have no row.
+ * have no row. At most 400 days per request; the rows are read a day at a time and the JSON
+ * written as they come (see checkHourlyRange), long reads without a key are limited (see heavyReadGate).
  */
 export function historyRoutes(ctx: ServerContext): Router {
   const router = Router();
-  router.get('/history', ctx.auth.view, (req, res) => {
+  router.get('/history', ctx.auth.view, async (req, res) => {
     const from = queryBound(req, 'from');
     const to = queryBound(req, 'to');
     const camera = queryId(req, 'camera');
     const zone = queryId(req, 'zone');
-    let rows;
-    let start: number;
-    let end: number;
+    const range = checkHourlyRange(ctx.store, { from, to, timeZone: ctx.timeZone, ...(camera && { camera }), ...(zone && { zone }) });
+    const release = ctx.heavyReads.enter(req, range.hours, ctx.auth.role(req) !== 'none');
     try {
-      start = parseTimeBound(from, { name: 'from', timeZone: ctx.timeZone });
-      end = parseTimeBound(to, { name: 'to', timeZone: ctx.timeZone });
-      const now = Date.now();
-      rows = hourlyRows(ctx.store, { from, to, now, timeZone: ctx.timeZone, maxHours: MAX_RANGE_HOURS, ...(camera && { camera }), ...(zone && { zone }) });
-      const begun = localHours({ from: start, to: end }, { timeZone: ctx.timeZone, maxHours: MAX_RANGE_HOURS }).filter((h) => h.start <= now);
-      end = begun.length > 0 ? begun[begun.length - 1].end : start;
-    } catch (error) {
-      throw new HttpError(400, (error as Error).message);
+      const chunks = range.chunks();
+      // The first day before any byte is sent: an unknown camera or zone is still a 400.
+      const first = await chunks.next();
+      res.set('Cache-Control', 'no-store').type('application/json');
+      res.write(`${JSON.stringify({ timeZone: ctx.timeZone, from, to, start: range.start, end: range.end }).slice(0, -1)},"rows":[`);
+      let empty = true;
+      for await (const rows of prepend(first, chunks)) {
+        if (res.destroyed) return;
+        if (rows.length === 0) continue;
+        const text = rows.map((r) => JSON.stringify(r)).join(',');
+        await writeChunk(res, empty ? text : `,${text}`);
+        empty = false;
+      }
+      res.end(']}');
+    } finally {
+      release();
     }
-    res.set('Cache-Control', 'no-store').json({ timeZone: ctx.timeZone, from, to, start, end, rows });
   });
   return router;
 }

@@ -12,6 +12,6 @@ export function liveRoutes(ctx: ServerContext, options: LiveStreamOptions = {}):
   router.get('/live', ctx.auth.view, (_req, res) => {
     res.set('Cache-Control', 'no-store').json({ time: Date.now(), ...ctx.liveView() });
   });
-  router.get('/live/stream', ctx.auth.view, liveStream(() => ctx.liveView(), options));
+  router.get('/live/stream', ctx.auth.view, liveStream(() => ctx.liveView(), options, (req) => ctx.auth.role(req) !== 'none'));
   return router;
 }

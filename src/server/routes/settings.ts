@@ -1,8 +1,8 @@
-import express, { Router } from 'express';
+import { Router } from 'express';
+import { jsonBody } from '../jsonBody.ts';
 import type { ServerContext } from '../context.ts';
 import { DISPLAY_SETTING, mergeDisplaySettings } from '../displaySettings.ts';
 import { jsonObject } from '../requestFields.ts';
-import { BODY_LIMIT } from './cameras.ts';
 
 /**
  * Display settings (when a room reads as nearly full, when a shelf reads as running low):
@@ -15,7 +15,7 @@ export function settingsRoutes(ctx: ServerContext): Router {
   router.get('/settings', ctx.auth.view, (_req, res) => {
     res.set('Cache-Control', 'no-store').json(ctx.display());
   });
-  router.put('/settings', ctx.auth.admin, express.json({ limit: BODY_LIMIT }), (req, res) => {
+  router.put('/settings', ctx.auth.admin, jsonBody(), (req, res) => {
     const next = mergeDisplaySettings(ctx.display(), jsonObject(req));
     ctx.store.setSetting(DISPLAY_SETTING, next);
     ctx.log('display settings changed from the dashboard');
