@@ -1,6 +1,7 @@
 import type { Server } from 'node:http';
 import { join, resolve } from 'node:path';
 import { loadCollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
+import { sqliteCollectorStore } from '../outputs/mqtt/collectorStore.ts';
 import { startCollector, type Collector } from '../outputs/mqtt/mqttCollector.ts';
 import { readMqttTls } from '../outputs/mqtt/mqttSettings.ts';
 import { createApp } from '../server/createApp.ts';
@@ -45,7 +46,7 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
   const store = openStore(join(resolve(v.data ?? 'data'), 'residuum.db'), { timeZone: config.site.timeZone });
   let collector: Collector;
   try {
-    collector = startCollector(config.mqtt, { store, log });
+    collector = startCollector(config.mqtt, { store: sqliteCollectorStore(store), log });
   } catch (error) {
     store.close();
     throw error;

@@ -171,7 +171,7 @@ describe('createMetrics', () => {
   });
 
   it('reads the MQTT publisher figures at scrape time; counters never go down', async () => {
-    let stats: MqttPublisherStats = { connected: true, queuedSamples: 0, queuedEvents: 0, inFlight: 0, samplesPublished: 5, samplesDropped: 0, samplesBackfilled: 0, backfillPending: 0, eventsPublished: 0, eventsDropped: 0, statesPublished: 0 };
+    let stats: MqttPublisherStats = { connected: true, queuedSamples: 0, queuedEvents: 0, inFlight: 0, samplesPublished: 5, samplesDropped: 0, samplesBackfilled: 0, backfillPending: 0, eventsPublished: 0, eventsDropped: 0, statesPublished: 0, unconfirmedSamples: 0, replays: 0 };
     const m = createMetrics({ processMetrics: false, mqtt: () => stats });
     let e = parseExposition(await m.render());
     expect(valueOf(e, 'residuum_mqtt_connected')).toBe(1);

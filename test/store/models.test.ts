@@ -185,7 +185,7 @@ describe('migration 2 of a database written before models were kept and chosen',
     const store = openStore(file);
     t.store.close();
     t.store = store;
-    expect(store.db.pragma('user_version', { simple: true })).toBe(2);
+    expect(store.db.pragma('user_version', { simple: true })).toBe(3);
     const door = store.listModels('door');
     expect(door.map((m) => [m.created, m.active, m.rejected])).toEqual([
       [100, false, false],
