@@ -36,7 +36,8 @@ import { ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
  * arrived), one transaction each. Confirmation: a sample with a sequence number (`seq`, `stream`;
  * see sampleOutbox.ts) counts as held once its batch is committed, stored or found already
  * stored. Per camera and stream the collector keeps the highest number up to which it holds every
- * sample (its cursor, kept in the settings as `collector.seq.<camera id>`) and the numbers it holds
+ * sample (its cursor, saved in the settings as `collector.seq.<camera id>` after each batch and
+ * before any ack announces it) and the numbers it holds
  * above it (a gap: some are missing), and publishes the cursor, retained, on
  * `<prefix>/<site>/<camera>/ack` after each batch and every `ackRefreshMs`; the site sends again
  * whatever stays unconfirmed. A sample at or below the cursor is a duplicate without looking at
@@ -115,6 +116,8 @@ interface SequenceCursor {
   stream: string;
   /** Every sample numbered 1..seq is held. */
   seq: number;
+  /** The cursor as last saved in the store: acks never say more than this. */
+  saved: number;
   /** Held numbers above seq. */
   readonly above: Set<number>;
   /** Highest number received. */
@@ -244,12 +247,13 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
     if (c === undefined) {
       const saved = store.getSetting(`collector.seq.${cameraId}`) as { stream?: unknown; seq?: unknown } | undefined;
       const seq = saved && saved.stream === m.stream && Number.isSafeInteger(saved.seq) ? (saved.seq as number) : 0;
-      c = { stream: m.stream!, seq, above: new Set(), received: seq, site: m.site, camera: m.camera, unacked: true, unsaved: false };
+      c = { stream: m.stream!, seq, saved: seq, above: new Set(), received: seq, site: m.site, camera: m.camera, unacked: true, unsaved: false };
       cursors.set(cameraId, c);
     } else if (c.stream !== m.stream) {
       log(`collect: ${m.site}/${m.camera} numbers its samples in a new stream ${m.stream} (was ${c.stream}): its database was replaced; confirming from 0`);
       c.stream = m.stream!;
       c.seq = 0;
+      c.saved = 0;
       c.received = 0;
       c.above.clear();
       c.unacked = c.unsaved = true;
@@ -327,6 +331,8 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
         if (c && c.stream === m.stream) hold(c, m.seq);
       }
     });
+    // Saved before it is announced: a collector killed right after an ack still knows what it confirmed.
+    saveCursors();
     publishAcks();
   }
 
@@ -337,7 +343,7 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
     for (const c of cursors.values()) {
       if (!c.unacked && !all) continue;
       c.unacked = false;
-      const ack: AckMessage = { stream: c.stream, seq: c.seq, received: c.received, time };
+      const ack: AckMessage = { stream: c.stream, seq: c.saved, received: c.received, time };
       client.publish(ackTopic(prefix, c.site, c.camera), JSON.stringify(ack), { qos: 1, retain: true }, () => {});
     }
   }
@@ -348,6 +354,7 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
       if (!c.unsaved) continue;
       try {
         store.setSetting(`collector.seq.${id}`, { stream: c.stream, seq: c.seq });
+        c.saved = c.seq;
         c.unsaved = false;
       } catch (error) {
         complain('store', `could not save the sequence cursor of ${id} (${(error as Error).message})`);

@@ -199,6 +199,14 @@ export function createSampleOutbox(store: OutboxStore, options: { replay?: Repla
         scheduleSave();
         return false;
       }
+      if (ack.seq < c.confirmed) {
+        // The collector holds less than it confirmed before (its database was restored from a backup?): send again from there.
+        log(`mqtt: the collector now confirms ${ack.seq} samples of ${camera}, fewer than the ${c.confirmed} before; sending the rest again`);
+        c.confirmed = ack.seq;
+        scheduleSave();
+        startReplay(camera, c, now, 'the collector lost samples');
+        return true;
+      }
       if (c.next - 1 > c.confirmed && c.sentAt !== undefined && now - c.sentAt >= graceMs) {
         startReplay(camera, c, now, 'the collector has not confirmed them');
         return true;
@@ -218,7 +226,9 @@ export function createSampleOutbox(store: OutboxStore, options: { replay?: Repla
     stats() {
       let waiting = 0;
       let unconfirmed = 0;
-      for (const c of cursors.values()) {
+      for (const [camera, c] of cursors) {
+        // Read here, not only with the pages: samples committed since the last page count too.
+        c.last = Math.max(c.last, store.sequenceRange(camera).last);
         waiting += Math.max(0, c.last - c.next + 1);
         if (c.acked) unconfirmed += Math.max(0, c.last - c.confirmed);
       }
