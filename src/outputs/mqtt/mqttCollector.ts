@@ -9,7 +9,7 @@ import type { MqttQos, MqttSettings } from './mqttSettings.ts';
 import type { AckMessage } from './ackMessage.ts';
 import type { CollectorStore } from './collectorStore.ts';
 import { parseSampleMessage, type SampleMessage } from './sampleMessage.ts';
-import { ackTopic, collectorCameraId, collectorFilters, parseTopic, SITE_ID_PATTERN, topicSegment } from './topics.ts';
+import { ackTopic, collectorCameraId, collectorFilters, parseTopic, SITE_ID_PATTERN, stateTopic, topicSegment } from './topics.ts';
 import { ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
 
 /**
@@ -56,6 +56,8 @@ export interface CollectorOptions {
   readonly batchMs?: number;
   /** Every camera's ack is published again this often, ms; default 10 000. */
   readonly ackRefreshMs?: number;
+  /** A site announced offline (its will) whose status is not back `online` within this time gets its zone states set `offline`, ms; default 5000. */
+  readonly offlineGraceMs?: number;
   /** Log lines. Default: none. */
   readonly log?: (line: string) => void;
   /** Reconnection delays; default 1 s doubling to 60 s with full jitter. */
@@ -136,7 +138,8 @@ interface Pending {
 }
 
 export function startCollector(settings: MqttSettings, options: CollectorOptions): Collector {
-  const { store, log = () => {}, backoff, batchSize = 1000, batchMs = 100, ackRefreshMs = 10_000 } = options;
+  const { store, log = () => {}, backoff, batchSize = 1000, batchMs = 100, ackRefreshMs = 10_000, offlineGraceMs = 5000 } = options;
+  const offlineTimers = new Map<string, NodeJS.Timeout>();
   if (!(Number.isInteger(batchSize) && batchSize >= 1 && batchSize <= 100_000)) throw new RangeError(`batchSize: expected a whole number in 1..100000, got ${String(batchSize)}`);
   const prefix = settings.topicPrefix;
   const filters = collectorFilters(prefix);
@@ -421,8 +424,43 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
   function onStatus(site: string, payload: Uint8Array): void {
     if (payload.length === 0) return;
     const m = readJson(payload) as { state?: unknown };
-    if (m.state === 'offline') offlineSites.add(site);
-    else if (m.state === 'online') offlineSites.delete(site);
+    if (m.state === 'offline') {
+      offlineSites.add(site);
+      // After a grace: a site that reconnects at once sends its states itself, and ours must not overwrite them.
+      if (!offlineTimers.has(site)) {
+        const timer = setTimeout(() => {
+          offlineTimers.delete(site);
+          if (offlineSites.has(site)) markSiteOffline(site);
+        }, offlineGraceMs);
+        timer.unref();
+        offlineTimers.set(site, timer);
+      }
+    } else if (m.state === 'online') {
+      offlineSites.delete(site);
+      clearTimeout(offlineTimers.get(site));
+      offlineTimers.delete(site);
+    }
+  }
+
+  /**
+   * A site that died (its will said `offline`) cannot take back its retained zone states, which
+   * would go on showing its last counts to every new subscriber. The collector does it for it: each
+   * zone state it holds of that site that is not `offline` yet is published again, retained, as
+   * `offline` with no value (as the site itself does when it stops). The site sends its real states
+   * again as soon as it is back.
+   */
+  function markSiteOffline(site: string): void {
+    if (!connection.connected) return;
+    const time = new Date().toISOString();
+    for (const entry of cameras.values()) {
+      if (entry.site !== site) continue;
+      for (const [zone, state] of entry.zones) {
+        if (state.state === ZoneStateName.offline) continue;
+        const offline: ZoneStateMessage = { ...state, ...(state.kind === 'shelf' ? { fill: null } : { count: null }), state: ZoneStateName.offline, time };
+        entry.zones.set(zone, offline);
+        client.publish(stateTopic(prefix, site, state.camera, zone), JSON.stringify(offline), { qos: settings.qos, retain: true }, () => {});
+      }
+    }
   }
 
   return {
@@ -464,6 +502,7 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
       if (stopped) return;
       stopped = true;
       clearInterval(housekeeping);
+      for (const timer of offlineTimers.values()) clearTimeout(timer);
       flush();
       saveCursors();
       await connection.stop();

@@ -4,6 +4,8 @@ import type { Sample } from '../../../src/store/index.ts';
 import { mulberry } from '../../helpers/random.ts';
 import { waitUntil } from '../../service/waitUntil.ts';
 import type { TempStore } from '../../store/tempStore.ts';
+import { connect } from 'mqtt';
+import { observe } from './broker.ts';
 import { dayCsv, inventedBatches, samplesOf, SITE, sourceStore, startRig, ZONES, type Rig } from './fixtures.ts';
 
 /**
@@ -161,5 +163,46 @@ describe('publisher → broker → collector', () => {
       [0, 3, 0],
     ]);
     expect(rig.log.some((l) => /conflicts with the stored one/.test(l))).toBe(true);
+  });
+
+  it('a site that dies: its will says offline, and the collector turns its retained zone states offline', async () => {
+    rig = await startRig({ collector: { offlineGraceMs: 300 } });
+    const { broker, collector } = rig;
+    const status = `residuum/${SITE}/status`;
+    const topic = `residuum/${SITE}/door/entrance/state`;
+    // A site of its own (a plain client that never reconnects), with the publisher's will and messages.
+    const site = async (id: string) => {
+      const c = connect(broker.url, { clientId: id, reconnectPeriod: 0, will: { topic: status, payload: Buffer.from(JSON.stringify({ site: SITE, state: 'offline' })), qos: 1, retain: true } });
+      await new Promise<void>((done) => c.once('connect', () => done()));
+      await c.publishAsync(status, JSON.stringify({ site: SITE, state: 'online' }), { qos: 1, retain: true });
+      return c;
+    };
+    const state = { camera: 'door', cameraName: 'Front door', zone: 'entrance', zoneName: 'Entrance', kind: 'room', count: 3, capacity: 10, state: 'below', time: new Date().toISOString() };
+    const first = await site('site-1');
+    await first.publishAsync(topic, JSON.stringify(state), { qos: 1, retain: true });
+    const o = await observe(broker.url, topic);
+    await waitUntil(() => collector.live().length === 1 && collector.live()[0].state === 'online', { what: 'the collector to see the zone', ...wait });
+    broker.cut('site-1');
+    // check: MQTT 3.1.1 §3.1.2.5 — the broker publishes the will when the connection closes without DISCONNECT (recalled from memory)
+    await waitUntil(() => o.bodies(topic).some((b) => (b as { state: string }).state === 'offline'), { what: 'an offline zone state', ...wait });
+    expect(o.bodies(topic).at(-1)).toMatchObject({ camera: 'door', zone: 'entrance', kind: 'room', count: null, capacity: 10, state: 'offline' });
+    expect(collector.live()[0].state).toBe('offline');
+    // Retained: a subscriber that comes later sees the site offline, not its last count.
+    const later = await observe(broker.url, topic);
+    await waitUntil(() => later.messages.length >= 1, { what: 'the retained state', ...wait });
+    expect(later.bodies(topic)[0]).toMatchObject({ state: 'offline', count: null });
+    // A site back within the grace is left alone: no offline state is sent for it.
+    const second = await site('site-2');
+    await second.publishAsync(topic, JSON.stringify(state), { qos: 1, retain: true });
+    await waitUntil(() => (o.bodies(topic).at(-1) as { state: string }).state === 'below', { what: 'the state back', ...wait });
+    broker.cut('site-2');
+    const third = await site('site-3');
+    await third.publishAsync(topic, JSON.stringify(state), { qos: 1, retain: true });
+    await new Promise((done) => setTimeout(done, 800));
+    expect((o.bodies(topic).at(-1) as { state: string }).state).toBe('below');
+    await third.endAsync();
+    for (const x of [o, later]) await x.close();
+    first.end(true);
+    second.end(true);
   });
 });
