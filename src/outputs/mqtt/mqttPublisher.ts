@@ -7,6 +7,7 @@ import { boundedQueue } from './boundedQueue.ts';
 import { connectMqtt, type MqttConnection } from './connectMqtt.ts';
 import type { MqttQos, MqttSettings } from './mqttSettings.ts';
 import { parseAckMessage } from './ackMessage.ts';
+import { discoveryConfig } from './discovery.ts';
 import { sampleMessage } from './sampleMessage.ts';
 import { createSampleOutbox, type OutboxStore, type ReplayTiming, type SampleOutbox } from './sampleOutbox.ts';
 import { ackTopic, eventsTopic, parseTopic, samplesTopic, siteStatusTopic, SITE_ID_PATTERN, stateTopic } from './topics.ts';
@@ -179,6 +180,8 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
       raw(statusTopic, JSON.stringify({ site, state: 'online', time: new Date(clock()).toISOString() }), true);
       const now = clock();
       for (const entry of states.values()) sendState(entry, now);
+      discovered.clear();
+      for (const entry of states.values()) discover(entry.latest);
       if (outbox) {
         outbox.reconnected(now);
         client.subscribe(ackFilter, { qos: 1 }, (error) => {
@@ -207,6 +210,18 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
       }, 1000)
     : undefined;
   ticker?.unref();
+
+  /** Discovery config topics sent on this connection, by state topic. */
+  const discovered = new Map<string, string>();
+  function discover(state: ZoneStateMessage): void {
+    if (!settings.discovery || !connection.connected) return;
+    const key = stateTopic(prefix, site, state.camera, state.zone);
+    const config = discoveryConfig(settings.discoveryPrefix, prefix, site, state);
+    const text = JSON.stringify(config.payload);
+    if (discovered.get(key) === text) return;
+    discovered.set(key, text);
+    raw(config.topic, text, true);
+  }
 
   function raw(topic: string, payload: string, retain: boolean): void {
     client.publish(topic, payload, { qos, retain }, () => {});
@@ -361,6 +376,7 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
           entry.latestKey = stateKey(latest);
         }
         considerState(entry, now);
+        discover(latest);
       }
       for (const old of cameraTopics.get(live.camera) ?? []) {
         if (topics.has(old)) continue;
@@ -368,6 +384,10 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
         if (entry?.timer) clearTimeout(entry.timer);
         states.delete(old);
         if (connection.connected) raw(old, '', true);
+        if (entry && settings.discovery && connection.connected) {
+          raw(discoveryConfig(settings.discoveryPrefix, prefix, site, entry.latest).topic, '', true);
+          discovered.delete(old);
+        }
       }
       cameraTopics.set(live.camera, topics);
     },

@@ -27,6 +27,8 @@ describe('validateMqttSettings', () => {
       stateIntervalSeconds: 1,
       stateRefreshSeconds: 60,
       lowFill: 0.2,
+      discovery: false,
+      discoveryPrefix: 'homeassistant',
     });
   });
 
