@@ -165,6 +165,7 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
   const connection: MqttConnection = connectMqtt(settings, {
     clientId: settings.clientId ?? `residuum-collector-${topicSegment(hostname())}`.slice(0, 64),
     clean: false,
+    ...(settings.sessionExpirySeconds !== undefined && { sessionExpirySeconds: settings.sessionExpirySeconds }),
     ...(backoff && { backoff }),
     log,
     onClose() {

@@ -126,7 +126,7 @@ describe.skipIf(!brokerUp)('collection through the real Mosquitto loses nothing'
     cleanup.push(() => source.cleanup(), () => rmSync(dir, { recursive: true, force: true }));
     cleanup.push(() => cleanUpBroker(SHARED_BROKER.url, prefix, [clientId]));
     const configFile = join(dir, 'collect.yaml');
-    writeFileSync(configFile, `site: { name: Head office, timeZone: Europe/Berlin }\nmqtt: { url: "${SHARED_BROKER.url}", topicPrefix: ${prefix}, clientId: ${clientId} }\n`);
+    writeFileSync(configFile, `site: { name: Head office, timeZone: Europe/Berlin }\nmqtt: { url: "${SHARED_BROKER.url}", topicPrefix: ${prefix}, clientId: ${clientId}, sessionExpirySeconds: 600 }\n`);
     const collector = collectorProcess(configFile, join(dir, 'data'));
     cleanup.push(() => collector.kill('SIGKILL'));
     await collector.start();
