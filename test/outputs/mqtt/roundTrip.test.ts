@@ -5,8 +5,13 @@ import { mulberry } from '../../helpers/random.ts';
 import { waitUntil } from '../../service/waitUntil.ts';
 import type { TempStore } from '../../store/tempStore.ts';
 import { connect } from 'mqtt';
-import { observe } from './broker.ts';
-import { dayCsv, inventedBatches, samplesOf, SITE, sourceStore, startRig, ZONES, type Rig } from './fixtures.ts';
+import { observe, startBroker } from './broker.ts';
+import { createMqttPublisher } from '../../../src/outputs/mqtt/mqttPublisher.ts';
+import { startCollector } from '../../../src/outputs/mqtt/mqttCollector.ts';
+import { sqliteCollectorStore } from '../../../src/outputs/mqtt/collectorStore.ts';
+import { validateMqttSettings } from '../../../src/outputs/mqtt/mqttSettings.ts';
+import { tempStore } from '../../store/tempStore.ts';
+import { dayCsv, FAST, inventedBatches, samplesOf, SITE, sourceStore, startRig, TIME_ZONE, ZONES, type Rig } from './fixtures.ts';
 
 /**
  * Publisher → aedes (an independent MQTT 3.1.1 broker, in process on 127.0.0.1) → collector: the
@@ -204,5 +209,40 @@ describe('publisher → broker → collector', () => {
     for (const x of [o, later]) await x.close();
     first.end(true);
     second.end(true);
+  });
+
+  it('a collector that comes late gets the whole history; what the site pruned before is counted as lost, not waited for', async () => {
+    source = sourceStore();
+    const broker = await startBroker();
+    const target = tempStore({ timeZone: TIME_ZONE });
+    const publisher = createMqttPublisher(validateMqttSettings({ url: broker.url, stateIntervalSeconds: 0 }), { site: SITE, store: source.store, backoff: FAST, replay: { graceMs: 200, afterMs: 1000 } });
+    const collectorSettings = validateMqttSettings({ url: broker.url, clientId: 'late-collector' }, { role: 'collector' });
+    let collector: ReturnType<typeof startCollector> | undefined;
+    try {
+      await waitUntil(() => publisher.stats().connected, { what: 'the publisher to connect', ...wait });
+      const writer = publishingStore(source.store, publisher);
+      const batches = inventedBatches(12);
+      const half = Math.floor(batches.length / 2);
+      // Published while no collector listens: nobody gets them.
+      for (const b of batches.slice(0, half)) writer.insertSamples(b);
+      await waitUntil(() => publisher.stats().queuedSamples === 0 && publisher.stats().inFlight === 0, { what: 'the first half sent', ...wait });
+      // The site's retention removes the oldest of them before any collector confirmed them.
+      const { deleted } = source.store.pruneSamples(Date.UTC(2026, 2, 2, 8, 0));
+      expect(deleted).toBeGreaterThan(100);
+      collector = startCollector(collectorSettings, { store: sqliteCollectorStore(target.store), backoff: FAST });
+      await waitUntil(() => collector!.stats().subscribed, { what: 'the collector to subscribe', ...wait });
+      for (const b of batches.slice(half)) writer.insertSamples(b);
+      // Its first ack (0: it misses 1, 2, …) makes the site send everything from 1 again; the pruned ones are a gap.
+      const remaining = batches.length * ZONES.length - deleted;
+      await waitUntil(() => collector!.stats().samplesStored === remaining && publisher.stats().unconfirmedSamples === 0 && publisher.stats().queuedSamples === 0, { what: `${remaining} samples stored and confirmed`, ...wait });
+      expect(collector.stats()).toMatchObject({ samplesLost: deleted, samplesMissing: 0, conflicts: 0, rejected: 0 });
+      for (const [camera, zone] of ZONES) expect(samplesOf(target.store, `${SITE}--${camera}`, zone, camera)).toEqual(samplesOf(source.store, camera, zone));
+      expect(target.store.listSamples({ camera: `${SITE}--door`, zone: 'entrance' }).length).toBe(source.store.listSamples({ camera: 'door', zone: 'entrance' }).length);
+    } finally {
+      await publisher.stop();
+      await collector?.stop();
+      await broker.close();
+      target.cleanup();
+    }
   });
 });
