@@ -212,3 +212,49 @@ describe.skipIf(!mosquittoInstalled)('collection through a restarted Mosquitto l
     expect(collector.stats()).toMatchObject({ conflicts: 0, rejected: 0, samplesMissing: 0 });
   });
 });
+
+describe.skipIf(!mosquittoInstalled)('collection through bridged Mosquitto brokers loses nothing', () => {
+  it('site broker bridged to a central broker (the README configuration); the central broker restarted meanwhile', { timeout: 300_000 }, async () => {
+    const central: OwnBroker = await ownMosquitto();
+    cleanup.push(() => central.remove());
+    await central.start();
+    const prefix = testPrefix('bridge');
+    // The bridge section of the README, pointed at the central broker of this test.
+    const siteBroker: OwnBroker = await ownMosquitto([
+      'connection central',
+      `address 127.0.0.1:${central.port}`,
+      `remote_clientid bridge-${SITE}-${process.pid}`,
+      'cleansession false',
+      'bridge_protocol_version mqttv311',
+      'restart_timeout 1',
+      `topic ${prefix}/${SITE}/status out 1`,
+      `topic ${prefix}/${SITE}/+/+/state out 1`,
+      `topic ${prefix}/${SITE}/+/+/samples out 1`,
+      `topic ${prefix}/${SITE}/+/events out 1`,
+      `topic ${prefix}/${SITE}/+/ack in 1`,
+    ]);
+    cleanup.push(() => siteBroker.remove());
+    await siteBroker.start();
+    const source = sourceStore();
+    const target = tempStore({ timeZone: 'Europe/Berlin' });
+    cleanup.push(() => source.cleanup(), () => target.cleanup());
+    const collector = startCollector(validateMqttSettings({ url: central.url, topicPrefix: prefix, clientId: 'central-collector' }, { role: 'collector' }), { store: sqliteCollectorStore(target.store), backoff: FAST });
+    cleanup.push(() => collector.stop());
+    await waitUntil(() => collector.stats().subscribed, { what: 'the collector to subscribe', timeoutMs: 20_000, intervalMs: 20 });
+    const publisher = sitePublisher(siteBroker.url, prefix, source);
+    await waitUntil(() => publisher.stats().connected, { what: 'the site to connect', timeoutMs: 20_000, intervalMs: 20 });
+    const batches = plannedBatches(150 * 15);
+    const n = batches.flat().length;
+    const writing = write(publishingStore(source.store, publisher), batches, 150);
+    await new Promise((done) => setTimeout(done, 4000));
+    await central.kill(); // the uplink's far end goes away without saving anything
+    await new Promise((done) => setTimeout(done, 3000));
+    await central.start();
+    await writing;
+    await waitUntil(confirmedAll(publisher), { what: `the collector to confirm all ${n} samples through the bridge`, timeoutMs: 180_000, intervalMs: 100 });
+    await collector.stop();
+    expectExactlyOnce(source.store, target.store, n);
+    expect(collector.stats()).toMatchObject({ conflicts: 0, rejected: 0, samplesMissing: 0 });
+  });
+});
+
