@@ -421,11 +421,12 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
     },
 
     stats() {
+      const box = outbox?.stats();
       return {
         connected: connection.connected,
-        queuedSamples: samples.length + (outbox?.stats().waiting ?? 0),
-        unconfirmedSamples: outbox?.stats().unconfirmed ?? 0,
-        replays: outbox?.stats().replays ?? 0,
+        queuedSamples: samples.length + (box?.waiting ?? 0),
+        unconfirmedSamples: box?.unconfirmed ?? 0,
+        replays: box?.replays ?? 0,
         queuedEvents: events.length,
         inFlight,
         backfillPending: backfill.size,
