@@ -7,7 +7,7 @@ import { checkEpochMs, checkId, checkOneOf } from '../../store/validate.ts';
 import { connectMqtt, type MqttConnection } from './connectMqtt.ts';
 import type { MqttQos, MqttSettings } from './mqttSettings.ts';
 import type { AckMessage } from './ackMessage.ts';
-import type { CollectorStore } from './collectorStore.ts';
+import type { CollectorStore, SampleOutcome } from './collectorStore.ts';
 import { parseSampleMessage, type SampleMessage } from './sampleMessage.ts';
 import { ackTopic, collectorCameraId, collectorFilters, parseTopic, SITE_ID_PATTERN, stateTopic, topicSegment } from './topics.ts';
 import { ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
@@ -309,19 +309,43 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
     }
     const batch = pending;
     pending = [];
-    let outcomes;
+    let outcomes: (SampleOutcome | undefined)[];
     try {
       outcomes = store.storeSamples(batch.map((p) => p.sample));
     } catch (error) {
-      // Nothing of the batch was written (one transaction) and nothing is confirmed: the sites send them again.
-      count.rejected += batch.length;
-      complain('store', `could not store ${batch.length} samples (${(error as Error).message}); they stay unconfirmed`);
-      return;
+      // Nothing of the batch was written (one transaction). A sample the store refuses (RangeError,
+      // TypeError: it names the field) would fail every batch it is in: store them one by one.
+      // Anything else (the database is away) leaves them all unconfirmed: the sites send them again.
+      if (!isRefusal(error)) {
+        count.rejected += batch.length;
+        complain('store', `could not store ${batch.length} samples (${(error as Error).message}); they stay unconfirmed`);
+        return;
+      }
+      outcomes = [];
+      for (const p of batch) {
+        try {
+          outcomes.push(store.storeSamples([p.sample])[0]);
+        } catch (one) {
+          if (!isRefusal(one)) {
+            complain('store', `could not store samples (${(one as Error).message}); they stay unconfirmed`);
+            return;
+          }
+          count.rejected++;
+          complain('refused', `the store refused sample ${p.message.site}/${p.message.id}: ${(one as Error).message}`);
+          outcomes.push(undefined);
+        }
+      }
     }
     count.batches++;
     batch.forEach((p, i) => {
       const o = outcomes[i];
       const m = p.message;
+      // Refused for good (counted and logged above): held, since sending it again cannot change that.
+      if (o === undefined) {
+        const c = cursors.get(p.cameraId);
+        if (m.seq !== undefined && c && c.stream === m.stream) hold(c, m.seq);
+        return;
+      }
       if (o.outcome === 'stored') count.samplesStored++;
       else if (o.outcome === 'duplicate') count.duplicates++;
       else if (o.outcome === 'conflict') {
@@ -509,6 +533,11 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
       await connection.stop();
     },
   };
+}
+
+/** A store's refusal of the data itself (its messages name the field), as opposed to a failure of the database. */
+function isRefusal(error: unknown): boolean {
+  return error instanceof RangeError || error instanceof TypeError;
 }
 
 function readJson(payload: Uint8Array): unknown {

@@ -245,4 +245,50 @@ describe('publisher → broker → collector', () => {
       target.cleanup();
     }
   });
+
+  it('a sample the store refuses is skipped and confirmed (counted, logged); a store that is away leaves the batch unconfirmed until it is back', async () => {
+    source = sourceStore();
+    const broker = await startBroker();
+    const target = tempStore({ timeZone: TIME_ZONE });
+    const real = sqliteCollectorStore(target.store);
+    // Injected faults: the store refuses one value (as it refuses invalid data, naming the field), and is away for a while.
+    let away = false;
+    const faulty = {
+      ...real,
+      storeSamples(batch: readonly Sample[]) {
+        if (away) throw new Error('connection refused (injected)');
+        if (batch.some((x) => x.value === 7.77)) throw new RangeError('sample.value: refused (injected)');
+        return real.storeSamples(batch);
+      },
+    };
+    const log: string[] = [];
+    const collector = startCollector(validateMqttSettings({ url: broker.url, clientId: 'faulty-collector' }, { role: 'collector' }), { store: faulty, backoff: FAST, log: (l) => log.push(l) });
+    const publisher = createMqttPublisher(validateMqttSettings({ url: broker.url, stateIntervalSeconds: 0 }), { site: SITE, store: source.store, backoff: FAST, replay: { graceMs: 200, afterMs: 500, maxMs: 1000 } });
+    try {
+      await waitUntil(() => collector.stats().subscribed && publisher.stats().connected, { what: 'both to connect', ...wait });
+      const writer = publishingStore(source.store, publisher);
+      const batches = inventedBatches(13).slice(0, 60);
+      batches[20] = batches[20].map((x) => (x.zone === 'tables' ? { ...x, value: 7.77 } : x));
+      for (const b of batches.slice(0, 30)) writer.insertSamples(b);
+      await waitUntil(() => collector.stats().samplesStored === 30 * 3 - 1, { what: 'all but the refused sample', ...wait });
+      away = true;
+      for (const b of batches.slice(30)) writer.insertSamples(b);
+      await waitUntil(() => log.some((l) => /could not store \d+ samples \(connection refused/.test(l)), { what: 'the store failing', ...wait });
+      away = false;
+      const n = batches.length * 3;
+      await waitUntil(() => collector.stats().samplesStored === n - 1 && publisher.stats().unconfirmedSamples === 0 && publisher.stats().queuedSamples === 0, { what: `${n - 1} samples stored, all confirmed`, ...wait });
+      expect(collector.stats()).toMatchObject({ samplesMissing: 0, conflicts: 0 });
+      expect(collector.stats().rejected).toBeGreaterThanOrEqual(1);
+      expect(publisher.stats().replays).toBeGreaterThanOrEqual(1);
+      expect(log.some((l) => /the store refused sample riverside\/door\/tables\/\d+: sample\.value: refused/.test(l))).toBe(true);
+      const tables = samplesOf(target.store, `${SITE}--door`, 'tables', 'door');
+      expect(tables.length).toBe(batches.length - 1);
+      expect(tables).toEqual(samplesOf(source.store, 'door', 'tables').filter((x) => x.value !== 7.77));
+    } finally {
+      await publisher.stop();
+      await collector.stop();
+      await broker.close();
+      target.cleanup();
+    }
+  });
 });
