@@ -5,7 +5,11 @@ import { evaluateCommand, evaluateUsage } from './commands/evaluate.ts';
 import { exportCommand, exportUsage } from './commands/export.ts';
 import { learnCommand, learnUsage } from './commands/learn.ts';
 import { runCommand, runUsage } from './commands/run.ts';
+import { readFileSync } from 'node:fs';
 import { UsageError } from './commands/args.ts';
+
+/** The version of this program, from package.json. */
+export const VERSION = (JSON.parse(readFileSync(new URL('../package.json', import.meta.url), 'utf8')) as { version: string }).version;
 
 const commands: Record<string, { run: (argv: string[]) => Promise<number>; usage: string; summary: string }> = {
   learn: { run: learnCommand, usage: learnUsage, summary: 'learn the empty scene from frames with nobody in them' },
@@ -20,7 +24,7 @@ const commands: Record<string, { run: (argv: string[]) => Promise<number>; usage
 const overview = `Residuum counts people per zone of a room, and fill per shelf section, from an ordinary camera,
 without storing any image of people.
 
-Usage: residuum <command> [options]        residuum <command> --help
+Usage: residuum <command> [options]        residuum <command> --help        residuum --version
 
 Commands:
 ${Object.entries(commands).map(([name, c]) => `  ${name.padEnd(8)} ${c.summary}`).join('\n')}
@@ -32,6 +36,10 @@ export async function main(argv: string[]): Promise<number> {
   if (name === undefined || name === 'help' || name === '--help' || name === '-h') {
     process.stdout.write(overview);
     return name === undefined ? 2 : 0;
+  }
+  if (name === '--version' || name === '-V' || name === 'version') {
+    process.stdout.write(`residuum ${VERSION}\n`);
+    return 0;
   }
   const command = commands[name];
   if (!command) {

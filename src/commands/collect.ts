@@ -1,23 +1,29 @@
 import type { Server } from 'node:http';
 import { join, resolve } from 'node:path';
 import { loadCollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
+import { sqliteCollectorStore } from '../outputs/mqtt/collectorStore.ts';
 import { startCollector, type Collector } from '../outputs/mqtt/mqttCollector.ts';
 import { readMqttTls } from '../outputs/mqtt/mqttSettings.ts';
 import { createApp } from '../server/createApp.ts';
 import { prepareTokens, tokenNotice } from '../server/tokens.ts';
-import { openStore } from '../store/index.ts';
+import { openStore, type Store } from '../store/index.ts';
+import { openPostgresStore, redactUrl } from '../store/postgres/openPostgresStore.ts';
+import type { CollectorStore } from '../outputs/mqtt/collectorStore.ts';
+import { createCollectorMetrics } from '../outputs/metrics.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
 
 export { startCollector, type Collector, type CollectorOptions, type CollectorStats } from '../outputs/mqtt/mqttCollector.ts';
 export { loadCollectorConfig, type CollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
+import type { CollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
 
 export const collectUsage = `residuum collect --config <file> [--data <folder>] [--port N] [--reset-token]
 
 Collects the samples, states and events that counting services publish over MQTT, from every
-site under the topic prefix, into one database (<data>/residuum.db), and serves the read-only
-dashboard and JSON API over it. Camera door of site riverside is stored as riverside--door.
+site under the topic prefix, into one database (<data>/residuum.db, or PostgreSQL when the
+configuration has storage.url), confirms to each site what it stored, and serves the read-only
+dashboard, JSON API and /metrics over it. Camera door of site riverside is stored as riverside--door.
   --config  the collector configuration (YAML: site, storage, server, mqtt; no cameras)
-  --data    folder of the database (default ./data)
+  --data    folder of the SQLite database (default ./data; not used with storage.url)
   --port    HTTP port (default: server.port of the configuration, else 8080; 0 = any free port)
   --reset-token  make a new admin key (and view key) and print it once`;
 
@@ -42,7 +48,7 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
   // Validated before the database is opened: a bad file changes nothing.
   const config = loadCollectorConfig(configFile);
   readMqttTls(config.mqtt); // unreadable TLS files fail here, before the database is touched
-  const store = openStore(join(resolve(v.data ?? 'data'), 'residuum.db'), { timeZone: config.site.timeZone });
+  const { store, where } = openCollectorStore(config, v.data);
   let collector: Collector;
   try {
     collector = startCollector(config.mqtt, { store, log });
@@ -57,6 +63,7 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
     });
     if (deleted > 0) log(`retention: deleted ${deleted} samples older than ${config.storage.sampleRetentionDays} days`);
   };
+  const metrics = createCollectorMetrics({ collector: () => collector.stats() });
   let server: Server | undefined;
   let retention: NodeJS.Timeout | undefined;
   try {
@@ -64,7 +71,9 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
     retention = setInterval(prune, 3_600_000);
     retention.unref();
     const app = createApp({
-      store,
+      // The dashboard reads cameras, zones, rollups and settings, which both stores have (CollectorStore).
+      store: store as unknown as Store,
+      metrics,
       live: () => collector.live(),
       siteName: config.site.name,
       timeZone: config.site.timeZone,
@@ -80,8 +89,8 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
     });
     const address = server.address();
     const bound = typeof address === 'object' && address ? address.port : port;
-    log(`collecting from ${new URL(config.mqtt.url).host} under ${config.mqtt.topicPrefix}/; dashboard at http://${config.server.host}:${bound}/`);
-    out.write(tokenNotice(prepareTokens(store, { viewToken: config.server.viewToken, reset: v['reset-token'] === true })));
+    log(`collecting from ${new URL(config.mqtt.url).host} under ${config.mqtt.topicPrefix}/ into ${where}; dashboard at http://${config.server.host}:${bound}/`);
+    out.write(tokenNotice(prepareTokens(store as unknown as Store, { viewToken: config.server.viewToken, reset: v['reset-token'] === true })));
     await (options.until ??
       new Promise<void>((done) => {
         process.once('SIGINT', () => done());
@@ -98,4 +107,14 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
     store.close();
   }
   return 0;
+}
+
+/**
+ * The collector's store: PostgreSQL when the configuration has `storage.url`, else SQLite in
+ * `<data>/residuum.db`. `where` names it for the log (never with a password).
+ */
+export function openCollectorStore(config: CollectorConfig, data: string | undefined): { store: CollectorStore; where: string } {
+  if (config.storageUrl !== undefined) return { store: openPostgresStore(config.storageUrl, { timeZone: config.site.timeZone }), where: redactUrl(config.storageUrl) };
+  const file = join(resolve(data ?? 'data'), 'residuum.db');
+  return { store: sqliteCollectorStore(openStore(file, { timeZone: config.site.timeZone })), where: file };
 }

@@ -1,18 +1,22 @@
 import { createWriteStream, existsSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { once } from 'node:events';
-import { hourlyRows, writeHourlyCsv } from '../outputs/hourlyCsv.ts';
+import { hourlyRows, writeHourlyCsv, type HourlySource } from '../outputs/hourlyCsv.ts';
 import Database from 'better-sqlite3';
 import { openStore } from '../store/index.ts';
+import { loadCollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
+import { openPostgresStore } from '../store/postgres/openPostgresStore.ts';
 import { parseOptions, requireOption, UsageError } from './args.ts';
 
-export const exportUsage = `residuum export [--data <folder> | --db <file>] --from <date> --to <date>
+export const exportUsage = `residuum export [--data <folder> | --db <file> | --config <collector file>] --from <date> --to <date>
                 [--camera <id>] [--zone <id>] [--time-zone <IANA zone>] [--out <file>]
 
 Writes the hourly CSV (RFC 4180, UTF-8, header row) of the stored counts: one row per local hour,
 camera and zone, with hour_start in ISO 8601 local time with UTC offset.
   --data       folder of residuum.db (default ./data)
   --db         the database file itself (instead of --data)
+  --config     a collector's configuration: export from its store (PostgreSQL with storage.url,
+               else the SQLite database in --data)
   --from, --to local dates YYYY-MM-DD (both inclusive) or ISO 8601 times with offset
   --camera     only this camera; --zone only this zone
   --time-zone  the zone for hour buckets (default: the site's, stored by residuum run)
@@ -29,14 +33,22 @@ export async function exportCommand(argv: string[], io = { out: process.stdout }
     zone: { type: 'string' },
     'time-zone': { type: 'string' },
     out: { type: 'string' },
+    config: { type: 'string' },
   });
   if (v.data !== undefined && v.db !== undefined) throw new UsageError('give --data or --db, not both');
+  if (v.config !== undefined && v.db !== undefined) throw new UsageError('give --config or --db, not both');
   const from = requireOption(v.from, 'from', 'first local date (YYYY-MM-DD) or ISO 8601 time');
   const to = requireOption(v.to, 'to', 'last local date (YYYY-MM-DD, inclusive) or ISO 8601 time');
-  const file = v.db ?? join(resolve(v.data ?? 'data'), 'residuum.db');
-  if (!existsSync(file)) throw new UsageError(`${file}: no database there (run residuum run first, or pass --data/--db)`);
-  assertResiduumDatabase(file);
-  const store = openStore(file);
+  const config = v.config === undefined ? undefined : loadCollectorConfig(v.config);
+  let store: HourlySource & { close(): void };
+  if (config?.storageUrl !== undefined) {
+    store = openPostgresStore(config.storageUrl);
+  } else {
+    const file = v.db ?? join(resolve(v.data ?? 'data'), 'residuum.db');
+    if (!existsSync(file)) throw new UsageError(`${file}: no database there (run residuum run first, or pass --data/--db)`);
+    assertResiduumDatabase(file);
+    store = openStore(file);
+  }
   try {
     const rows = hourlyRows(store, {
       from,

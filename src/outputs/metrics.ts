@@ -1,6 +1,7 @@
 import { collectDefaultMetrics, Counter, Gauge, Histogram, Registry } from 'prom-client';
 import type { CameraLive } from '../counting/cameraPipeline.ts';
 import type { WorkerHeap } from '../counting/cameraWorkerProtocol.ts';
+import type { CollectorStats } from './mqtt/mqttCollector.ts';
 import type { MqttPublisherStats } from './mqtt/mqttPublisher.ts';
 
 /**
@@ -10,17 +11,17 @@ import type { MqttPublisherStats } from './mqtt/mqttPublisher.ts';
  *
  * | metric | type | labels | meaning |
  * | --- | --- | --- | --- |
- * | `residuum_zone_count` | gauge | camera, zone | smoothed people (rooms) or items (shelves) |
- * | `residuum_zone_fill` | gauge | camera, zone | smoothed share of the zone covered, 0..1 |
- * | `residuum_zone_capacity` | gauge | camera, zone | configured capacity (zones with one) |
+ * | `residuum_zone_people` | gauge | camera, zone | smoothed people (rooms) or items (shelves) |
+ * | `residuum_zone_fill_ratio` | gauge | camera, zone | smoothed share of the zone covered, 0..1 |
+ * | `residuum_zone_capacity_people` | gauge | camera, zone | configured capacity (zones with one) |
  * | `residuum_camera_up` | gauge | camera | 1 while the camera delivers frames and counts, else 0 |
  * | `residuum_camera_view_changed` | gauge | camera | 1 while the view does not match the learned scene |
  * | `residuum_frames_processed_total` | counter | camera | frames counted |
- * | `residuum_camera_fps` | gauge | camera | frames counted per second over the last `fpsWindowSeconds` (at scrape time) |
+ * | `residuum_camera_frames_per_second` | gauge | camera | frames counted per second over the last `fpsWindowSeconds` (at scrape time) |
  * | `residuum_last_frame_age_seconds` | gauge | camera | now − capture time of the last counted frame (at scrape time; cameras that counted a frame) |
  * | `residuum_source_errors_total` | counter | camera | bad frames and lost connections of the source |
  * | `residuum_stage_seconds` | histogram | stage | processing time per stage (see below) |
- * | `residuum_camera_thread_utilization` | gauge | camera | share of time the camera's worker thread was busy since the previous scrape, 0..1 (with the `threadUtilization` option) |
+ * | `residuum_camera_thread_utilization_ratio` | gauge | camera | share of time the camera's worker thread was busy since the previous scrape, 0..1 (with the `threadUtilization` option) |
  * | `residuum_camera_thread_heap_bytes` | gauge | camera, space | the camera worker's V8 heap at its last heartbeat: `used`, `total` (reserved) and `external` (typed-array buffers and other memory outside the heap) bytes (with the `threadHeap` option) |
  * | `residuum_camera_worker_restarts_total` | counter | camera | the camera's worker thread failed (crashed, exited, hung) and was started again |
  * | `residuum_mqtt_connected`, `residuum_mqtt_queued_samples`, `residuum_mqtt_samples_published_total`, `residuum_mqtt_samples_dropped_total` | | | with the `mqtt` option |
@@ -36,6 +37,11 @@ import type { MqttPublisherStats } from './mqtt/mqttPublisher.ts';
  *
  * Per-zone series disappear when the zone is no longer in the camera's live view. No label ever
  * carries anything but camera, zone and stage ids (letters, digits, `-`, `_`).
+ *
+ * Names follow the Prometheus naming conventions (https://prometheus.io/docs/practices/naming/):
+ * the unit in the name, plural (`_people`, `_seconds`, `_bytes`), `_ratio` for a 0..1 share,
+ * `_total` only on counters; `_count`, `_sum` and `_bucket` belong to histograms and summaries,
+ * so a gauge of people is `residuum_zone_people`, not `…_count`.
  */
 
 export interface MetricsOptions {
@@ -43,7 +49,7 @@ export interface MetricsOptions {
   readonly processMetrics?: boolean;
   /** Clock for frame ages and rates, epoch ms; default Date.now. */
   readonly clock?: () => number;
-  /** Window of `residuum_camera_fps`, seconds, > 0 and ≤ 3600; default 10. */
+  /** Window of `residuum_camera_frames_per_second`, seconds, > 0 and ≤ 3600; default 10. */
   readonly fpsWindowSeconds?: number;
   /** Upper bounds of the stage histogram's buckets, seconds, increasing; default 0.5 ms … 2.5 s. */
   readonly stageBuckets?: readonly number[];
@@ -101,9 +107,9 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
     if (drop > 0) track.arrivals.splice(0, drop);
   };
 
-  const zoneCount = new Gauge({ name: 'residuum_zone_count', help: 'Smoothed people (room zones) or items (shelf zones) in the zone.', labelNames: ['camera', 'zone'] as const, registers });
-  const zoneFill = new Gauge({ name: 'residuum_zone_fill', help: 'Smoothed share of the zone covered by foreground, 0..1.', labelNames: ['camera', 'zone'] as const, registers });
-  const zoneCapacity = new Gauge({ name: 'residuum_zone_capacity', help: 'Configured capacity of the zone (people for rooms).', labelNames: ['camera', 'zone'] as const, registers });
+  const zoneCount = new Gauge({ name: 'residuum_zone_people', help: 'Smoothed people (room zones) or items (shelf zones) in the zone.', labelNames: ['camera', 'zone'] as const, registers });
+  const zoneFill = new Gauge({ name: 'residuum_zone_fill_ratio', help: 'Smoothed share of the zone covered by foreground, 0..1.', labelNames: ['camera', 'zone'] as const, registers });
+  const zoneCapacity = new Gauge({ name: 'residuum_zone_capacity_people', help: 'Configured capacity of the zone (people for rooms).', labelNames: ['camera', 'zone'] as const, registers });
   const cameraUp = new Gauge({ name: 'residuum_camera_up', help: 'Whether the camera delivers frames and counts (1) or not (0: connecting, offline, learning, stopped).', labelNames: ['camera'] as const, registers });
   const viewChanged = new Gauge({ name: 'residuum_camera_view_changed', help: 'Whether the view no longer matches the learned empty scene (1) or does (0).', labelNames: ['camera'] as const, registers });
   const frames = new Counter({ name: 'residuum_frames_processed_total', help: 'Frames counted.', labelNames: ['camera'] as const, registers });
@@ -112,7 +118,7 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
   const restarts = new Counter({ name: 'residuum_camera_worker_restarts_total', help: "Restarts of the camera's worker thread after it crashed, exited or hung.", labelNames: ['camera'] as const, registers });
   if (threadUtilization) {
     new Gauge({
-      name: 'residuum_camera_thread_utilization',
+      name: 'residuum_camera_thread_utilization_ratio',
       help: "Share of time the camera's worker thread was busy (event-loop utilization) since the previous scrape, 0..1.",
       labelNames: ['camera'] as const,
       registers,
@@ -140,7 +146,7 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
     });
   }
   new Gauge({
-    name: 'residuum_camera_fps',
+    name: 'residuum_camera_frames_per_second',
     help: `Frames counted per second, over the last ${fpsWindowSeconds} s.`,
     labelNames: ['camera'] as const,
     registers,
@@ -187,6 +193,10 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
         dropped = Math.max(dropped, now);
       },
     });
+  }
+  if (mqtt) {
+    new Gauge({ name: 'residuum_mqtt_unconfirmed_samples', help: 'Numbered samples a collector has not confirmed yet (they are sent again until it does).', registers, collect() { this.set(mqtt().unconfirmedSamples); } });
+    monotonic('residuum_mqtt_replays_total', 'Times unconfirmed samples were sent to the broker again.', () => mqtt().replays, registers);
   }
   if (processMetrics) collectDefaultMetrics({ register: registry });
 
@@ -246,4 +256,63 @@ export function createMetrics(options: MetricsOptions = {}): Metrics {
     },
     render: () => registry.metrics(),
   };
+}
+
+/** A counter that follows a monotonic figure read at scrape time (it never goes down). */
+function monotonic(name: string, help: string, read: () => number, registers: Registry[]): Counter {
+  let seen = 0;
+  return new Counter({
+    name,
+    help,
+    registers,
+    collect() {
+      const now = read();
+      if (now > seen) this.inc(now - seen);
+      seen = Math.max(seen, now);
+    },
+  });
+}
+
+export interface CollectorMetricsOptions {
+  /** The collector's figures, read at scrape time. */
+  readonly collector: () => CollectorStats;
+  /** Also export prom-client's default process metrics; default true. */
+  readonly processMetrics?: boolean;
+}
+
+/**
+ * Prometheus metrics of `residuum collect` (served at its `/metrics`):
+ *
+ * | metric | type | meaning |
+ * | --- | --- | --- |
+ * | `residuum_collector_mqtt_connected` | gauge | 1 while connected to the broker |
+ * | `residuum_collector_mqtt_subscribed` | gauge | 1 while the broker granted every subscription |
+ * | `residuum_collector_samples_stored_total` | counter | samples written to the central store |
+ * | `residuum_collector_samples_duplicate_total` | counter | samples received again (replays, QoS 1 redelivery): ignored |
+ * | `residuum_collector_samples_conflicting_total` | counter | samples refused: a different stored sample covers their interval |
+ * | `residuum_collector_samples_lost_total` | counter | samples a site no longer held when asked again (pruned there first) |
+ * | `residuum_collector_samples_missing` | gauge | numbered samples not yet received below the highest received (gaps being filled) |
+ * | `residuum_collector_samples_pending` | gauge | received samples waiting for their batch |
+ * | `residuum_collector_batches_total` | counter | batches written (one transaction each) |
+ * | `residuum_collector_messages_rejected_total` | counter | messages that could not be read or stored |
+ * | `residuum_collector_events_stored_total` | counter | events written |
+ */
+export function createCollectorMetrics(options: CollectorMetricsOptions): Metrics {
+  const { collector, processMetrics = true } = options;
+  const registry = new Registry();
+  const registers = [registry];
+  new Gauge({ name: 'residuum_collector_mqtt_connected', help: 'Whether the collector is connected to the broker (1) or not (0).', registers, collect() { this.set(collector().connected ? 1 : 0); } });
+  new Gauge({ name: 'residuum_collector_mqtt_subscribed', help: 'Whether the broker granted every subscription of the collector (1) or not (0).', registers, collect() { this.set(collector().subscribed ? 1 : 0); } });
+  monotonic('residuum_collector_samples_stored_total', 'Samples written to the central store.', () => collector().samplesStored, registers);
+  monotonic('residuum_collector_samples_duplicate_total', 'Samples received again (replays, QoS 1 redelivery) and ignored.', () => collector().duplicates, registers);
+  monotonic('residuum_collector_samples_conflicting_total', 'Samples refused because a different stored sample covers their interval.', () => collector().conflicts, registers);
+  monotonic('residuum_collector_samples_lost_total', 'Samples a site no longer held when they were asked for again.', () => collector().samplesLost, registers);
+  new Gauge({ name: 'residuum_collector_samples_missing', help: 'Numbered samples not received yet below the highest received, over all cameras.', registers, collect() { this.set(collector().samplesMissing); } });
+  new Gauge({ name: 'residuum_collector_samples_pending', help: 'Received samples waiting for their batch to be written.', registers, collect() { this.set(collector().pendingSamples); } });
+  monotonic('residuum_collector_batches_total', 'Batches of samples written, one transaction each.', () => collector().batches, registers);
+  monotonic('residuum_collector_messages_rejected_total', 'Messages that could not be read or stored.', () => collector().rejected, registers);
+  monotonic('residuum_collector_events_stored_total', 'Events written to the central store.', () => collector().eventsStored, registers);
+  if (processMetrics) collectDefaultMetrics({ register: registry });
+  const none = () => {};
+  return { registry, contentType: registry.contentType, observeLive: none, observeStage: none, sourceError: none, workerRestart: none, render: () => registry.metrics() };
 }

@@ -15,6 +15,7 @@ export {
   type SampleStore,
   type StoredSample,
 } from './samples.ts';
+export { type SequencedSample, type SequenceStore } from './sequence.ts';
 export {
   BUCKET_MS,
   MAX_INTERVAL_MS,

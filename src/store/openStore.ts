@@ -9,6 +9,7 @@ import { prepareRetention, type RetentionStore } from './retention.ts';
 import { prepareRollups, prepareRollupWriter, type RollupStore } from './rollups.ts';
 import { prepareSamples, type SampleStore } from './samples.ts';
 import { migrate } from './schema.ts';
+import { prepareSequence, type SequenceStore } from './sequence.ts';
 import { prepareSettings, SettingKey, type SettingStore } from './settings.ts';
 import { checkInt, checkTimeZone } from './validate.ts';
 import { prepareZones, type ZoneStore } from './zones.ts';
@@ -28,7 +29,7 @@ export interface OpenStoreOptions {
 
 /** An open store: every table's methods, statements prepared once at open. */
 export interface Store
-  extends CameraStore, ZoneStore, SampleStore, RollupStore, EventStore, ModelStore, SettingStore, RetentionStore, CalibrationStore {
+  extends CameraStore, ZoneStore, SampleStore, SequenceStore, RollupStore, EventStore, ModelStore, SettingStore, RetentionStore, CalibrationStore {
   /** The database file. */
   readonly file: string;
   /** The site's IANA zone this store was opened with. */
@@ -100,6 +101,7 @@ export function openStore(file: string, options: OpenStoreOptions = {}): Store {
       ...prepareCameras(db, clock),
       ...prepareZones(db, clock),
       ...prepareSamples(db, prepareRollupWriter(db)),
+      ...prepareSequence(db),
       ...prepareRollups(db, retention.samplesPrunedBefore),
       ...prepareEvents(db, clock),
       ...prepareModels(db, clock),

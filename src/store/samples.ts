@@ -132,9 +132,11 @@ export function prepareSamples(db: Database.Database, rollups: RollupWriter): Sa
       AND time - interval_ms < @end
     LIMIT 1
   `);
+  // Sequence numbers (schema version 3): per camera, in commit order, never reused (see sequence.ts).
+  const nextSeq = db.prepare('UPDATE cameras SET sample_seq = sample_seq + 1 WHERE id = ? RETURNING sample_seq AS seq');
   const insert = db.prepare(`
-    INSERT INTO samples (camera, zone, time, interval_ms, value, kind, quality)
-    VALUES (@camera, @zone, @time, @intervalMs, @value, @kind, @quality)
+    INSERT INTO samples (camera, zone, time, interval_ms, value, kind, quality, seq)
+    VALUES (@camera, @zone, @time, @intervalMs, @value, @kind, @quality, @seq)
   `);
   const list = db.prepare(`
     SELECT camera, zone, time, interval_ms, value, kind, quality FROM samples
@@ -168,7 +170,8 @@ export function prepareSamples(db: Database.Database, rollups: RollupWriter): Sa
           `[${new Date(clash.time - clash.interval_ms).toISOString()}, ${new Date(clash.time).toISOString()})`,
       );
     }
-    insert.run(s);
+    const { seq } = nextSeq.get(s.camera) as { seq: number };
+    insert.run({ ...s, seq });
     rollups.add(s);
   }
 

@@ -138,6 +138,17 @@ export const migrations: readonly Migration[] = [
   },
   {
     version: 3,
+    description: 'samples: per-camera sequence numbers (seq), so that a collector can confirm what it holds; cameras.sample_seq: the last one given',
+    up: `
+      -- The last sequence number given to a sample of the camera (kept when samples are pruned).
+      ALTER TABLE cameras ADD COLUMN sample_seq INTEGER NOT NULL DEFAULT 0;
+      -- 1, 2, 3 … per camera in commit order; NULL for samples stored before this version.
+      ALTER TABLE samples ADD COLUMN seq INTEGER;
+      CREATE UNIQUE INDEX samples_by_seq ON samples (camera, seq) WHERE seq IS NOT NULL;
+    `,
+  },
+  {
+    version: 4,
     description: 'calibration points: people counted by hand in a room zone, with the numbers the camera measured then',
     up: `
       -- "There are N people in this zone now": the count given and the zone's count features at

@@ -112,22 +112,22 @@ describe('createMetrics', () => {
     expect(m.contentType).toMatch(/^text\/plain; version=0\.0\.4/);
     const e = parseExposition(await m.render());
 
-    expect(e.types.get('residuum_zone_count')).toBe('gauge');
+    expect(e.types.get('residuum_zone_people')).toBe('gauge');
     expect(e.types.get('residuum_frames_processed_total')).toBe('counter');
     expect(e.types.get('residuum_stage_seconds')).toBe('histogram');
     expect(e.types.get('residuum_source_errors_total')).toBe('counter');
     for (const name of e.types.keys()) expect(e.help.get(name)?.length).toBeGreaterThan(0);
 
-    expect(valueOf(e, 'residuum_zone_count', { camera: 'door', zone: 'entrance' })).toBe(2.5);
-    expect(valueOf(e, 'residuum_zone_count', { camera: 'door', zone: 'returns' })).toBe(3);
-    expect(valueOf(e, 'residuum_zone_fill', { camera: 'door', zone: 'returns' })).toBe(0.42);
-    expect(valueOf(e, 'residuum_zone_capacity', { camera: 'door', zone: 'entrance' })).toBe(10);
-    expect(valueOf(e, 'residuum_zone_capacity', { camera: 'door', zone: 'returns' })).toBeUndefined();
+    expect(valueOf(e, 'residuum_zone_people', { camera: 'door', zone: 'entrance' })).toBe(2.5);
+    expect(valueOf(e, 'residuum_zone_people', { camera: 'door', zone: 'returns' })).toBe(3);
+    expect(valueOf(e, 'residuum_zone_fill_ratio', { camera: 'door', zone: 'returns' })).toBe(0.42);
+    expect(valueOf(e, 'residuum_zone_capacity_people', { camera: 'door', zone: 'entrance' })).toBe(10);
+    expect(valueOf(e, 'residuum_zone_capacity_people', { camera: 'door', zone: 'returns' })).toBeUndefined();
     expect(valueOf(e, 'residuum_camera_up', { camera: 'door' })).toBe(1);
     expect(valueOf(e, 'residuum_camera_view_changed', { camera: 'door' })).toBe(1);
     expect(valueOf(e, 'residuum_frames_processed_total', { camera: 'door' })).toBe(20);
     // 20 frames counted within the last 10 s of the scrape.
-    expect(valueOf(e, 'residuum_camera_fps', { camera: 'door' })).toBe(2);
+    expect(valueOf(e, 'residuum_camera_frames_per_second', { camera: 'door' })).toBe(2);
     // Last frame captured at (T + 3800 − 500); scraped at T + 5300: 2 s.
     expect(valueOf(e, 'residuum_last_frame_age_seconds', { camera: 'door' })).toBe(2);
     expect(valueOf(e, 'residuum_source_errors_total', { camera: 'door' })).toBe(3);
@@ -153,7 +153,7 @@ describe('createMetrics', () => {
     m.observeLive(live(undefined, { camera: 'hall', state: 'learning', zones: [] }));
     now = T + 11_000;
     let e = parseExposition(await m.render());
-    expect(valueOf(e, 'residuum_camera_fps', { camera: 'door' })).toBe(0);
+    expect(valueOf(e, 'residuum_camera_frames_per_second', { camera: 'door' })).toBe(0);
     expect(valueOf(e, 'residuum_last_frame_age_seconds', { camera: 'door' })).toBe(11);
     // A camera that counted nothing yet: no age, counters at 0, not up.
     expect(valueOf(e, 'residuum_last_frame_age_seconds', { camera: 'hall' })).toBeUndefined();
@@ -163,15 +163,15 @@ describe('createMetrics', () => {
 
     m.observeLive(live(T + 11_000, { zones: [{ id: 'entrance', name: 'Entrance', kind: 'room', count: 1, fill: 0.01 }] }));
     e = parseExposition(await m.render());
-    expect(valueOf(e, 'residuum_zone_count', { camera: 'door', zone: 'entrance' })).toBe(1);
-    expect(valueOf(e, 'residuum_zone_count', { camera: 'door', zone: 'returns' })).toBeUndefined();
-    expect(valueOf(e, 'residuum_zone_fill', { camera: 'door', zone: 'returns' })).toBeUndefined();
-    expect(valueOf(e, 'residuum_zone_capacity', { camera: 'door', zone: 'entrance' })).toBeUndefined();
+    expect(valueOf(e, 'residuum_zone_people', { camera: 'door', zone: 'entrance' })).toBe(1);
+    expect(valueOf(e, 'residuum_zone_people', { camera: 'door', zone: 'returns' })).toBeUndefined();
+    expect(valueOf(e, 'residuum_zone_fill_ratio', { camera: 'door', zone: 'returns' })).toBeUndefined();
+    expect(valueOf(e, 'residuum_zone_capacity_people', { camera: 'door', zone: 'entrance' })).toBeUndefined();
     expect(valueOf(e, 'residuum_frames_processed_total', { camera: 'door' })).toBe(2);
   });
 
   it('reads the MQTT publisher figures at scrape time; counters never go down', async () => {
-    let stats: MqttPublisherStats = { connected: true, queuedSamples: 0, queuedEvents: 0, inFlight: 0, samplesPublished: 5, samplesDropped: 0, samplesBackfilled: 0, backfillPending: 0, eventsPublished: 0, eventsDropped: 0, statesPublished: 0 };
+    let stats: MqttPublisherStats = { connected: true, queuedSamples: 0, queuedEvents: 0, inFlight: 0, samplesPublished: 5, samplesDropped: 0, samplesBackfilled: 0, backfillPending: 0, eventsPublished: 0, eventsDropped: 0, statesPublished: 0, unconfirmedSamples: 0, replays: 0 };
     const m = createMetrics({ processMetrics: false, mqtt: () => stats });
     let e = parseExposition(await m.render());
     expect(valueOf(e, 'residuum_mqtt_connected')).toBe(1);
@@ -209,15 +209,15 @@ describe('createMetrics: camera worker threads', () => {
     expect(valueOf(e, 'residuum_camera_worker_restarts_total', { camera: 'door' })).toBe(0);
     expect(valueOf(e, 'residuum_camera_worker_restarts_total', { camera: 'hall' })).toBe(2);
     expect(e.types.get('residuum_camera_worker_restarts_total')).toBe('counter');
-    expect(e.types.get('residuum_camera_thread_utilization')).toBe('gauge');
-    expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'door' })).toBe(0.25);
+    expect(e.types.get('residuum_camera_thread_utilization_ratio')).toBe('gauge');
+    expect(valueOf(e, 'residuum_camera_thread_utilization_ratio', { camera: 'door' })).toBe(0.25);
     // A share of time: clamped to 0..1.
-    expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'hall' })).toBe(1);
+    expect(valueOf(e, 'residuum_camera_thread_utilization_ratio', { camera: 'hall' })).toBe(1);
     // A camera no longer reported leaves the gauge.
     busy = [['door', 0.5]];
     e = parseExposition(await m.render());
-    expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'door' })).toBe(0.5);
-    expect(valueOf(e, 'residuum_camera_thread_utilization', { camera: 'hall' })).toBeUndefined();
+    expect(valueOf(e, 'residuum_camera_thread_utilization_ratio', { camera: 'door' })).toBe(0.5);
+    expect(valueOf(e, 'residuum_camera_thread_utilization_ratio', { camera: 'hall' })).toBeUndefined();
   });
 
   it('exports each worker heap at scrape time, by space, and leaves out cameras without one', async () => {
@@ -232,7 +232,7 @@ describe('createMetrics: camera worker threads', () => {
 
   it('has no utilization metric without the option', async () => {
     const e = parseExposition(await createMetrics({ processMetrics: false }).render());
-    expect(e.types.has('residuum_camera_thread_utilization')).toBe(false);
+    expect(e.types.has('residuum_camera_thread_utilization_ratio')).toBe(false);
     expect(e.types.has('residuum_camera_thread_heap_bytes')).toBe(false);
     expect(e.types.get('residuum_camera_worker_restarts_total')).toBe('counter');
   });

@@ -45,7 +45,7 @@ describe('the service with MQTT and metrics', () => {
       expect(metrics.headers.get('content-type')).toMatch(/^text\/plain/);
       const text = await metrics.text();
       // check: Prometheus text exposition format (metric{labels} value lines)
-      expect(text).toMatch(/^residuum_zone_count\{[^}]*camera="reading-room"[^}]*zone="tables"[^}]*\} \d+(\.\d+)?$/m);
+      expect(text).toMatch(/^residuum_zone_people\{[^}]*camera="reading-room"[^}]*zone="tables"[^}]*\} \d+(\.\d+)?$/m);
     } finally {
       subscriber.end(true);
       await service.stop();

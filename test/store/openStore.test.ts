@@ -19,7 +19,7 @@ describe('openStore', () => {
   afterEach(() => t.cleanup());
 
   it('migrates an empty file to the current schema version with all tables', () => {
-    expect(SCHEMA_VERSION).toBe(3);
+    expect(SCHEMA_VERSION).toBe(4);
     expect(t.store.db.pragma('user_version', { simple: true })).toBe(SCHEMA_VERSION);
     expect(tableNames(t.store.db)).toEqual(TABLES);
   });

@@ -15,6 +15,13 @@ export interface ConnectMqttOptions {
   readonly clientId: string;
   /** Clean session (MQTT 3.1.1 §3.1.2.4): true forgets subscriptions and queued messages on disconnect; default true. */
   readonly clean?: boolean;
+  /**
+   * With `clean: false`: connect with MQTT 5 and ask the broker to keep the session (subscriptions,
+   * queued QoS ≥ 1 messages) this many seconds after the connection ends (Session Expiry
+   * Interval, MQTT 5.0 §3.1.2.11.2; clean start off). Default: MQTT 3.1.1, where a persistent
+   * session is kept until the broker's own limit (Mosquitto: persistent_client_expiration).
+   */
+  readonly sessionExpirySeconds?: number;
   readonly will?: MqttWill;
   /** Reconnection delays; default 1 s doubling to 60 s with full jitter (see backoff.ts). */
   readonly backoff?: BackoffOptions;
@@ -49,7 +56,7 @@ export interface MqttConnection {
  * delivery retry). Credentials go only into the CONNECT packet, never into a log line.
  */
 export function connectMqtt(settings: MqttSettings, options: ConnectMqttOptions): MqttConnection {
-  const { clientId, clean = true, will, backoff = {}, connectTimeoutSeconds = 30, onConnect, onClose, log = () => {} } = options;
+  const { clientId, clean = true, sessionExpirySeconds, will, backoff = {}, connectTimeoutSeconds = 30, onConnect, onClose, log = () => {} } = options;
   const tls = readMqttTls(settings);
   const host = new URL(settings.url).host;
   const incomingStore = new Store();
@@ -58,7 +65,7 @@ export function connectMqtt(settings: MqttSettings, options: ConnectMqttOptions)
   const clientOptions: IClientOptions = {
     clientId,
     clean,
-    protocolVersion: 4,
+    ...(sessionExpirySeconds !== undefined && !clean ? { protocolVersion: 5, properties: { sessionExpiryInterval: sessionExpirySeconds } } : { protocolVersion: 4 }),
     reconnectPeriod: 0,
     connectTimeout: connectTimeoutSeconds * 1000,
     incomingStore,

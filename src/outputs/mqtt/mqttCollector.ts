@@ -2,12 +2,14 @@ import { hostname } from 'node:os';
 import type { CameraLive, ZoneLive } from '../../counting/cameraPipeline.ts';
 import type { Zone, ZoneKind } from '../../counting/zone.ts';
 import type { BackoffOptions } from '../../frames/live/backoff.ts';
-import { EventType, MAX_INTERVAL_MS, type Sample, type StoredSample, type Store } from '../../store/index.ts';
+import { EventType, type Sample } from '../../store/index.ts';
 import { checkEpochMs, checkId, checkOneOf } from '../../store/validate.ts';
 import { connectMqtt, type MqttConnection } from './connectMqtt.ts';
 import type { MqttQos, MqttSettings } from './mqttSettings.ts';
+import type { AckMessage } from './ackMessage.ts';
+import type { CollectorStore, SampleOutcome } from './collectorStore.ts';
 import { parseSampleMessage, type SampleMessage } from './sampleMessage.ts';
-import { collectorCameraId, collectorFilters, parseTopic, SITE_ID_PATTERN, topicSegment } from './topics.ts';
+import { ackTopic, collectorCameraId, collectorFilters, parseTopic, SITE_ID_PATTERN, stateTopic, topicSegment } from './topics.ts';
 import { ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
 
 /**
@@ -30,13 +32,32 @@ import { ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
  * An older sample that overlaps nothing is simply inserted: order does not matter, and the
  * rollups (exact integer sums) come out the same in any order.
  *
+ * Samples are written in batches (up to `batchSize`, at most `batchMs` after the first one
+ * arrived), one transaction each. Confirmation: a sample with a sequence number (`seq`, `stream`;
+ * see sampleOutbox.ts) counts as held once its batch is committed, stored or found already
+ * stored. Per camera and stream the collector keeps the highest number up to which it holds every
+ * sample (its cursor, saved in the settings as `collector.seq.<camera id>` after each batch and
+ * before any ack announces it) and the numbers it holds
+ * above it (a gap: some are missing), and publishes the cursor, retained, on
+ * `<prefix>/<site>/<camera>/ack` after each batch and every `ackRefreshMs`; the site sends again
+ * whatever stays unconfirmed. A sample at or below the cursor is a duplicate without looking at
+ * the database.
+ *
  * Session: the collector connects with a fixed client id and clean session off (MQTT 3.1.1
  * §3.1.2.4), so the broker keeps its subscriptions and queues QoS 1 and 2 messages while it is
  * away; it subscribes again on every connection in case the broker lost the session.
  */
 
 export interface CollectorOptions {
-  readonly store: Store;
+  readonly store: CollectorStore;
+  /** Most samples written in one transaction, 1..100 000; default 1000. */
+  readonly batchSize?: number;
+  /** Longest a received sample waits for its batch to be written, ms; default 100. */
+  readonly batchMs?: number;
+  /** Every camera's ack is published again this often, ms; default 10 000. */
+  readonly ackRefreshMs?: number;
+  /** A site announced offline (its will) whose status is not back `online` within this time gets its zone states set `offline`, ms; default 5000. */
+  readonly offlineGraceMs?: number;
   /** Log lines. Default: none. */
   readonly log?: (line: string) => void;
   /** Reconnection delays; default 1 s doubling to 60 s with full jitter. */
@@ -59,6 +80,14 @@ export interface CollectorStats {
   readonly eventDuplicates: number;
   /** State messages received. */
   readonly states: number;
+  /** Batches written. */
+  readonly batches: number;
+  /** Samples the sites said they no longer hold (pruned before a collector confirmed them). */
+  readonly samplesLost: number;
+  /** Over all cameras: numbered samples missing below the highest one received (a gap waiting to be filled). */
+  readonly samplesMissing: number;
+  /** Samples received and not yet written. */
+  readonly pendingSamples: number;
 }
 
 export interface Collector {
@@ -85,15 +114,44 @@ interface CollectedCamera {
 }
 
 /** Connects, subscribes and stores what arrives until `stop()`. */
+interface SequenceCursor {
+  stream: string;
+  /** Every sample numbered 1..seq is held. */
+  seq: number;
+  /** The cursor as last saved in the store: acks never say more than this. */
+  saved: number;
+  /** Held numbers above seq. */
+  readonly above: Set<number>;
+  /** Highest number received. */
+  received: number;
+  site: string;
+  camera: string;
+  /** Changed since the last ack / since it was last saved. */
+  unacked: boolean;
+  unsaved: boolean;
+}
+
+interface Pending {
+  readonly sample: Sample;
+  readonly message: SampleMessage;
+  readonly cameraId: string;
+}
+
 export function startCollector(settings: MqttSettings, options: CollectorOptions): Collector {
-  const { store, log = () => {}, backoff } = options;
+  const { store, log = () => {}, backoff, batchSize = 1000, batchMs = 100, ackRefreshMs = 10_000, offlineGraceMs = 5000 } = options;
+  const offlineTimers = new Map<string, NodeJS.Timeout>();
+  if (!(Number.isInteger(batchSize) && batchSize >= 1 && batchSize <= 100_000)) throw new RangeError(`batchSize: expected a whole number in 1..100000, got ${String(batchSize)}`);
   const prefix = settings.topicPrefix;
   const filters = collectorFilters(prefix);
   const sampleQos: MqttQos = settings.qos === 0 ? 1 : settings.qos;
   const known = new Set<string>();
   const cameras = new Map<string, CollectedCamera>();
   const offlineSites = new Set<string>();
-  const count = { samplesStored: 0, duplicates: 0, conflicts: 0, rejected: 0, eventsStored: 0, eventDuplicates: 0, states: 0 };
+  const count = { samplesStored: 0, duplicates: 0, conflicts: 0, rejected: 0, eventsStored: 0, eventDuplicates: 0, states: 0, batches: 0, samplesLost: 0 };
+  const cursors = new Map<string, SequenceCursor>();
+  let pending: Pending[] = [];
+  let flushTimer: NodeJS.Timeout | undefined;
+  let stopped = false;
   const complaints = new Map<string, number>();
   let subscribed = false;
 
@@ -107,6 +165,7 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
   const connection: MqttConnection = connectMqtt(settings, {
     clientId: settings.clientId ?? `residuum-collector-${topicSegment(hostname())}`.slice(0, 64),
     clean: false,
+    ...(settings.sessionExpirySeconds !== undefined && { sessionExpirySeconds: settings.sessionExpirySeconds }),
     ...(backoff && { backoff }),
     log,
     onClose() {
@@ -114,6 +173,8 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
     },
     onConnect() {
       subscribed = false;
+      for (const c of cursors.values()) c.unacked = true;
+      publishAcks();
       client.subscribe(
         { [filters.samples]: { qos: sampleQos }, [filters.state]: { qos: settings.qos }, [filters.events]: { qos: settings.qos }, [filters.status]: { qos: settings.qos } },
         (error, granted) => {
@@ -184,30 +245,155 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
     return { ...(name !== undefined && name !== state.zone && { name }), ...(capacity !== undefined && { capacity }) };
   }
 
-  function onSample(m: SampleMessage): void {
-    const camera = ensureZone(m.site, m.camera, m.zone, m.zoneKind, m.zoneCreated ?? m.time - m.intervalMs);
-    const sample: Sample = { time: m.time, camera, zone: m.zone, value: m.value, kind: m.kind, intervalMs: m.intervalMs, quality: m.quality };
-    const clash = overlapping(sample);
-    if (clash !== undefined) {
-      if (clash.time === sample.time && clash.intervalMs === sample.intervalMs && clash.value === sample.value && clash.kind === sample.kind && clash.quality === sample.quality) {
-        count.duplicates++;
-        return;
-      }
-      count.conflicts++;
-      complain('conflict', `sample ${m.site}/${m.id} (value ${m.value} over ${m.intervalMs} ms) conflicts with the stored one ending ${new Date(clash.time).toISOString()} (value ${clash.value} over ${clash.intervalMs} ms); kept the stored one`);
-      return;
+  /** The camera's sequence cursor for the message's stream (a new stream starts over at 0). */
+  function cursorOf(cameraId: string, m: SampleMessage): SequenceCursor {
+    let c = cursors.get(cameraId);
+    if (c === undefined) {
+      const saved = store.getSetting(`collector.seq.${cameraId}`) as { stream?: unknown; seq?: unknown } | undefined;
+      const seq = saved && saved.stream === m.stream && Number.isSafeInteger(saved.seq) ? (saved.seq as number) : 0;
+      c = { stream: m.stream!, seq, saved: seq, above: new Set(), received: seq, site: m.site, camera: m.camera, unacked: true, unsaved: false };
+      cursors.set(cameraId, c);
+    } else if (c.stream !== m.stream) {
+      log(`collect: ${m.site}/${m.camera} numbers its samples in a new stream ${m.stream} (was ${c.stream}): its database was replaced; confirming from 0`);
+      c.stream = m.stream!;
+      c.seq = 0;
+      c.saved = 0;
+      c.received = 0;
+      c.above.clear();
+      c.unacked = c.unsaved = true;
     }
-    store.insertSample(sample);
-    count.samplesStored++;
+    return c;
   }
 
-  /** A stored sample of the zone whose interval overlaps the sample's (the one with the same end first), if any. */
-  function overlapping(s: Sample): StoredSample | undefined {
-    const start = s.time - s.intervalMs;
-    // A stored [t − i, t) overlaps [start, s.time) iff t > start and t − i < s.time; i ≤ MAX_INTERVAL_MS bounds t.
-    const near = store.listSamples({ camera: s.camera, zone: s.zone, from: start + 1, to: s.time + MAX_INTERVAL_MS });
-    return near.find((x) => x.time === s.time) ?? near.find((x) => x.time - x.intervalMs < s.time);
+  /** Marks `seq` as held and moves the cursor over every contiguous held number. */
+  function hold(c: SequenceCursor, seq: number): void {
+    if (seq <= c.seq) return;
+    c.above.add(seq);
+    while (c.above.delete(c.seq + 1)) c.seq++;
+    c.unacked = c.unsaved = true;
   }
+
+  function onSample(m: SampleMessage): void {
+    const camera = ensureZone(m.site, m.camera, m.zone, m.zoneKind, m.zoneCreated ?? m.time - m.intervalMs);
+    if (m.seq !== undefined) {
+      const c = cursorOf(camera, m);
+      c.received = Math.max(c.received, m.seq);
+      if (m.gap && m.gap[0] <= c.seq + 1 && m.gap[1] > c.seq) {
+        // The site no longer has these: they cannot come. Counted, logged, and not waited for.
+        const lost = m.gap[1] - c.seq - [...c.above].filter((n) => n <= m.gap![1]).length;
+        count.samplesLost += lost;
+        complain('lost', `${m.site}/${m.camera}: the site no longer holds samples ${c.seq + 1}..${m.gap[1]} (pruned before they were confirmed); ${lost} not collected`);
+        for (let n = c.seq + 1; n <= m.gap[1]; n++) c.above.add(n);
+        hold(c, m.gap[1]);
+      }
+      if (m.seq <= c.seq || c.above.has(m.seq)) {
+        count.duplicates++;
+        c.unacked = true;
+        if (flushTimer === undefined) flushTimer = setTimeout(flush, batchMs);
+        return;
+      }
+    }
+    const sample: Sample = { time: m.time, camera, zone: m.zone, value: m.value, kind: m.kind, intervalMs: m.intervalMs, quality: m.quality };
+    pending.push({ sample, message: m, cameraId: camera });
+    if (pending.length >= batchSize) flush();
+    else if (flushTimer === undefined) flushTimer = setTimeout(flush, batchMs);
+  }
+
+  /** Writes the pending samples in one transaction, then confirms them. */
+  function flush(): void {
+    if (flushTimer) clearTimeout(flushTimer);
+    flushTimer = undefined;
+    if (pending.length === 0) {
+      publishAcks();
+      return;
+    }
+    const batch = pending;
+    pending = [];
+    let outcomes: (SampleOutcome | undefined)[];
+    try {
+      outcomes = store.storeSamples(batch.map((p) => p.sample));
+    } catch (error) {
+      // Nothing of the batch was written (one transaction). A sample the store refuses (RangeError,
+      // TypeError: it names the field) would fail every batch it is in: store them one by one.
+      // Anything else (the database is away) leaves them all unconfirmed: the sites send them again.
+      if (!isRefusal(error)) {
+        count.rejected += batch.length;
+        complain('store', `could not store ${batch.length} samples (${(error as Error).message}); they stay unconfirmed`);
+        return;
+      }
+      outcomes = [];
+      for (const p of batch) {
+        try {
+          outcomes.push(store.storeSamples([p.sample])[0]);
+        } catch (one) {
+          if (!isRefusal(one)) {
+            complain('store', `could not store samples (${(one as Error).message}); they stay unconfirmed`);
+            return;
+          }
+          count.rejected++;
+          complain('refused', `the store refused sample ${p.message.site}/${p.message.id}: ${(one as Error).message}`);
+          outcomes.push(undefined);
+        }
+      }
+    }
+    count.batches++;
+    batch.forEach((p, i) => {
+      const o = outcomes[i];
+      const m = p.message;
+      // Refused for good (counted and logged above): held, since sending it again cannot change that.
+      if (o === undefined) {
+        const c = cursors.get(p.cameraId);
+        if (m.seq !== undefined && c && c.stream === m.stream) hold(c, m.seq);
+        return;
+      }
+      if (o.outcome === 'stored') count.samplesStored++;
+      else if (o.outcome === 'duplicate') count.duplicates++;
+      else if (o.outcome === 'conflict') {
+        count.conflicts++;
+        const clash = o.stored;
+        complain('conflict', `sample ${m.site}/${m.id} (value ${m.value} over ${m.intervalMs} ms) conflicts with the stored one ending ${new Date(clash.time).toISOString()} (value ${clash.value} over ${clash.intervalMs} ms); kept the stored one`);
+      }
+      // A conflict is held too: the central store keeps the sample it had, and asking again would not change that.
+      if (m.seq !== undefined) {
+        const c = cursors.get(p.cameraId);
+        if (c && c.stream === m.stream) hold(c, m.seq);
+      }
+    });
+    // Saved before it is announced: a collector killed right after an ack still knows what it confirmed.
+    saveCursors();
+    publishAcks();
+  }
+
+  /** Publishes the cursor of every camera that changed (all of them with `all`), retained. */
+  function publishAcks(all = false): void {
+    if (!connection.connected) return;
+    const time = new Date().toISOString();
+    for (const c of cursors.values()) {
+      if (!c.unacked && !all) continue;
+      c.unacked = false;
+      const ack: AckMessage = { stream: c.stream, seq: c.saved, received: c.received, time };
+      client.publish(ackTopic(prefix, c.site, c.camera), JSON.stringify(ack), { qos: 1, retain: true }, () => {});
+    }
+  }
+
+  /** Remembers the cursors, so that a restarted collector does not ask for everything again. */
+  function saveCursors(): void {
+    for (const [id, c] of cursors) {
+      if (!c.unsaved) continue;
+      try {
+        store.setSetting(`collector.seq.${id}`, { stream: c.stream, seq: c.seq });
+        c.saved = c.seq;
+        c.unsaved = false;
+      } catch (error) {
+        complain('store', `could not save the sequence cursor of ${id} (${(error as Error).message})`);
+      }
+    }
+  }
+  const housekeeping = setInterval(() => {
+    saveCursors();
+    publishAcks(true);
+  }, ackRefreshMs);
+  housekeeping.unref();
 
   function onState(site: string, camera: string, zone: string, payload: Uint8Array): void {
     const id = collectorCameraId(site, checkId(camera, 'topic camera'));
@@ -263,8 +449,43 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
   function onStatus(site: string, payload: Uint8Array): void {
     if (payload.length === 0) return;
     const m = readJson(payload) as { state?: unknown };
-    if (m.state === 'offline') offlineSites.add(site);
-    else if (m.state === 'online') offlineSites.delete(site);
+    if (m.state === 'offline') {
+      offlineSites.add(site);
+      // After a grace: a site that reconnects at once sends its states itself, and ours must not overwrite them.
+      if (!offlineTimers.has(site)) {
+        const timer = setTimeout(() => {
+          offlineTimers.delete(site);
+          if (offlineSites.has(site)) markSiteOffline(site);
+        }, offlineGraceMs);
+        timer.unref();
+        offlineTimers.set(site, timer);
+      }
+    } else if (m.state === 'online') {
+      offlineSites.delete(site);
+      clearTimeout(offlineTimers.get(site));
+      offlineTimers.delete(site);
+    }
+  }
+
+  /**
+   * A site that died (its will said `offline`) cannot take back its retained zone states, which
+   * would go on showing its last counts to every new subscriber. The collector does it for it: each
+   * zone state it holds of that site that is not `offline` yet is published again, retained, as
+   * `offline` with no value (as the site itself does when it stops). The site sends its real states
+   * again as soon as it is back.
+   */
+  function markSiteOffline(site: string): void {
+    if (!connection.connected) return;
+    const time = new Date().toISOString();
+    for (const entry of cameras.values()) {
+      if (entry.site !== site) continue;
+      for (const [zone, state] of entry.zones) {
+        if (state.state === ZoneStateName.offline) continue;
+        const offline: ZoneStateMessage = { ...state, ...(state.kind === 'shelf' ? { fill: null } : { count: null }), state: ZoneStateName.offline, time };
+        entry.zones.set(zone, offline);
+        client.publish(stateTopic(prefix, site, state.camera, zone), JSON.stringify(offline), { qos: settings.qos, retain: true }, () => {});
+      }
+    }
   }
 
   return {
@@ -298,10 +519,25 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
         });
     },
     stats() {
-      return { connected: connection.connected, subscribed, ...count };
+      let samplesMissing = 0;
+      for (const c of cursors.values()) samplesMissing += c.received - c.seq - c.above.size;
+      return { connected: connection.connected, subscribed, ...count, samplesMissing, pendingSamples: pending.length };
     },
-    stop: () => connection.stop(),
+    async stop() {
+      if (stopped) return;
+      stopped = true;
+      clearInterval(housekeeping);
+      for (const timer of offlineTimers.values()) clearTimeout(timer);
+      flush();
+      saveCursors();
+      await connection.stop();
+    },
   };
+}
+
+/** A store's refusal of the data itself (its messages name the field), as opposed to a failure of the database. */
+function isRefusal(error: unknown): boolean {
+  return error instanceof RangeError || error instanceof TypeError;
 }
 
 function readJson(payload: Uint8Array): unknown {

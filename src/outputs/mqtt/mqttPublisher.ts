@@ -6,8 +6,11 @@ import { checkEpochMs, checkId, checkOneOf } from '../../store/validate.ts';
 import { boundedQueue } from './boundedQueue.ts';
 import { connectMqtt, type MqttConnection } from './connectMqtt.ts';
 import type { MqttQos, MqttSettings } from './mqttSettings.ts';
+import { parseAckMessage } from './ackMessage.ts';
+import { discoveryConfig } from './discovery.ts';
 import { sampleMessage } from './sampleMessage.ts';
-import { eventsTopic, samplesTopic, siteStatusTopic, SITE_ID_PATTERN, stateTopic } from './topics.ts';
+import { createSampleOutbox, type OutboxStore, type ReplayTiming, type SampleOutbox } from './sampleOutbox.ts';
+import { ackTopic, eventsTopic, parseTopic, samplesTopic, siteStatusTopic, SITE_ID_PATTERN, stateTopic } from './topics.ts';
 import { zoneState, ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
 
 /**
@@ -16,7 +19,13 @@ import { zoneState, ZoneStateName, type ZoneStateMessage } from './zoneState.ts'
  *
  * The database comes first: samples and events are published only after the store has committed
  * them (see publishingStore.ts), so nothing is lost from the database when the broker is away.
- * MQTT is best effort on top:
+ *
+ * With a store that numbers its samples (a full Residuum store, src/store/sequence.ts), the
+ * database itself is the queue (sampleOutbox.ts): samples are read from it in sequence order and
+ * sent until a collector confirms them on `<prefix>/<site>/<camera>/ack`; unconfirmed ones are
+ * sent again after a reconnection or when the acks stall. So nothing a site stored is lost
+ * between it and a collector, whatever the broker drops. Without such a store, MQTT is best
+ * effort:
  * - unsent samples wait in a bounded in-memory queue (`queueLimit`); when it is full the oldest is
  *   dropped and counted (`samplesDropped`). With `store` given, dropped samples are re-read from
  *   the database once the queue has drained again (`samplesBackfilled`), so a collector still
@@ -35,8 +44,14 @@ import { zoneState, ZoneStateName, type ZoneStateMessage } from './zoneState.ts'
 export interface MqttPublisherOptions {
   /** The site's topic level (see SITE_ID_PATTERN), e.g. `settings.site ?? siteSlug(config.site.name)`. */
   readonly site: string;
-  /** The store samples were written to: zones' creation times are sent with samples, and dropped samples are re-read from it. */
-  readonly store?: Pick<Store, 'listSamples' | 'getZone'>;
+  /**
+   * The store samples were written to: zones' creation times are sent with samples, and dropped
+   * samples are re-read from it. A store that numbers its samples (has `samplesAfter`) is the
+   * queue itself, and collectors' acks decide what is sent again.
+   */
+  readonly store?: Pick<Store, 'listSamples' | 'getZone'> & Partial<OutboxStore>;
+  /** When unconfirmed samples are sent again (sequenced stores only); see sampleOutbox.ts. */
+  readonly replay?: ReplayTiming;
   /** Log lines (never credentials, never pixels). Default: none. */
   readonly log?: (line: string) => void;
   /** Clock for state and event times and state rate limits, epoch ms; default Date.now. */
@@ -73,8 +88,12 @@ export interface EventMessage {
 
 export interface MqttPublisherStats {
   readonly connected: boolean;
-  /** Samples waiting to be sent. */
+  /** Samples waiting to be sent (in memory, or with a numbering store, in the database). */
   readonly queuedSamples: number;
+  /** Numbered samples a collector has not confirmed yet (0 without a numbering store or collector). */
+  readonly unconfirmedSamples: number;
+  /** Times unconfirmed samples were sent again. */
+  readonly replays: number;
   readonly queuedEvents: number;
   /** Samples and events handed to the client, not yet acknowledged. */
   readonly inFlight: number;
@@ -146,6 +165,9 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
   let pumpScheduled = false;
   let warnedFull = false;
   const count = { samplesPublished: 0, samplesDropped: 0, samplesBackfilled: 0, eventsPublished: 0, eventsDropped: 0, statesPublished: 0 };
+  const outbox: SampleOutbox | undefined =
+    store && typeof store.samplesAfter === 'function' ? createSampleOutbox(store as OutboxStore, { ...(options.replay && { replay: options.replay }), clock, log }) : undefined;
+  const ackFilter = `${prefix}/${site}/+/ack`;
 
   const connection: MqttConnection = connectMqtt(settings, {
     clientId: settings.clientId ?? `residuum-${site}-${randomBytes(3).toString('hex')}`,
@@ -158,10 +180,48 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
       raw(statusTopic, JSON.stringify({ site, state: 'online', time: new Date(clock()).toISOString() }), true);
       const now = clock();
       for (const entry of states.values()) sendState(entry, now);
+      discovered.clear();
+      for (const entry of states.values()) discover(entry.latest);
+      if (outbox) {
+        outbox.reconnected(now);
+        client.subscribe(ackFilter, { qos: 1 }, (error) => {
+          if (error) log(`mqtt: could not subscribe to the collector's acks (${error.message})`);
+        });
+      }
       pump();
     },
   });
   const client = connection.client;
+  if (outbox) {
+    client.on('message', (topic, payload) => {
+      const parsed = parseTopic(prefix, topic);
+      if (parsed?.kind !== 'ack' || parsed.site !== site || payload.length === 0) return;
+      try {
+        if (outbox.acknowledge(parsed.camera, parseAckMessage(payload), clock())) schedulePump();
+      } catch (error) {
+        log(`mqtt: ignored an ack on ${topic} (${(error as Error).message})`);
+      }
+    });
+  }
+  const ticker = outbox
+    ? setInterval(() => {
+        outbox.tick(clock());
+        pump();
+      }, 1000)
+    : undefined;
+  ticker?.unref();
+
+  /** Discovery config topics sent on this connection, by state topic. */
+  const discovered = new Map<string, string>();
+  function discover(state: ZoneStateMessage): void {
+    if (!settings.discovery || !connection.connected) return;
+    const key = stateTopic(prefix, site, state.camera, state.zone);
+    const config = discoveryConfig(settings.discoveryPrefix, prefix, site, state);
+    const text = JSON.stringify(config.payload);
+    if (discovered.get(key) === text) return;
+    discovered.set(key, text);
+    raw(config.topic, text, true);
+  }
 
   function raw(topic: string, payload: string, retain: boolean): void {
     client.publish(topic, payload, { qos, retain }, () => {});
@@ -210,7 +270,7 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
     }
   }
 
-  function sampleOutgoing(sample: Sample): Outgoing {
+  function sampleOutgoing(sample: Sample & { seq?: number; gap?: [number, number] }): Outgoing {
     const key = `${sample.camera}/${sample.zone}`;
     if (store && !zoneCreated.has(key)) {
       let created: number | undefined;
@@ -222,7 +282,10 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
       zoneCreated.set(key, created);
     }
     const created = zoneCreated.get(key);
-    const message = sampleMessage(sample, site, created === undefined ? {} : { zoneCreated: created });
+    const message = sampleMessage(sample, site, {
+      ...(created !== undefined && { zoneCreated: created }),
+      ...(outbox && sample.seq !== undefined && { seq: sample.seq, stream: outbox.stream, ...(sample.gap && { gap: sample.gap }) }),
+    });
     return {
       topic: samplesTopic(prefix, site, message.camera, message.zone),
       payload: JSON.stringify(message),
@@ -244,7 +307,11 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
     if (!connection.connected) return;
     while (inFlight < maxInFlight) {
       if (samples.length === 0 && events.length === 0 && backfill.size > 0 && !stopped) refill();
-      const m = events.shift() ?? samples.shift();
+      let m = events.shift() ?? samples.shift();
+      if (m === undefined && outbox && !stopped) {
+        const s = outbox.take();
+        if (s !== undefined) m = sampleOutgoing(s);
+      }
       if (m === undefined) return;
       send(m);
     }
@@ -255,8 +322,9 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
     client.publish(m.topic, m.payload, { qos: m.sample ? m.qos : qos, retain: false }, (error) => {
       inFlight--;
       if (error) {
-        // Not delivered (the connection closed under a QoS 0 message): back to the front.
-        if (!stopped) dropped((m.sample ? samples : events).unshift(m));
+        // Not delivered (the connection closed under a QoS 0 message): back to the front. The
+        // outbox sends its samples again after the reconnection anyway.
+        if (!stopped && !(outbox && m.sample)) dropped((m.sample ? samples : events).unshift(m));
       } else if (m.sample) count.samplesPublished++;
       else count.eventsPublished++;
       schedulePump();
@@ -308,6 +376,7 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
           entry.latestKey = stateKey(latest);
         }
         considerState(entry, now);
+        discover(latest);
       }
       for (const old of cameraTopics.get(live.camera) ?? []) {
         if (topics.has(old)) continue;
@@ -315,6 +384,10 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
         if (entry?.timer) clearTimeout(entry.timer);
         states.delete(old);
         if (connection.connected) raw(old, '', true);
+        if (entry && settings.discovery && connection.connected) {
+          raw(discoveryConfig(settings.discoveryPrefix, prefix, site, entry.latest).topic, '', true);
+          discovered.delete(old);
+        }
       }
       cameraTopics.set(live.camera, topics);
     },
@@ -337,14 +410,23 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
 
     publishSample(sample) {
       if (stopped) return;
+      if (outbox) {
+        // Read back from the database in sequence order (this one and whatever else is new).
+        outbox.committed(checkId(sample.camera, 'sample.camera'));
+        schedulePump();
+        return;
+      }
       dropped(samples.push(sampleOutgoing(sample)));
       pump();
     },
 
     stats() {
+      const box = outbox?.stats();
       return {
         connected: connection.connected,
-        queuedSamples: samples.length,
+        queuedSamples: samples.length + (box?.waiting ?? 0),
+        unconfirmedSamples: box?.unconfirmed ?? 0,
+        replays: box?.replays ?? 0,
         queuedEvents: events.length,
         inFlight,
         backfillPending: backfill.size,
@@ -355,6 +437,8 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
     async stop() {
       if (stopped) return;
       stopped = true;
+      if (ticker) clearInterval(ticker);
+      outbox?.save();
       const now = clock();
       for (const entry of states.values()) {
         if (entry.timer) clearTimeout(entry.timer);

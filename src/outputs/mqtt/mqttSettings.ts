@@ -21,6 +21,9 @@ import { SITE_ID_PATTERN } from './topics.ts';
  *   stateIntervalSeconds: 1                 # publisher only: at most one state message per zone this often
  *   stateRefreshSeconds: 60                 # publisher only: an unchanged state is sent again this often
  *   lowFill: 0.2                            # publisher only: a shelf below this fill is "low"
+ *   sessionExpirySeconds: 604800            # collector only: MQTT 5 session kept this long while it is away (default: MQTT 3.1.1, broker's limit)
+ *   discovery: true                         # publisher only: Home Assistant MQTT discovery messages (default false)
+ *   discoveryPrefix: homeassistant          # publisher only: their topic prefix (default homeassistant)
  * ```
  *
  * Every message names the file and the field, as loadConfig does:
@@ -69,6 +72,12 @@ export interface MqttSettings {
   readonly stateRefreshSeconds: number;
   /** Publisher: a shelf whose fill is below this is `low`, 0..1 inclusive; default 0.2. */
   readonly lowFill: number;
+  /** Collector: MQTT 5 Session Expiry Interval, 1..4 294 967 295 s (clean start off); default none (MQTT 3.1.1, clean session off). */
+  readonly sessionExpirySeconds?: number;
+  /** Publisher: publish Home Assistant MQTT discovery messages (discovery.ts); default false. */
+  readonly discovery: boolean;
+  /** Publisher: the discovery topic prefix; default `homeassistant`. */
+  readonly discoveryPrefix: string;
 }
 
 export interface ValidateMqttSettingsOptions {
@@ -83,7 +92,8 @@ export interface ValidateMqttSettingsOptions {
 }
 
 const COMMON_KEYS = ['url', 'topicPrefix', 'qos', 'username', 'password', 'clientId', 'tls'];
-const PUBLISHER_KEYS = ['site', 'queueLimit', 'stateIntervalSeconds', 'stateRefreshSeconds', 'lowFill'];
+const COLLECTOR_KEYS = ['sessionExpirySeconds'];
+const PUBLISHER_KEYS = ['site', 'queueLimit', 'stateIntervalSeconds', 'stateRefreshSeconds', 'lowFill', 'discovery', 'discoveryPrefix'];
 const TLS_KEYS = ['ca', 'cert', 'key', 'rejectUnauthorized'];
 const PROTOCOLS = ['mqtt:', 'mqtts:', 'ws:', 'wss:'];
 
@@ -103,7 +113,7 @@ export function validateMqttSettings(raw: unknown, options: ValidateMqttSettings
   const fail = (path: string, message: string): never => {
     throw new ConfigError(`${file}: ${path} ${message}`);
   };
-  const keys = role === MqttRole.publisher ? [...COMMON_KEYS, ...PUBLISHER_KEYS] : COMMON_KEYS;
+  const keys = role === MqttRole.publisher ? [...COMMON_KEYS, ...PUBLISHER_KEYS] : [...COMMON_KEYS, ...COLLECTOR_KEYS];
   const m = mapping(raw, at, keys, fail);
 
   const url = brokerUrl(m.url, `${at}.url`, fail);
@@ -151,10 +161,13 @@ export function validateMqttSettings(raw: unknown, options: ValidateMqttSettings
     ...(clientId !== undefined && { clientId }),
     ...(tls !== undefined && { tls }),
     ...(site !== undefined && { site }),
+    ...(m.sessionExpirySeconds !== undefined && { sessionExpirySeconds: int(m.sessionExpirySeconds, `${at}.sessionExpirySeconds`, 1, 4_294_967_295, fail) }),
     queueLimit: int(m.queueLimit ?? 10_000, `${at}.queueLimit`, 1, 1_000_000, fail),
     stateIntervalSeconds: num(m.stateIntervalSeconds ?? 1, `${at}.stateIntervalSeconds`, 0, 3600, fail),
     stateRefreshSeconds: num(m.stateRefreshSeconds ?? 60, `${at}.stateRefreshSeconds`, 1, 86_400, fail),
     lowFill: num(m.lowFill ?? 0.2, `${at}.lowFill`, 0, 1, fail),
+    discovery: bool(m.discovery ?? false, `${at}.discovery`, fail),
+    discoveryPrefix: prefix(m.discoveryPrefix ?? 'homeassistant', `${at}.discoveryPrefix`, fail),
   };
 }
 
@@ -235,6 +248,11 @@ function int(v: unknown, at: string, min: number, max: number, fail: Fail): numb
 function num(v: unknown, at: string, min: number, max: number, fail: Fail): number {
   if (typeof v !== 'number' || !Number.isFinite(v) || v < min || v > max) fail(at, `must be a number from ${min} to ${max}, got ${show(v)}`);
   return v as number;
+}
+
+function bool(v: unknown, at: string, fail: Fail): boolean {
+  if (typeof v !== 'boolean') fail(at, `must be true or false, got ${show(v)}`);
+  return v as boolean;
 }
 
 function show(v: unknown): string {

@@ -10,7 +10,8 @@ import { SITE_ID_PATTERN } from './topics.ts';
  * ```json
  * {"id":"door/entrance/1767261600000","site":"riverside","camera":"door","zone":"entrance",
  *  "time":1767261600000,"timeIso":"2026-01-01T10:00:00.000Z","intervalMs":10000,
- *  "kind":"count","value":2.5,"quality":0,"zoneKind":"room","zoneCreated":1767225600000}
+ *  "kind":"count","value":2.5,"quality":0,"zoneKind":"room","zoneCreated":1767225600000,
+ *  "seq":4711,"stream":"3f9c0a6b12d4e587"}
  * ```
  *
  * `time` is the end of the covered interval `[time − intervalMs, time)` in UTC epoch ms, `timeIso`
@@ -33,18 +34,36 @@ export interface SampleMessage {
   readonly quality: number;
   readonly zoneKind: ZoneKind;
   readonly zoneCreated?: number;
+  /** The sample's sequence number at the site, per camera 1, 2, 3 … (see src/store/sequence.ts); absent for samples stored before numbering. */
+  readonly seq?: number;
+  /** Which site database numbered it: 16 hex digits made once per database, so that a collector notices a site starting over. */
+  readonly stream?: string;
+  /**
+   * `[from, to]`: the site holds no sample of this stream numbered from..to (inclusive) any more
+   * (pruned by its retention before a collector confirmed them); sent with the first sample after
+   * such a hole, so that the collector does not wait for them.
+   */
+  readonly gap?: readonly [number, number];
 }
+
+/** A stream id: 16 lower-case hex digits. */
+export const STREAM_PATTERN = /^[0-9a-f]{16}$/;
 
 const ZONE_KIND_OF_SAMPLE: Record<SampleKind, ZoneKind> = { count: 'room', fill: 'shelf' };
 
 export interface SampleMessageOptions {
   /** When the zone was created at the source, epoch ms; default not sent. */
   readonly zoneCreated?: number;
+  /** Sequence number and stream of the sample; default not sent. */
+  readonly seq?: number;
+  readonly stream?: string;
+  /** A hole in the site's numbers before this sample (see SampleMessage.gap); default none. */
+  readonly gap?: readonly [number, number];
 }
 
 /** The message of one stored sample of `site`. Throws like the store for an invalid sample. */
 export function sampleMessage(sample: Sample, site: string, options: SampleMessageOptions = {}): SampleMessage {
-  const { zoneCreated } = options;
+  const { zoneCreated, seq, stream, gap } = options;
   const s = validateSample(sample);
   return {
     id: `${s.camera}/${s.zone}/${s.time}`,
@@ -59,6 +78,7 @@ export function sampleMessage(sample: Sample, site: string, options: SampleMessa
     quality: s.quality,
     zoneKind: ZONE_KIND_OF_SAMPLE[s.kind],
     ...(zoneCreated !== undefined && { zoneCreated }),
+    ...(seq !== undefined && stream !== undefined && { seq, stream, ...(gap && { gap }) }),
   };
 }
 
@@ -102,6 +122,15 @@ export function parseSampleMessage(from: SampleTopic, payload: Uint8Array | stri
   if (zoneCreated !== undefined && !(typeof zoneCreated === 'number' && Number.isInteger(zoneCreated) && zoneCreated >= 0 && zoneCreated <= MAX_EPOCH_MS)) {
     throw new RangeError(`message.zoneCreated: expected an integer epoch time in ms, got ${JSON.stringify(zoneCreated)}`);
   }
+  const { seq, stream } = m;
+  if ((seq === undefined) !== (stream === undefined)) throw new RangeError(`message.${seq === undefined ? 'seq' : 'stream'}: seq and stream come together`);
+  if (seq !== undefined && !(typeof seq === 'number' && Number.isSafeInteger(seq) && seq >= 1)) throw new RangeError(`message.seq: expected a whole number ≥ 1, got ${JSON.stringify(seq)}`);
+  if (stream !== undefined && !(typeof stream === 'string' && STREAM_PATTERN.test(stream))) throw new RangeError(`message.stream: expected 16 hex digits, got ${JSON.stringify(stream)}`);
+  const gap = m.gap;
+  if (gap !== undefined) {
+    const ok = Array.isArray(gap) && gap.length === 2 && gap.every((g) => Number.isSafeInteger(g) && g >= 1) && gap[0] <= gap[1] && seq !== undefined && gap[1] < (seq as number);
+    if (!ok) throw new RangeError(`message.gap: expected [from, to], 1 ≤ from ≤ to < seq, got ${JSON.stringify(gap)}`);
+  }
   return {
     id: m.id as string,
     site: m.site,
@@ -115,5 +144,6 @@ export function parseSampleMessage(from: SampleTopic, payload: Uint8Array | stri
     quality: s.quality,
     zoneKind: ZONE_KIND_OF_SAMPLE[s.kind],
     ...(zoneCreated !== undefined && { zoneCreated: zoneCreated as number }),
+    ...(seq !== undefined && { seq: seq as number, stream: stream as string, ...(gap !== undefined && { gap: gap as [number, number] }) }),
   };
 }

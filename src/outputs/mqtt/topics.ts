@@ -9,6 +9,7 @@ import { ID_PATTERN } from '../../store/index.ts';
  * <prefix>/<site>/<camera>/<zone>/state   retained  the zone's current state (see zoneState.ts)
  * <prefix>/<site>/<camera>/<zone>/samples           every stored sample (see sampleMessage.ts), QoS ≥ 1
  * <prefix>/<site>/<camera>/events                   offline, online, view-changed, capacity-exceeded, …
+ * <prefix>/<site>/<camera>/ack      retained  from the collector: {"stream","seq","time"}, everything up to seq is stored
  * ```
  *
  * Zone topics have four levels after the prefix and camera events three, so a zone called
@@ -52,6 +53,11 @@ export function eventsTopic(prefix: string, site: string, camera: string): strin
   return `${prefix}/${topicSegment(site)}/${topicSegment(camera)}/events`;
 }
 
+/** `<prefix>/<site>/<camera>/ack`: the collector's confirmation of a camera's samples (see ackMessage.ts). */
+export function ackTopic(prefix: string, site: string, camera: string): string {
+  return `${prefix}/${topicSegment(site)}/${topicSegment(camera)}/ack`;
+}
+
 /** The topic filters the collector subscribes to (every site and camera under the prefix). */
 export function collectorFilters(prefix: string): { samples: string; state: string; events: string; status: string } {
   return { samples: `${prefix}/+/+/+/samples`, state: `${prefix}/+/+/+/state`, events: `${prefix}/+/+/events`, status: `${prefix}/+/status` };
@@ -60,7 +66,7 @@ export function collectorFilters(prefix: string): { samples: string; state: stri
 /** A topic taken apart; `undefined` for a topic that is none of ours. */
 export type ParsedTopic =
   | { readonly kind: 'samples' | 'state'; readonly site: string; readonly camera: string; readonly zone: string }
-  | { readonly kind: 'events'; readonly site: string; readonly camera: string }
+  | { readonly kind: 'events' | 'ack'; readonly site: string; readonly camera: string }
   | { readonly kind: 'status'; readonly site: string };
 
 /** Takes a topic under `prefix` apart, by its number of levels and its last level. */
@@ -69,7 +75,7 @@ export function parseTopic(prefix: string, topic: string): ParsedTopic | undefin
   const levels = topic.slice(prefix.length + 1).split('/');
   const last = levels[levels.length - 1];
   if (levels.length === 4 && (last === 'samples' || last === 'state')) return { kind: last, site: levels[0], camera: levels[1], zone: levels[2] };
-  if (levels.length === 3 && last === 'events') return { kind: 'events', site: levels[0], camera: levels[1] };
+  if (levels.length === 3 && (last === 'events' || last === 'ack')) return { kind: last, site: levels[0], camera: levels[1] };
   if (levels.length === 2 && last === 'status') return { kind: 'status', site: levels[0] };
   return undefined;
 }

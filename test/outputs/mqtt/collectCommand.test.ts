@@ -8,7 +8,9 @@ import { validateMqttSettings } from '../../../src/outputs/mqtt/mqttSettings.ts'
 import { openStore } from '../../../src/store/index.ts';
 import { waitUntil } from '../../service/waitUntil.ts';
 import { startBroker, type TestBroker } from './broker.ts';
-import { FAST } from './fixtures.ts';
+import { dayCsv, FAST, inventedBatches, sourceStore, TIME_ZONE, ZONES } from './fixtures.ts';
+import { publishingStore } from '../../../src/outputs/mqtt/publishingStore.ts';
+import { pgAvailable, testDatabase } from '../../store/postgres/pgTestDatabase.ts';
 
 let broker: TestBroker | undefined;
 let dir: string | undefined;
@@ -67,5 +69,42 @@ describe('residuum collect', () => {
     writeFileSync(config, 'mqtt: { url: "mqtt://127.0.0.1:1", topicPrefix: "a/#" }\n');
     await expect(collectCommand(['--config', config, '--data', join(dir, 'data')], { until: Promise.resolve() })).rejects.toThrow(/collect\.yaml: mqtt\.topicPrefix must not contain/);
     await expect(collectCommand(['--data', dir])).rejects.toThrow(/--config is required/);
+  });
+
+  it.skipIf(!pgAvailable)('with storage.url collects into PostgreSQL; the dashboard, the hourly CSV and /metrics read from it', async () => {
+    broker = await startBroker();
+    dir = mkdtempSync(join(tmpdir(), 'residuum-collect-'));
+    const db = await testDatabase();
+    const source = sourceStore();
+    try {
+      const config = join(dir, 'collect.yaml');
+      writeFileSync(config, `site: { name: Head office, timeZone: ${TIME_ZONE} }\nstorage: { url: "${db.url}", sampleRetentionDays: 36500 }\nserver: { host: 127.0.0.1, port: 0 }\nmqtt: { url: "${broker.url}", clientId: collect-pg-test }\n`);
+      const lines: string[] = [];
+      let stop!: () => void;
+      const until = new Promise<void>((done) => (stop = done));
+      const exit = collectCommand(['--config', config], { until, log: (l) => lines.push(l), out: { write: () => true } });
+      const url = await waitUntil(() => lines.map((l) => /dashboard at (http:\/\/\S+)/.exec(l)?.[1]).find(Boolean), { what: 'the dashboard line', timeoutMs: 30_000, intervalMs: 20 });
+      expect(lines.join('\n')).toContain(`into postgres://postgres@127.0.0.1:5432/${db.name}`);
+      const publisher = createMqttPublisher(validateMqttSettings({ url: broker.url, stateIntervalSeconds: 0 }), { site: 'riverside', backoff: FAST, store: source.store });
+      await waitUntil(() => publisher.stats().connected, { what: 'the publisher to connect', timeoutMs: 30_000, intervalMs: 20 });
+      const writer = publishingStore(source.store, publisher);
+      const batches = inventedBatches(11);
+      for (const b of batches) writer.insertSamples(b);
+      const n = batches.length * ZONES.length;
+      await waitUntil(() => publisher.stats().unconfirmedSamples === 0 && publisher.stats().queuedSamples === 0 && publisher.stats().inFlight === 0 && publisher.stats().samplesPublished >= n, { what: `all ${n} samples confirmed`, timeoutMs: 60_000, intervalMs: 50 });
+      // The dashboard's hourly CSV, read from PostgreSQL, is the site's own, camera ids prefixed with the site.
+      const csv = await (await fetch(`${url}api/export/hourly.csv?from=2026-03-02&to=2026-03-02`)).text();
+      expect(csv.replaceAll(',riverside--', ',')).toBe(dayCsv(source.store));
+      const metrics = await (await fetch(`${url}metrics`)).text();
+      // check: Prometheus text exposition format, one "name value" line per series
+      expect(metrics).toMatch(new RegExp(`^residuum_collector_samples_stored_total ${n}$`, 'm'));
+      expect(metrics).toMatch(/^residuum_collector_samples_missing 0$/m);
+      await publisher.stop();
+      stop();
+      expect(await exit).toBe(0);
+    } finally {
+      source.cleanup();
+      await db.drop();
+    }
   });
 });

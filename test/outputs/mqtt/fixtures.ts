@@ -1,6 +1,7 @@
 import { hourlyRows, writeHourlyCsv } from '../../../src/outputs/hourlyCsv.ts';
 import { createMqttPublisher, type MqttPublisher, type MqttPublisherOptions } from '../../../src/outputs/mqtt/mqttPublisher.ts';
-import { startCollector, type Collector } from '../../../src/outputs/mqtt/mqttCollector.ts';
+import { startCollector, type Collector, type CollectorOptions } from '../../../src/outputs/mqtt/mqttCollector.ts';
+import { sqliteCollectorStore } from '../../../src/outputs/mqtt/collectorStore.ts';
 import { validateMqttSettings } from '../../../src/outputs/mqtt/mqttSettings.ts';
 import type { Sample, Store } from '../../../src/store/index.ts';
 import { mulberry } from '../../helpers/random.ts';
@@ -79,13 +80,13 @@ export interface Rig {
   close(): Promise<void>;
 }
 
-export async function startRig(options: { mqtt?: Record<string, unknown>; publisher?: Partial<MqttPublisherOptions> } = {}): Promise<Rig> {
+export async function startRig(options: { mqtt?: Record<string, unknown>; publisher?: Partial<MqttPublisherOptions>; collector?: Partial<CollectorOptions> } = {}): Promise<Rig> {
   const broker = await startBroker();
   const settings = validateMqttSettings({ url: broker.url, stateIntervalSeconds: 0, ...options.mqtt });
   const collectorSettings = validateMqttSettings({ url: broker.url, clientId: 'test-collector' }, { role: 'collector' });
   const target = tempStore({ timeZone: TIME_ZONE });
   const log: string[] = [];
-  const collector = startCollector(collectorSettings, { store: target.store, log: (l) => log.push(`collector ${l}`), backoff: FAST });
+  const collector = startCollector(collectorSettings, { store: sqliteCollectorStore(target.store), log: (l) => log.push(`collector ${l}`), backoff: FAST, ...options.collector });
   await waitUntil(() => collector.stats().subscribed, { what: 'the collector to subscribe', timeoutMs: 20_000, intervalMs: 20 });
   const publisher = createMqttPublisher(settings, { site: SITE, log: (l) => log.push(`publisher ${l}`), backoff: FAST, ...options.publisher });
   await waitUntil(() => publisher.stats().connected, { what: 'the publisher to connect', timeoutMs: 20_000, intervalMs: 20 });

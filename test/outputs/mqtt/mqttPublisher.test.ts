@@ -154,4 +154,35 @@ describe('createMqttPublisher: events and the site status', () => {
     expect(o.bodies(STATUS).map((b) => (b as { state: string }).state)).toEqual(['online', 'offline', 'online']);
     expect(p.stats().connected).toBe(true);
   });
+
+  it('announces zones as Home Assistant sensors (MQTT discovery), retained, and removes them with their zone', async () => {
+    const p = await start({ discovery: true });
+    const o = await watch('homeassistant/#');
+    p.publishLive(live([entrance(3), returns(0.5)]));
+    const room = 'homeassistant/sensor/residuum_riverside/door_entrance/config';
+    const shelf = 'homeassistant/sensor/residuum_riverside/door_returns/config';
+    await waitUntil(() => o.bodies(room).length >= 1 && o.bodies(shelf).length >= 1, { what: 'two discovery messages', ...wait });
+    // check: Home Assistant MQTT discovery documentation — topic <discovery_prefix>/<component>/[<node_id>/]<object_id>/config,
+    // keys state_topic, value_template, unique_id, availability_topic, device.identifiers (recalled from memory)
+    expect(o.bodies(room)[0]).toMatchObject({
+      name: 'Entrance',
+      unique_id: 'residuum_riverside_door_entrance',
+      state_topic: STATE,
+      json_attributes_topic: STATE,
+      value_template: '{{ value_json.count }}',
+      unit_of_measurement: 'people',
+      availability_topic: STATUS,
+      payload_available: 'online',
+      payload_not_available: 'offline',
+      device: { identifiers: ['residuum_riverside_door'], name: 'Front door (riverside)' },
+    });
+    expect(o.bodies(shelf)[0]).toMatchObject({ state_topic: SHELF, unit_of_measurement: '%' });
+    // Sent once, not with every live update.
+    p.publishLive(live([entrance(4), returns(0.5)]));
+    await new Promise((done) => setTimeout(done, 200));
+    expect(o.bodies(room).length).toBe(1);
+    // The shelf zone goes away: its sensor is removed by an empty retained config.
+    p.publishLive(live([entrance(4)]));
+    await waitUntil(() => o.bodies(shelf).includes(null), { what: 'the shelf sensor removed', ...wait });
+  });
 });

@@ -27,6 +27,8 @@ describe('validateMqttSettings', () => {
       stateIntervalSeconds: 1,
       stateRefreshSeconds: 60,
       lowFill: 0.2,
+      discovery: false,
+      discoveryPrefix: 'homeassistant',
     });
   });
 
@@ -81,8 +83,13 @@ describe('validateMqttSettings', () => {
   });
 
   it('refuses the publisher-only keys in a collector configuration', () => {
-    expect(error({ url: 'mqtt://h', queueLimit: 5 }, 'collector')).toMatch(/mqtt\.queueLimit is not a known setting here \(known: url, topicPrefix, qos, username, password, clientId, tls\)/);
+    expect(error({ url: 'mqtt://h', queueLimit: 5 }, 'collector')).toMatch(/mqtt\.queueLimit is not a known setting here \(known: url, topicPrefix, qos, username, password, clientId, tls, sessionExpirySeconds\)/);
     expect(v({ url: 'mqtt://h' }, 'collector').topicPrefix).toBe('residuum');
+    // and the collector-only key in a publisher's
+    expect(error({ url: 'mqtt://h', sessionExpirySeconds: 60 })).toMatch(/mqtt\.sessionExpirySeconds is not a known setting here/);
+    expect(v({ url: 'mqtt://h', sessionExpirySeconds: 604_800 }, 'collector').sessionExpirySeconds).toBe(604_800);
+    // MQTT 5.0 §3.1.2.11.2: a four-byte integer (recalled from memory)
+    expect(error({ url: 'mqtt://h', sessionExpirySeconds: 2 ** 32 }, 'collector')).toMatch(/mqtt\.sessionExpirySeconds must be a whole number from 1 to 4294967295/);
   });
 });
 
