@@ -51,7 +51,7 @@ export interface CounterOptions extends MaskCounterOptions {
   shadows?: Pick<SuppressShadowsOptions, 'alphaLow' | 'alphaHigh' | 'maxChromaDistortion'>;
   /**
    * Count with the WebAssembly SIMD kernels (countingKernels) and the packed-mask stages where
-   * they apply (1 to 12 components, coefficientStride ≥ 2, smoothRadius 1; and the kernels are
+   * they apply (1 to 24 components, coefficientStride ≥ 2, smoothRadius 1; and the kernels are
    * on, see setKernelsEnabled); default true. false always takes the JS stages.
    */
   kernels?: boolean;

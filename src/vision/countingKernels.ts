@@ -11,8 +11,13 @@ import type { Subspace } from './subspace.ts';
 /** Histogram bins of the `select` kernel: the top 12 bits of a Float32 (scripts/countingKernelText.ts builds it with this). */
 export const SELECT_BINS = 4096;
 
-/** The largest number of components the kernels take (three groups of four). */
-export const MAX_KERNEL_COMPONENTS = 12;
+/**
+ * The largest number of components a model may have (six groups of four): the kernels have a
+ * variant for each group count up to it, and fitSubspace refuses to learn more. Each component
+ * adds a plane of the basis that every frame's residual pass reads (4 bytes a pixel), so the
+ * per-frame cost grows with k; 24 keeps it below MOG2's at 320×240 (README, speed).
+ */
+export const MAX_KERNEL_COMPONENTS = 24;
 
 export interface CountingKernelsOptions {
   /** The coordinates' pixel sample (sampleCoefficientPixels of the same model); required. */
@@ -56,21 +61,12 @@ export interface CountingKernels {
   threshold(noiseScale: number, out?: BitMask): BitMask;
 }
 
-interface Exports {
-  residual_g1: ResidualKernel;
-  residual_g2: ResidualKernel;
-  residual_g3: ResidualKernel;
-  project_g1: ProjectKernel;
-  project_g2: ProjectKernel;
-  project_g3: ProjectKernel;
-  robust_g1: RobustKernel;
-  robust_g2: RobustKernel;
-  robust_g3: RobustKernel;
+type Exports = Record<`residual_g${number}`, ResidualKernel> & Record<`project_g${number}`, ProjectKernel> & Record<`robust_g${number}`, RobustKernel> & {
   gather(src: number, index: number, n: number, dst: number): void;
   pad(src: number, width: number, rows: number, stride: number, dst: number): void;
   select(values: number, n: number, kth: number, hist: number, out: number, result: number): void;
   threshold(v: number, h: number, stride: number, rows: number, words: number, tn: number, ts: number, scale: number, bits: number): void;
-}
+};
 type ResidualKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, norm: number, sums: number) => void;
 type RobustKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, limit: number, left: number, acc: number, outer: number, rhs: number) => number;
 type ProjectKernel = (n: number, z: number, mean: number, basis: number, plane: number, out: number) => void;
@@ -125,16 +121,20 @@ const up4 = (n: number) => Math.ceil(n / 4) * 4;
  * needs a new coefficient sample).
  *
  * Returns undefined where the kernels cannot run (no WebAssembly SIMD; turned off with
- * setKernelsEnabled(false); k = 0 or k > 12); the counter then takes the JS stages.
+ * setKernelsEnabled(false); k = 0); the counter then takes the JS stages. Throws for a model of
+ * more than MAX_KERNEL_COMPONENTS components (fitSubspace does not learn one).
  */
 export function countingKernels(model: Subspace, options: CountingKernelsOptions): CountingKernels | undefined {
   const { coefficientSample: sample, thresholds, pixelShare = 0.5 } = options;
   const { width, height, components: k, basis, noise, eigenvalues } = model;
   const d = width * height;
+  if (k > MAX_KERNEL_COMPONENTS) {
+    throw new RangeError(`components: the model has ${k}, the counter takes at most ${MAX_KERNEL_COMPONENTS}; learn it again with fewer`);
+  }
   if (thresholds.length !== d) throw new RangeError(`thresholds has length ${thresholds.length}, expected ${d}`);
   if (sample.basis !== basis) throw new RangeError('coefficientSample was built for another model');
   if (!(pixelShare >= 0 && pixelShare <= 1)) throw new RangeError(`pixelShare: expected a share in 0..1, got ${String(pixelShare)}`);
-  if (k === 0 || k > MAX_KERNEL_COMPONENTS || !kernelsEnabled()) return undefined;
+  if (k === 0 || !kernelsEnabled()) return undefined;
   const module = countingModule();
   if (module === null) return undefined;
 
@@ -257,9 +257,9 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
       for (let j = 0; j < k; j++) planesS[j * ns4 + s] = basis[i * k + j];
     }
   }
-  const residualKernel = run[`residual_g${groups}` as 'residual_g1'];
-  const projectKernel = run[`project_g${groups}` as 'project_g1'];
-  const robustKernel = run[`robust_g${groups}` as 'robust_g1'];
+  const residualKernel = run[`residual_g${groups}`];
+  const projectKernel = run[`project_g${groups}`];
+  const robustKernel = run[`robust_g${groups}`];
 
   const normal = new Float64Array(k * k);
   const y = new Float64Array(k);

@@ -6,13 +6,17 @@ import { createMask } from '../frames/frame.ts';
 import { type CentredFrames, learningKernels } from './learningKernels.ts';
 import { symmetricEigen } from './symmetricEigen.ts';
 import { randomizedEigen } from './randomizedEigen.ts';
+import { MAX_KERNEL_COMPONENTS } from './countingKernels.ts';
 
 export interface FitSubspaceOptions {
-  /** Number of eigen-images to keep; when set, `variance` is ignored. 0 keeps only the mean. */
+  /**
+   * Number of eigen-images to keep, 0 to MAX_KERNEL_COMPONENTS (24, the most the counter takes);
+   * when set, `variance` is ignored. 0 keeps only the mean.
+   */
   components?: number;
   /** Smallest share of the learning frames' variance to retain, in (0, 1]; default 0.95. */
   variance?: number;
-  /** Upper bound on the number of components chosen by `variance`; default 12. */
+  /** Upper bound on the number of components chosen by `variance`, 0 to 24; default 12. */
   maxComponents?: number;
   /** Lowest per-pixel noise level, in grey levels (inclusive); default 1.5. */
   noiseFloor?: number;
@@ -162,9 +166,12 @@ export function fitSubspace(
   if (components !== undefined && !(Number.isInteger(components) && components >= 0)) {
     throw new RangeError(`components must be a whole number ≥ 0, got ${components}`);
   }
+  if (components !== undefined && components > MAX_KERNEL_COMPONENTS) {
+    throw new RangeError(`components ${components} is more than the ${MAX_KERNEL_COMPONENTS} the counter takes`);
+  }
   if (!(variance > 0 && variance <= 1)) throw new RangeError(`variance must be in (0, 1], got ${variance}`);
-  if (!(Number.isInteger(maxComponents) && maxComponents >= 0)) {
-    throw new RangeError(`maxComponents must be a whole number ≥ 0, got ${maxComponents}`);
+  if (!(Number.isInteger(maxComponents) && maxComponents >= 0 && maxComponents <= MAX_KERNEL_COMPONENTS)) {
+    throw new RangeError(`maxComponents must be a whole number from 0 to ${MAX_KERNEL_COMPONENTS} (the most the counter takes), got ${maxComponents}`);
   }
   if (!(Number.isInteger(noiseSpread) && noiseSpread >= 0)) {
     throw new RangeError(`noiseSpread must be a whole number ≥ 0, got ${noiseSpread}`);

@@ -241,7 +241,9 @@ describe('fitSubspace', () => {
     const capped = fitSubspace(frames, { width: 50, height: 1 }, { variance: 0.999, maxComponents: 5 });
     expect(capped.components).toBe(5);
     expect(() => fitSubspace(frames.slice(0, 1), { width: 50, height: 1 })).toThrow(/at least 2 frames/);
-    expect(() => fitSubspace(frames, { width: 50, height: 1 }, { components: 40 })).toThrow(/components 40/);
+    expect(() => fitSubspace(frames.slice(0, 10), { width: 50, height: 1 }, { components: 12 })).toThrow(/components 12 is more than the 9 independent directions/);
+    expect(() => fitSubspace(frames, { width: 50, height: 1 }, { components: 25 })).toThrow(/components 25 is more than the 24 the counter takes/);
+    expect(() => fitSubspace(frames, { width: 50, height: 1 }, { maxComponents: 25 })).toThrow(/maxComponents must be a whole number from 0 to 24/);
     expect(() => fitSubspace(frames, { width: 50, height: 1 }, { variance: 1.5 })).toThrow(/variance/);
     expect(() => fitSubspace(frames, { width: 49, height: 1 })).toThrow(/pixels/);
   });
