@@ -9,7 +9,7 @@ import { createBitMask, packMask, unpackMask } from '../vision/bitMask.ts';
 import { clearLightChanges } from '../vision/clearLightChanges.ts';
 import { countingKernels, type CountingKernels } from '../vision/countingKernels.ts';
 import { frameNoiseScale } from '../vision/frameNoiseScale.ts';
-import { residualEnergy, sampleCoefficientPixels } from '../vision/residualEnergy.ts';
+import { refreshCoefficientSample, residualEnergy, sampleCoefficientPixels } from '../vision/residualEnergy.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import type { FrameTally } from '../vision/tallyZones.ts';
 import { COUNTER_STAGES, CounterStage, createMaskCounter, type MaskCounterOptions } from './createMaskCounter.ts';
@@ -103,6 +103,18 @@ export interface Counter {
   readonly stageTimes: Float64Array;
 }
 
+/** createCounter's counter, with what the drift adaptation needs of it. */
+export interface SubspaceCounter extends Counter {
+  /** The robust subspace coordinates y of the last counted frame (length k; the counter's own buffer). */
+  lastCoefficients(): Float64Array;
+  /**
+   * Takes the model's basis again after the caller changed `model.basis` in place (the drifting
+   * counter's rescaled eigen-images): refreshes the coefficient sample and the kernels' planes
+   * in their own buffers; no new counter, no new memory.
+   */
+  refreshBasis(): void;
+}
+
 /**
  * One camera's counting pipeline: residual energy against the empty-scene model → threshold in
  * noise units → (colour mode: clear cast shadows) → opening and closing → connected components →
@@ -113,7 +125,7 @@ export interface Counter {
  * μ_i, so that a frame lit more dimly, or a lamp switched off, is not taken for one large shadow
  * (computed at the foreground pixels only).
  */
-export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): Counter {
+export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): SubspaceCounter {
   const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 7, timeStages = false, colourModel, shadows = {}, kernels: useKernels = true, clearLight = true } = options;
   if (colourModel !== undefined) assertSameSize(model, colourModel, 'colour model');
   const { width, height } = model;
@@ -193,6 +205,11 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     },
     lastMask: () => stages.lastMask(),
     stageTimes,
+    lastCoefficients: () => coefficients,
+    refreshBasis() {
+      if (coefficientSample !== undefined) refreshCoefficientSample(coefficientSample, model.components);
+      kernels?.refreshBasis();
+    },
   };
 
   /** count() on the kernels: the packed threshold mask goes straight to the packed stages (in colour mode, unpacked for the shadows). */

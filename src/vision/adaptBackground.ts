@@ -23,6 +23,12 @@ export interface AdaptBackgroundOptions {
   minSupport?: number;
   /** Pixels (1) whose whole residual is taken into the mean at once: a static object being absorbed. Default none. */
   absorb?: Uint8Array;
+  /**
+   * The frame's subspace coordinates y when the caller has them already (length k; e.g. the
+   * counter's robust coordinates of the same frame, fitted on the pixels its residual explains):
+   * step 1 below is then skipped, a pass of d·k²/2 multiply-adds. Default: fitted here.
+   */
+  coefficients?: Float64Array;
   /** The updated mean; may be `model.mean` itself to update in place. Default: a new array. */
   out?: Float32Array;
   /** Work buffers reused between calls (allocated when not given; contents on return unspecified). */
@@ -117,6 +123,7 @@ export function adaptBackground(
     fieldRadius = Math.ceil(height / 24),
     minSupport = 0.25,
     absorb,
+    coefficients,
     out,
     scratch = adaptBackgroundScratch(width, height),
   } = options;
@@ -132,6 +139,7 @@ export function adaptBackground(
   }
   if (mean.length !== d || basis.length !== d * k || noise.length !== d) throw new RangeError(`mean, basis and noise must fit ${width}×${height} pixels and ${k} components`);
   if (absorb !== undefined && absorb.length !== d) throw new RangeError(`absorb has length ${absorb.length}, expected ${d}`);
+  if (coefficients !== undefined && coefficients.length !== k) throw new RangeError(`coefficients has length ${coefficients.length}, expected ${k}`);
   const result = out ?? new Float32Array(d);
   if (result.length !== d) throw new RangeError(`out has length ${result.length}, expected ${d}`);
   const { residual, relative, field, sums, used } = scratch;
@@ -145,7 +153,8 @@ export function adaptBackground(
   let kept = 0;
   for (let i = 0; i < d; i++) kept += bg[i] !== 0 ? 1 : 0;
   // No background, or too little to fit k coordinates (fewer than 2k pixels): leave the mean as it is.
-  if (kept < Math.max(2 * k, 1) || !fitCoordinates(z, mean, basis, k, bg, kept, y)) {
+  if (coefficients !== undefined) y.set(coefficients);
+  if (kept < Math.max(2 * k, 1) || (coefficients === undefined && !fitCoordinates(z, mean, basis, k, bg, kept, y))) {
     if (result !== mean) result.set(mean);
     return { mean: result, coefficients: y, used: 0, filled: 0, absorbed: 0, applied: false };
   }

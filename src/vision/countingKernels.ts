@@ -59,6 +59,12 @@ export interface CountingKernels {
   noiseScale(): number;
   /** The foreground of the last residual as thresholdResidual with radius 1 would mark it, packed into `out`. */
   threshold(noiseScale: number, out?: BitMask): BitMask;
+  /**
+   * Takes the model's basis again after it was changed in place (and its coefficient sample
+   * refreshed, refreshCoefficientSample): rewrites the component planes in this memory, nothing
+   * allocated.
+   */
+  refreshBasis(): void;
 }
 
 type Exports = Record<`residual_g${number}`, ResidualKernel> & Record<`project_g${number}`, ProjectKernel> & Record<`robust_g${number}`, RobustKernel> & {
@@ -117,8 +123,8 @@ const up4 = (n: number) => Math.ceil(n / 4) * 4;
  * 4, the extra planes and coordinates 0), and v with a zero guard row above and below.
  *
  * The model's mean is copied in on every frame, so a mean changed in place (createDriftingCounter)
- * is followed; the basis and noise are copied once (a changed basis needs new kernels, as it
- * needs a new coefficient sample).
+ * is followed; the basis and noise are copied once, and a basis changed in place is taken again
+ * by `refreshBasis` (after its coefficient sample is refreshed).
  *
  * Returns undefined where the kernels cannot run (no WebAssembly SIMD; turned off with
  * setKernelsEnabled(false); k = 0); the counter then takes the JS stages. Throws for a model of
@@ -213,12 +219,14 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
   const projected = new Float64Array(memory.buffer, at.projected, kp);
   const bitWords = new Int32Array(memory.buffer, at.bits, height * words);
 
-  // Once per model: the noise weights, the basis planes, the thresholds, the sample's planes.
+  const planes = f32(at.basis, kp * n);
+  const planesS = f32(at.basisS, kp * ns4);
+  const planesSS = f32(at.basisSS, kp * nss4);
+  // Once per model: the noise weights, the thresholds, the sample's indices.
   {
     const weight = f32(at.weight, n);
     const tn = f32(at.tn, n).fill(Infinity);
     const ts = f32(at.ts, n);
-    const planes = f32(at.basis, kp * n);
     const share2 = pixelShare * pixelShare;
     for (let y = 0; y < height; y++) {
       const ny = Math.min(y + 1, height - 1) - Math.max(y - 1, 0) + 1;
@@ -231,11 +239,9 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
         tn[p] = t2 * nx * ny;
         // Without the pixel's own check (share 0) every pixel passes it: v ≥ 0 > −1.
         ts[p] = share2 === 0 ? -1 : t2 * share2;
-        for (let j = 0; j < k; j++) planes[j * n + p] = basis[i * k + j];
       }
     }
     const weightS = f32(at.weightS, ns);
-    const planesS = f32(at.basisS, kp * ns4);
     const padded = (i: number) => Math.floor(i / width) * stride + (i % width);
     const sampleIndex = new Int32Array(memory.buffer, at.sampleIndex, ns);
     const noiseIndex = new Int32Array(memory.buffer, at.noiseIndex, noiseCount);
@@ -243,20 +249,35 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     for (let s = 0; s < noiseCount; s++) noiseIndex[s] = padded(s * scaleStride);
     const stepIndex = new Int32Array(memory.buffer, at.stepIndex, nss);
     const weightSS = f32(at.weightSS, nss);
-    const planesSS = f32(at.basisSS, kp * nss4);
     for (let t = 0; t < nss; t++) {
       const i = sample.pixels[t * scaleStride];
       stepIndex[t] = t * scaleStride;
       weightSS[t] = 1 / (noise[i] * noise[i]);
-      for (let j = 0; j < k; j++) planesSS[j * nss4 + t] = basis[i * k + j];
     }
     for (let s = 0; s < ns; s++) {
       const i = sample.pixels[s];
       sampleIndex[s] = padded(i);
       weightS[s] = 1 / (noise[i] * noise[i]);
+    }
+  }
+  /** The basis as component planes: the whole frame's, the sample's and every 7th of the sample's. */
+  function layBasis(): void {
+    for (let j = 0; j < k; j++) {
+      const plane = j * n;
+      for (let y = 0, i = 0; y < height; y++) {
+        for (let x = 0, p = plane + y * stride; x < width; x++, i++, p++) planes[p] = basis[i * k + j];
+      }
+    }
+    for (let t = 0; t < nss; t++) {
+      const i = sample.pixels[t * scaleStride];
+      for (let j = 0; j < k; j++) planesSS[j * nss4 + t] = basis[i * k + j];
+    }
+    for (let s = 0; s < ns; s++) {
+      const i = sample.pixels[s];
       for (let j = 0; j < k; j++) planesS[j * ns4 + s] = basis[i * k + j];
     }
   }
+  layBasis();
   const residualKernel = run[`residual_g${groups}`];
   const projectKernel = run[`project_g${groups}`];
   const robustKernel = run[`robust_g${groups}`];
@@ -363,5 +384,7 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
       mask.data.set(bitWords);
       return mask;
     },
+
+    refreshBasis: layBasis,
   };
 }
