@@ -41,9 +41,9 @@ export interface AdaptBackgroundScratch {
   readonly residual: Float32Array;
   /** Length d: the relative residual r / (z − r) of used pixels. */
   readonly relative: Float32Array;
-  /** Length d: that relative residual averaged around each pixel. */
+  /** Length d: that relative residual averaged around each left-out pixel (NaN where no window had support; other pixels unspecified). */
   readonly field: Float32Array;
-  /** Length 2·d: running sums of the normalised convolution. */
+  /** Length 2·(width + 1)·(height + 1): the summed-area tables of the normalised convolution. */
   readonly sums: Float64Array;
   /** Length d: the used pixels (1) of this update. */
   readonly used: Uint8Array;
@@ -68,7 +68,7 @@ export interface BackgroundUpdate {
 /** Allocates the work buffers for a width × height frame. */
 export function adaptBackgroundScratch(width: number, height: number): AdaptBackgroundScratch {
   const d = width * height;
-  return { residual: new Float32Array(d), relative: new Float32Array(d), field: new Float32Array(d), sums: new Float64Array(2 * d), used: new Uint8Array(d) };
+  return { residual: new Float32Array(d), relative: new Float32Array(d), field: new Float32Array(d), sums: new Float64Array(2 * (width + 1) * (height + 1)), used: new Uint8Array(d) };
 }
 
 /**
@@ -143,7 +143,7 @@ export function adaptBackground(
   const result = out ?? new Float32Array(d);
   if (result.length !== d) throw new RangeError(`out has length ${result.length}, expected ${d}`);
   const { residual, relative, field, sums, used } = scratch;
-  if (residual.length !== d || relative.length !== d || field.length !== d || used.length !== d || sums.length !== 2 * d) {
+  if (residual.length !== d || relative.length !== d || field.length !== d || used.length !== d || sums.length < 2 * (width + 1) * (height + 1)) {
     throw new RangeError(`scratch buffers must fit ${d} pixels (see adaptBackgroundScratch)`);
   }
 
@@ -173,13 +173,10 @@ export function adaptBackground(
     relative[i] = use ? r / Math.max(1, z[i] - r) : 0;
   }
   const filling = usedCount < d;
-  if (filling) {
-    field.fill(NaN);
-    for (const radius of [fieldRadius, 3 * fieldRadius, 9 * fieldRadius]) {
-      if (!normalisedBoxMean(relative, used, width, height, radius, minSupport, sums, field)) break;
-      if (radius >= Math.max(width, height)) break;
-    }
-  }
+  if (filling) summedAreaTables(relative, used, width, height, sums);
+  const w1 = width + 1;
+  const size = w1 * (height + 1);
+  const radii = [fieldRadius, 3 * fieldRadius, 9 * fieldRadius].filter((r, n, all) => n === 0 || all[n - 1] < Math.max(width, height));
 
   let filled = 0;
   let absorbed = 0;
@@ -190,11 +187,34 @@ export function adaptBackground(
       absorbed++;
     } else if (used[i]) {
       result[i] = m + rate * residual[i];
-    } else if (filling && !Number.isNaN(field[i])) {
-      result[i] = m + rate * field[i] * Math.max(1, z[i] - residual[i]);
-      filled++;
     } else {
-      result[i] = m;
+      // The average relative drift of the used pixels around: the smallest window with support.
+      let f = NaN;
+      const x = i % width;
+      const y = (i - x) / width;
+      for (const r of radii) {
+        const x0 = Math.max(0, x - r);
+        const x1 = Math.min(width, x + r + 1);
+        const y0 = Math.max(0, y - r);
+        const y1 = Math.min(height, y + r + 1);
+        const a = y0 * w1 + x0;
+        const b = y0 * w1 + x1;
+        const c0 = y1 * w1 + x0;
+        const c1 = y1 * w1 + x1;
+        // The certainty sums are whole numbers (rounding removes float drift of the sums).
+        const c = Math.round(sums[size + c1] - sums[size + b] - sums[size + c0] + sums[size + a]);
+        if (c >= 1 && c >= minSupport * (x1 - x0) * (y1 - y0)) {
+          f = (sums[c1] - sums[b] - sums[c0] + sums[a]) / c;
+          break;
+        }
+      }
+      field[i] = f;
+      if (!Number.isNaN(f)) {
+        result[i] = m + rate * f * Math.max(1, z[i] - residual[i]);
+        filled++;
+      } else {
+        result[i] = m;
+      }
     }
   }
   return { mean: result, coefficients: y, used: usedCount, filled, absorbed, applied: true };
@@ -238,77 +258,29 @@ function fitCoordinates(
 }
 
 /**
- * Normalised convolution with a (2r + 1)² box: Σ c·v / Σ c over the window (inside the image),
- * written into `out` where it is still NaN and the window holds at least minSupport × its
- * pixels inside the image with certainty. `value` must be 0 where c is 0. Separable running
- * sums (rows into `sums`, then columns). Returns whether some pixel of `out` is still NaN.
+ * Summed-area tables (Crow 1984) of `value` and `certainty`, each (width + 1) × (height + 1) with
+ * a zero row and column in front, into sums[0 ..] and sums[(width + 1)(height + 1) ..]: any box
+ * sum of either is then four lookups, for the normalised convolution (Knutsson & Westin 1993) at
+ * the left-out pixels only. `value` must be 0 where the certainty is 0.
  */
-function normalisedBoxMean(
-  value: Float32Array,
-  certainty: Uint8Array,
-  width: number,
-  height: number,
-  r: number,
-  minSupport: number,
-  sums: Float64Array,
-  out: Float32Array,
-): boolean {
-  const d = width * height;
+function summedAreaTables(value: Float32Array, certainty: Uint8Array, width: number, height: number, sums: Float64Array): void {
+  const w1 = width + 1;
+  const size = w1 * (height + 1);
+  sums.fill(0, 0, w1);
+  sums.fill(0, size, size + w1);
   for (let y = 0; y < height; y++) {
-    const row = y * width;
-    let sv = 0;
-    let sc = 0;
-    for (let x = 0; x < Math.min(r, width); x++) {
-      sv += value[row + x];
-      sc += certainty[row + x];
-    }
-    for (let x = 0; x < width; x++) {
-      const add = x + r;
-      if (add < width) {
-        sv += value[row + add];
-        sc += certainty[row + add];
-      }
-      const drop = x - r - 1;
-      if (drop >= 0) {
-        sv -= value[row + drop];
-        sc -= certainty[row + drop];
-      }
-      sums[row + x] = sv;
-      sums[d + row + x] = sc;
-    }
-  }
-  const colV = new Float64Array(width);
-  const colC = new Float64Array(width);
-  for (let y = 0; y < Math.min(r, height); y++) {
-    for (let x = 0; x < width; x++) {
-      colV[x] += sums[y * width + x];
-      colC[x] += sums[d + y * width + x];
-    }
-  }
-  let missing = false;
-  for (let y = 0; y < height; y++) {
-    const add = y + r;
-    const drop = y - r - 1;
-    for (let x = 0; x < width; x++) {
-      if (add < height) {
-        colV[x] += sums[add * width + x];
-        colC[x] += sums[d + add * width + x];
-      }
-      if (drop >= 0) {
-        colV[x] -= sums[drop * width + x];
-        colC[x] -= sums[d + drop * width + x];
-      }
-    }
-    const rows = Math.min(height - 1, y + r) - Math.max(0, y - r) + 1;
+    const row = (y + 1) * w1;
+    sums[row] = 0;
+    sums[size + row] = 0;
+    let rv = 0;
+    let rc = 0;
     for (let x = 0; x < width; x++) {
       const i = y * width + x;
-      if (!Number.isNaN(out[i])) continue;
-      const cols = Math.min(width - 1, x + r) - Math.max(0, x - r) + 1;
-      // The certainty sums are whole numbers (rounding removes float drift of the running sums).
-      const c = Math.round(colC[x]);
-      if (c >= 1 && c >= minSupport * rows * cols) out[i] = colV[x] / c;
-      else missing = true;
+      rv += value[i];
+      rc += certainty[i];
+      const j = row + x + 1;
+      sums[j] = sums[j - w1] + rv;
+      sums[size + j] = sums[size + j - w1] + rc;
     }
   }
-  return missing;
 }

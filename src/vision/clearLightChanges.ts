@@ -30,8 +30,9 @@ export interface ClearLightChangesOptions {
  * (D. Grest, J.-M. Frahm & R. Koch, "A color similarity measure for robust shadow removal in
  * real time", VMV 2003; J. C. S. Jacques Jr., C. R. Jung & S. R. Musse, "Background subtraction
  * and shadow detection in grayscale video sequences", SIBGRAPI 2005), with the brightness ratio
- * (the window's mean frame ÷ mean background) held to `gain`. Window sums come from summed-area
- * tables (Crow 1984), so the cost does not grow with the window.
+ * (the window's mean frame ÷ mean background) held to `gain`. Window sums are summed directly
+ * around each candidate when there are few (under 2 / (2·radius + 1)² of the pixels), else taken
+ * from summed-area tables (Crow 1984) over the whole frame, whose cost does not grow with the window.
  *
  * `noise` is the per-pixel noise level (grey levels) that tells texture from flat background.
  *
@@ -57,12 +58,42 @@ export function clearLightChanges(
   const f = frame.data;
   const m = background.data;
   const c = candidates.data;
-  let any = false;
-  for (let i = 0; i < c.length; i++) if (c[i]) {
-    any = true;
-    break;
+  let count = 0;
+  for (let i = 0; i < c.length; i++) count += c[i] !== 0 ? 1 : 0;
+  if (count === 0) return result;
+  const side = 2 * radius + 1;
+  // Few candidates (the usual frame): each window summed directly, cheaper than the five tables
+  // over the whole frame; many: the tables. The same sums either way, up to rounding.
+  if (count * side * side < 2 * c.length) {
+    for (let y = 0; y < height; y++) {
+      const y0 = Math.max(0, y - radius);
+      const y1 = Math.min(height, y + radius + 1);
+      for (let x = 0; x < width; x++) {
+        const i = y * width + x;
+        if (!c[i]) continue;
+        const x0 = Math.max(0, x - radius);
+        const x1 = Math.min(width, x + radius + 1);
+        let tf = 0;
+        let tm = 0;
+        let tff = 0;
+        let tmm = 0;
+        let tfm = 0;
+        for (let v = y0; v < y1; v++) {
+          for (let u = v * width + x0, end = v * width + x1; u < end; u++) {
+            const a = f[u];
+            const b = m[u];
+            tf += a;
+            tm += b;
+            tff += a * a;
+            tmm += b * b;
+            tfm += a * b;
+          }
+        }
+        if (isLight(tf, tm, tff, tmm, tfm, (x1 - x0) * (y1 - y0), noise[i])) result.data[i] = 0;
+      }
+    }
+    return result;
   }
-  if (!any) return result;
 
   // Summed-area tables of f, m, f², m², f·m with a zero row and column in front.
   const w1 = width + 1;
@@ -110,22 +141,25 @@ export function clearLightChanges(
       const x0 = Math.max(0, x - radius);
       const x1 = Math.min(width, x + radius + 1);
       const n = (x1 - x0) * (y1 - y0);
-      const mf = boxSum(sf, x0, y0, x1, y1) / n;
-      const mm = boxSum(sm, x0, y0, x1, y1) / n;
-      if (!(mm > 1)) continue;
-      const ratio = mf / mm;
-      if (ratio < gain[0] || ratio > gain[1]) continue;
-      const vf = Math.max(0, boxSum(sff, x0, y0, x1, y1) / n - mf * mf);
-      const vm = Math.max(0, boxSum(smm, x0, y0, x1, y1) / n - mm * mm);
-      const level = flatLevel * noise[i];
-      if (vm <= level * level) {
-        // No texture to compare: a flat frame there is a uniform change of brightness.
-        if (flat === 'light' && vf <= (level * ratio) ** 2) result.data[i] = 0;
-        continue;
-      }
-      const cov = boxSum(sfm, x0, y0, x1, y1) / n - mf * mm;
-      if (vf > 0 && cov / Math.sqrt(vf * vm) >= minCorrelation) result.data[i] = 0;
+      const light = isLight(boxSum(sf, x0, y0, x1, y1), boxSum(sm, x0, y0, x1, y1), boxSum(sff, x0, y0, x1, y1), boxSum(smm, x0, y0, x1, y1), boxSum(sfm, x0, y0, x1, y1), n, noise[i]);
+      if (light) result.data[i] = 0;
     }
   }
   return result;
+
+  /** The test on a window's sums of f, m, f², m² and f·m over its n pixels. */
+  function isLight(tf: number, tm: number, tff: number, tmm: number, tfm: number, n: number, sigma: number): boolean {
+    const mf = tf / n;
+    const mm = tm / n;
+    if (!(mm > 1)) return false;
+    const ratio = mf / mm;
+    if (ratio < gain[0] || ratio > gain[1]) return false;
+    const vf = Math.max(0, tff / n - mf * mf);
+    const vm = Math.max(0, tmm / n - mm * mm);
+    const level = flatLevel * sigma;
+    // No texture to compare: a flat frame there is a uniform change of brightness.
+    if (vm <= level * level) return flat === 'light' && vf <= (level * ratio) ** 2;
+    const cov = tfm / n - mf * mm;
+    return vf > 0 && cov / Math.sqrt(vf * vm) >= minCorrelation;
+  }
 }
