@@ -130,6 +130,7 @@ interface BenchResult {
   rss_mb: number;
   model_mb: number;
   buffers_mb: number;
+  scaling: { pixels: Record<string, number>; components: Record<string, number> };
   service_frame_ms: number;
   service_frame_p90_ms: number;
   service_updates: number;
@@ -257,6 +258,9 @@ async function main(json: boolean): Promise<void> {
   progress('decoding …');
   const decodeTimes = await timeDecode();
 
+  progress('how the per-frame cost grows with pixels and components …');
+  const scaling = timeScaling();
+
   progress(`a camera as the service runs it, ${SERVICE_FRAMES} frames …`);
   const service = timeServiceCamera();
 
@@ -308,6 +312,7 @@ async function main(json: boolean): Promise<void> {
     rss_mb: round3(memory.rssMb),
     model_mb: round3(memory.modelMb),
     buffers_mb: round3(memory.buffersMb),
+    scaling,
     service_frame_ms: round3(service.meanMs),
     service_frame_p90_ms: round3(service.p90Ms),
     service_updates: service.updates,
@@ -452,6 +457,38 @@ function rssChild(): void {
       process.exit(0);
     });
   });
+}
+
+/**
+ * `createCounter().count` on the reading room at three frame sizes (8 components) and with 4 to
+ * 24 components (320×240): medians over 150 frames, the counters interleaved frame by frame.
+ */
+function timeScaling(): BenchResult['scaling'] {
+  const run = (setups: { key: string; size: { width: number; height: number }; k: number }[]) => {
+    const cases = setups.map(({ key, size, k }) => {
+      const scene = createScene('reading-room', size);
+      const model = fitSubspace(Array.from({ length: 100 }, (_, i) => scene.emptyFrameAt(i * 30).data), scene, { components: k });
+      const frames = Array.from({ length: 150 }, (_, i) => scene.frameAt(i * 20).frame);
+      return { key, counter: createCounter(model, scene.zones), frames, times: [] as number[] };
+    });
+    for (let f = 0; f < 150; f++) {
+      for (let j = 0; j < cases.length; j++) {
+        const c = cases[(j + f) % cases.length];
+        const t0 = performance.now();
+        c.counter.count(c.frames[f]);
+        if (f >= 20) c.times.push(performance.now() - t0);
+      }
+    }
+    return Object.fromEntries(cases.map((c) => [c.key, round3(median(c.times))]));
+  };
+  return {
+    pixels: run([
+      { key: '160x120', size: { width: 160, height: 120 }, k: COMPONENTS },
+      { key: '320x240', size: { width: 320, height: 240 }, k: COMPONENTS },
+      { key: '640x480', size: { width: 640, height: 480 }, k: COMPONENTS },
+    ]),
+    components: run([4, 8, 16, 24].map((k) => ({ key: String(k), size: { width: WIDTH, height: HEIGHT }, k }))),
+  };
 }
 
 interface ServiceCamera {
@@ -671,6 +708,8 @@ function report(r: BenchResult): string {
     `real service         resident ${Object.entries(r.service_rss_mb).map(([c, mb]) => `${c} cameras ${mb} MB`).join(', ')}: ${r.camera_rss_mb.toFixed(1)} MB per camera`,
     `                     frames per second ${Object.entries(r.service_fps).map(([c, f]) => `${c} cameras ${f}`).join(', ')}; cores used ${Object.entries(r.service_cores).map(([c, f]) => `${c} cameras ${f.toFixed(2)}`).join(', ')}`,
     `                     ${r.cameras_2fps_per_core.toFixed(1)} cameras at 2 fps per core (snapshot sources, 640×480 JPEG decoded to ${r.width}×${r.height})`,
+    `per frame by size    ${Object.entries(r.scaling.pixels).map(([size, ms]) => `${size} ${ms.toFixed(2)} ms`).join(', ')} (8 components)`,
+    `per frame by k       ${Object.entries(r.scaling.components).map(([k, ms]) => `k=${k} ${ms.toFixed(2)} ms`).join(', ')} (${r.width}×${r.height})`,
     `load average         ${r.load.join(' ')}`,
     '',
     `target ratio ≤ ${targets.ratio}            ${yes(r.targets.ratio)}`,

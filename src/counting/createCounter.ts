@@ -113,6 +113,11 @@ export interface SubspaceCounter extends Counter {
    * in their own buffers; no new counter, no new memory.
    */
   refreshBasis(): void;
+  /**
+   * Takes `model.mean` again after the caller changed it in place (the drifting counter's
+   * background update); the kernels copy it only then, not on every frame.
+   */
+  refreshMean(): void;
 }
 
 /**
@@ -149,7 +154,7 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     distortion: { alpha: new Float32Array(d), cd: new Float32Array(d) },
   };
   const coefficientSample = coefficientStride > 1 ? sampleCoefficientPixels(model, coefficientStride) : undefined;
-  const kernels = useKernels && coefficientSample !== undefined && smoothRadius === 1 ? countingKernels(model, { coefficientSample, thresholds }) : undefined;
+  const kernels = useKernels && coefficientSample !== undefined && smoothRadius === 1 ? countingKernels(model, { coefficientSample, thresholds, followMean: false }) : undefined;
   const rawBits = createBitMask(width, height);
   const lightBuffers = clearLight ? { lit: createMask(width, height), scratch: new Float64Array(5 * (width + 1) * (height + 1)) } : undefined;
   /** The mask with changes of light cleared (lightBuffers.lit), or the mask itself without clearLight. */
@@ -209,6 +214,9 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     refreshBasis() {
       if (coefficientSample !== undefined) refreshCoefficientSample(coefficientSample, model.components);
       kernels?.refreshBasis();
+    },
+    refreshMean() {
+      kernels?.refreshMean();
     },
   };
 

@@ -67,9 +67,9 @@ const adaptedMeans = new WeakMap<Counter, { readonly model: Subspace }>();
  * createCounter with a background that follows slow drift of the scene (daylight, lamps, exposure)
  * and, per zone, absorbs changed but static objects after a while.
  *
- * The counter keeps its own copy of the model. Its mean is updated in place between frames:
- * createCounter reads `model.mean` on every frame, and the noise levels it precomputes from (the
- * inverse noise variances, the thresholds) do not change. At most every `updateSeconds`, after
+ * The counter keeps its own copy of the model. Its mean is updated in place between frames and
+ * the inner counter told so (refreshMean); the noise levels it precomputes from (the inverse
+ * noise variances, the thresholds) do not change. At most every `updateSeconds`, after
  * counting a frame:
  *
  * 1. Background pixels: not in the frame's cleaned foreground mask dilated by `margin`; the
@@ -223,6 +223,7 @@ export function createDriftingCounter(
       scratch,
     });
     if (!step.applied) return;
+    inner.refreshMean();
     updates++;
     absorbedPixels += step.absorbed;
     let shift = 0;

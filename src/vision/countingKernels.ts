@@ -26,6 +26,12 @@ export interface CountingKernelsOptions {
   thresholds: Float32Array;
   /** The pixel itself must exceed this share of its threshold, 0..1 (see thresholdResidual); default 0.5. */
   pixelShare?: number;
+  /**
+   * Copy the model's mean into the kernels' layout on every frame (true, the default: a mean
+   * changed in place is followed at once), or only on creation and `refreshMean()` (false: one
+   * pass over the pixels less per frame, for a caller that says when it changed the mean).
+   */
+  followMean?: boolean;
 }
 
 export interface KernelResidualOptions {
@@ -65,6 +71,8 @@ export interface CountingKernels {
    * allocated.
    */
   refreshBasis(): void;
+  /** Takes the model's mean again after it was changed in place (needed only with `followMean: false`). */
+  refreshMean(): void;
 }
 
 type Exports = Record<`residual_g${number}`, ResidualKernel> & Record<`project_g${number}`, ProjectKernel> & Record<`robust_g${number}`, RobustKernel> & {
@@ -131,7 +139,7 @@ const up4 = (n: number) => Math.ceil(n / 4) * 4;
  * more than MAX_KERNEL_COMPONENTS components (fitSubspace does not learn one).
  */
 export function countingKernels(model: Subspace, options: CountingKernelsOptions): CountingKernels | undefined {
-  const { coefficientSample: sample, thresholds, pixelShare = 0.5 } = options;
+  const { coefficientSample: sample, thresholds, pixelShare = 0.5, followMean = true } = options;
   const { width, height, components: k, basis, noise, eigenvalues } = model;
   const d = width * height;
   if (k > MAX_KERNEL_COMPONENTS) {
@@ -278,6 +286,13 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     }
   }
   layBasis();
+  /** Whether the mean in the kernels' layout is older than the model's (see followMean). */
+  let meanStale = true;
+  function layMean(mean: Float32Array): void {
+    meanRaw.set(mean);
+    run.pad(at.meanRaw, width, height, stride, at.mean);
+    meanStale = false;
+  }
   const residualKernel = run[`residual_g${groups}`];
   const projectKernel = run[`project_g${groups}`];
   const robustKernel = run[`robust_g${groups}`];
@@ -309,9 +324,8 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
       const data = frame.data;
       const modelMean = model.mean;
       zRaw.set(data);
-      meanRaw.set(modelMean);
       run.pad(at.zRaw, width, height, stride, at.z);
-      run.pad(at.meanRaw, width, height, stride, at.mean);
+      if (followMean || meanStale) layMean(modelMean);
       run.gather(at.z, at.sampleIndex, ns, at.zS);
       run.gather(at.mean, at.sampleIndex, ns, at.meanS);
       run.gather(at.zS, at.stepIndex, nss, at.zSS);
@@ -386,5 +400,8 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     },
 
     refreshBasis: layBasis,
+    refreshMean() {
+      meanStale = true;
+    },
   };
 }

@@ -8,7 +8,7 @@ import { countingKernels } from '../../src/vision/countingKernels.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
 import { frameNoiseScale } from '../../src/vision/frameNoiseScale.ts';
 import { setKernelsEnabled } from '../../src/vision/learningKernels.ts';
-import { residualEnergy, sampleCoefficientPixels } from '../../src/vision/residualEnergy.ts';
+import { refreshCoefficientSample, residualEnergy, sampleCoefficientPixels } from '../../src/vision/residualEnergy.ts';
 import type { Subspace } from '../../src/vision/subspace.ts';
 import { thresholdResidual } from '../../src/vision/thresholdResidual.ts';
 import { mulberry } from '../helpers/random.ts';
@@ -151,6 +151,38 @@ describe('countingKernels', () => {
     for (let i = 0; i < model.mean.length; i++) model.mean[i] += 5 * Math.sin(i);
     const js = residualEnergy(model, f, { inverseNoiseVariance: weight, coefficientSample });
     expect(kernels.residual(f).dffs / js.dffs).toBeCloseTo(1, 4);
+  });
+
+  it('with followMean false, takes a changed mean on refreshMean only; takes a changed basis on refreshBasis', () => {
+    const { model, frame } = scene(40, 30, 3, 5);
+    const d = model.width * model.height;
+    const thresholds = new Float32Array(d).fill(3);
+    const coefficientSample = sampleCoefficientPixels(model, 3);
+    const kernels = countingKernels(model, { coefficientSample, thresholds, followMean: false })!;
+    const weight = Float32Array.from(model.noise, (s) => 1 / (s * s));
+    const f = frame(0.5, 1);
+    const before = residualEnergy(model, f, { inverseNoiseVariance: weight, coefficientSample }).dffs;
+    expect(kernels.residual(f).dffs / before).toBeCloseTo(1, 4);
+    for (let i = 0; i < d; i++) model.mean[i] += 5 * Math.sin(i);
+    // check: residualEnergy (the JS stage) on the model as it is now
+    const after = residualEnergy(model, f, { inverseNoiseVariance: weight, coefficientSample }).dffs;
+    expect(Math.abs(after / before - 1)).toBeGreaterThan(0.01);
+    expect(kernels.residual(f).dffs / before).toBeCloseTo(1, 4);
+    kernels.refreshMean();
+    expect(kernels.residual(f).dffs / after).toBeCloseTo(1, 4);
+    // A basis rotated in place (components swapped), its sample refreshed: the same residual.
+    const k = model.components;
+    for (let i = 0; i < d; i++) {
+      const first = model.basis[i * k];
+      model.basis[i * k] = model.basis[i * k + 1];
+      model.basis[i * k + 1] = first;
+    }
+    refreshCoefficientSample(coefficientSample, k);
+    kernels.refreshBasis();
+    const swapped = residualEnergy(model, f, { inverseNoiseVariance: weight, coefficientSample });
+    const ours = kernels.residual(f);
+    expect(ours.dffs / swapped.dffs).toBeCloseTo(1, 4);
+    expect(ours.coefficients[0]).toBeCloseTo(swapped.coefficients[0], 3);
   });
 
   it('is not offered without components or with the kernels turned off, and refuses more than 24 components', () => {
