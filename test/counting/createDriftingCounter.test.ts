@@ -116,6 +116,7 @@ describe('createDriftingCounter', () => {
         const background = { ...near, data: near.data.map((v) => v ^ 1) };
         const coefficients = ref.name === 'same' ? ref.counter.lastCoefficients() : undefined;
         adaptBackground(ref.own, frame, background, { rate: 1 - Math.exp(-1 / 10), noiseScale: Math.max(1, theirs.noiseScale), coefficients, out: ref.own.mean });
+        ref.counter.refreshMean();
         let change = 0;
         for (let i = 0; i < ref.own.mean.length; i++) change += ((ref.own.mean[i] - ref.meanAtRescale[i]) / Math.max(8, model.mean[i])) ** 2;
         if (Math.sqrt(change / ref.own.mean.length) > 0.01 && (ref.lastRescale === undefined || t - ref.lastRescale >= 10)) {
