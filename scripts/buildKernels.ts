@@ -20,6 +20,8 @@ export const BLOCK = 4;
  * the 16 SIMD registers of x86-64, and ran some 20% faster than 4 × 4 blocks (which spill).
  */
 const GRAM_ROWS = 2;
+/** Frames per `project` block (× BLOCK components): 8 accumulators stay in registers, as in gram. */
+const PROJECT_ROWS = 2;
 
 const zero = '(v128.const i32x4 0 0 0 0)';
 /** Lanes 2 and 3 of an f32x4 moved to lanes 0 and 1. */
@@ -145,18 +147,22 @@ function gramText(): string {
 
 /**
  * combine(rows, m, weights, k, d, tile, out): weighted sums of m frames. `rows` holds m i32 byte
- * addresses of the frames (d Float32 values each, d a multiple of 4); `weights` is m × k Float32,
+ * addresses of the frames (d Float32 values each, d a multiple of 8); `weights` is m × k Float32,
  * frame-major (the k weights of frame t at weights[t · k ..]), k a multiple of BLOCK; out is k × d
  * Float64, component-major, zeroed by the caller. Adds Σ_t weights[t, j] · frame_t[i] into
- * out[j · d + i]: four pixels per instruction, BLOCK components at a time, the products summed in
- * f32 lanes over `tile` frames at a time and the tile sums added in f64.
+ * out[j · d + i]: blocks of eight pixels (two vectors) × BLOCK components, whose 8 accumulators
+ * stay in registers while each loaded weight serves two products and each loaded pixel vector
+ * four; the products summed in f32 lanes over `tile` frames at a time and the tile sums added in
+ * f64.
  */
 function combineText(): string {
   const get = (x: string) => `(local.get $${x})`;
   const q = [...Array(BLOCK).keys()];
+  const h = [0, 1];
   return `(func (export "combine") (param $rows i32) (param $m i32) (param $weights i32) (param $k i32) (param $d i32) (param $tile i32) (param $out i32)
-  (local $end i32) (local $p i32) (local $g i32) (local $t0 i32) (local $t1 i32) (local $t i32) (local $w i32) (local $o i32) (local $v v128)
-  ${q.map((j) => `(local $s${j} v128)`).join(' ')}
+  (local $end i32) (local $p i32) (local $g i32) (local $t0 i32) (local $t1 i32) (local $t i32) (local $w i32) (local $o i32) (local $a i32) (local $x v128)
+  ${h.map((v) => `(local $v${v} v128)`).join(' ')}
+  ${h.flatMap((v) => q.map((j) => `(local $s${v}${j} v128)`)).join(' ')}
   (local.set $end (i32.shl ${get('d')} (i32.const 2)))
   (local.set $p (i32.const 0))
   ${loop('chunks', `(i32.ge_u ${get('p')} ${get('end')})`, [
@@ -165,23 +171,32 @@ function combineText(): string {
       '(local.set $t0 (i32.const 0))',
       loop('tiles', `(i32.ge_u ${get('t0')} ${get('m')})`, [
         `(local.set $t1 (select ${get('m')} (i32.add ${get('t0')} ${get('tile')}) (i32.lt_u ${get('m')} (i32.add ${get('t0')} ${get('tile')}))))`,
-        q.map((j) => `(local.set $s${j} ${zero})`).join(' '),
+        h.flatMap((v) => q.map((j) => `(local.set $s${v}${j} ${zero})`)).join(' '),
         `(local.set $t ${get('t0')})`,
         loop('frames', `(i32.ge_u ${get('t')} ${get('t1')})`, [
-          `(local.set $v (v128.load (i32.add (i32.load (i32.add ${get('rows')} (i32.shl ${get('t')} (i32.const 2)))) ${get('p')})))`,
+          `(local.set $a (i32.add (i32.load (i32.add ${get('rows')} (i32.shl ${get('t')} (i32.const 2)))) ${get('p')}))`,
+          `(local.set $v0 (v128.load ${get('a')}))`,
+          `(local.set $v1 (v128.load offset=16 ${get('a')}))`,
           `(local.set $w (i32.add ${get('weights')} (i32.shl (i32.add (i32.mul ${get('t')} ${get('k')}) ${get('g')}) (i32.const 2))))`,
-          ...q.map((j) => `(local.set $s${j} (f32x4.add ${get(`s${j}`)} (f32x4.mul ${get('v')} (v128.load32_splat offset=${4 * j} ${get('w')}))))`),
+          ...q.map(
+            (j) =>
+              `(local.set $x (v128.load32_splat offset=${4 * j} ${get('w')}))\n` +
+              h.map((v) => `(local.set $s${v}${j} (f32x4.add ${get(`s${v}${j}`)} (f32x4.mul ${get(`v${v}`)} ${get('x')})))`).join('\n'),
+          ),
           bump('t', '(i32.const 1)'),
         ]),
-        ...q.map((j) =>
-          `(local.set $o (i32.add ${get('out')} (i32.add (i32.shl (i32.mul (i32.add ${get('g')} (i32.const ${j})) ${get('d')}) (i32.const 3)) (i32.shl ${get('p')} (i32.const 1)))))\n` +
-          addWide(get('o'), get(`s${j}`)),
+        ...q.flatMap((j) =>
+          h.map(
+            (v) =>
+              `(local.set $o (i32.add ${get('out')} (i32.add (i32.shl (i32.mul (i32.add ${get('g')} (i32.const ${j})) ${get('d')}) (i32.const 3)) (i32.add (i32.shl ${get('p')} (i32.const 1)) (i32.const ${32 * v})))))\n` +
+              addWide(get('o'), get(`s${v}${j}`)),
+          ),
         ),
         `(local.set $t0 ${get('t1')})`,
       ]),
       bump('g', `(i32.const ${BLOCK})`),
     ]),
-    bump('p', '(i32.const 16)'),
+    bump('p', '(i32.const 32)'),
   ])})`;
 }
 
@@ -190,14 +205,15 @@ function combineText(): string {
  * `rows` holds m i32 byte addresses of the frames (d Float32 values each, d a multiple of 4,
  * m a multiple of BLOCK); `offset` is d Float32; `basis` is k × d Float32, component-major,
  * k a multiple of BLOCK; out is m × k Float64, frame-major, zeroed by the caller. Adds
- * Σ_i (frame_t[i] − offset[i]) · basis[j, i] into out[t · k + j], in blocks of BLOCK frames ×
+ * Σ_i (frame_t[i] − offset[i]) · basis[j, i] into out[t · k + j], in blocks of PROJECT_ROWS frames ×
  * BLOCK components, the products summed in f32 lanes over `tile` pixels at a time and the lane
  * sums added in f64 (as in gram).
  */
 function projectText(): string {
   const get = (x: string) => `(local.get $${x})`;
-  const r = [...Array(BLOCK).keys()];
-  const pairs = r.flatMap((i) => r.map((j) => [i, j] as const));
+  const r = [...Array(PROJECT_ROWS).keys()];
+  const c4 = [...Array(BLOCK).keys()];
+  const pairs = r.flatMap((i) => c4.map((j) => [i, j] as const));
   const lane = (s: string) =>
     `(f64.add (f64.add (f64.promote_f32 (f32x4.extract_lane 0 ${get(s)})) (f64.promote_f32 (f32x4.extract_lane 1 ${get(s)}))) ` +
     `(f64.add (f64.promote_f32 (f32x4.extract_lane 2 ${get(s)})) (f64.promote_f32 (f32x4.extract_lane 3 ${get(s)}))))`;
@@ -205,13 +221,12 @@ function projectText(): string {
     `(local.set $q (i32.add ${get('out')} (i32.shl (i32.add (i32.mul (i32.add ${get('a')} (i32.const ${i})) ${get('k')}) (i32.add ${get('b')} (i32.const ${j}))) (i32.const 3))))\n` +
     `(f64.store ${get('q')} (f64.add (f64.load ${get('q')}) ${lane(`s${i}${j}`)}))`;
   return `(func (export "project") (param $rows i32) (param $m i32) (param $offset i32) (param $basis i32) (param $k i32) (param $d i32) (param $tile i32) (param $out i32)
-  (local $stride i32) (local $p0 i32) (local $p1 i32) (local $a i32) (local $b i32) (local $p i32) (local $q i32) (local $c v128)
+  (local $stride i32) (local $p0 i32) (local $p1 i32) (local $a i32) (local $b i32) (local $p i32) (local $q i32) (local $c v128) (local $v v128)
   ${[
     ...pairs.map(([i, j]) => `(local $s${i}${j} v128)`),
     ...r.map((i) => `(local $u${i} v128)`),
-    ...r.map((j) => `(local $v${j} v128)`),
     ...r.map((i) => `(local $pa${i} i32)`),
-    ...r.map((j) => `(local $pb${j} i32)`),
+    ...c4.map((j) => `(local $pb${j} i32)`),
   ].join(' ')}
   (local.set $stride (i32.shl ${get('d')} (i32.const 2)))
   (local.set $p0 (i32.const 0))
@@ -222,20 +237,23 @@ function projectText(): string {
       ...r.map((i) => `(local.set $pa${i} (i32.load (i32.add ${get('rows')} (i32.shl (i32.add ${get('a')} (i32.const ${i})) (i32.const 2)))))`),
       '(local.set $b (i32.const 0))',
       loop('components', `(i32.ge_u ${get('b')} ${get('k')})`, [
-        ...r.map((j) => `(local.set $pb${j} (i32.add ${get('basis')} (i32.mul (i32.add ${get('b')} (i32.const ${j})) ${get('stride')})))`),
+        ...c4.map((j) => `(local.set $pb${j} (i32.add ${get('basis')} (i32.mul (i32.add ${get('b')} (i32.const ${j})) ${get('stride')})))`),
         pairs.map(([i, j]) => `(local.set $s${i}${j} ${zero})`).join(' '),
         `(local.set $p (i32.shl ${get('p0')} (i32.const 2)))`,
         loop('pixels', `(i32.ge_u ${get('p')} (i32.shl ${get('p1')} (i32.const 2)))`, [
           `(local.set $c (v128.load (i32.add ${get('offset')} ${get('p')})))`,
           ...r.map((i) => `(local.set $u${i} (f32x4.sub (v128.load (i32.add ${get(`pa${i}`)} ${get('p')})) ${get('c')}))`),
-          ...r.map((j) => `(local.set $v${j} (v128.load (i32.add ${get(`pb${j}`)} ${get('p')})))`),
-          ...pairs.map(([i, j]) => `(local.set $s${i}${j} (f32x4.add ${get(`s${i}${j}`)} (f32x4.mul ${get(`u${i}`)} ${get(`v${j}`)})))`),
+          ...c4.map(
+            (j) =>
+              `(local.set $v (v128.load (i32.add ${get(`pb${j}`)} ${get('p')})))\n` +
+              r.map((i) => `(local.set $s${i}${j} (f32x4.add ${get(`s${i}${j}`)} (f32x4.mul ${get(`u${i}`)} ${get('v')})))`).join('\n'),
+          ),
           bump('p', '(i32.const 16)'),
         ]),
         ...pairs.map(([i, j]) => cell(i, j)),
         bump('b', `(i32.const ${BLOCK})`),
       ]),
-      bump('a', `(i32.const ${BLOCK})`),
+      bump('a', `(i32.const ${PROJECT_ROWS})`),
     ]),
     `(local.set $p0 ${get('p1')})`,
   ])})`;

@@ -5,8 +5,11 @@
 
 import { SELECT_BINS as KERNEL_SELECT_BINS } from '../src/vision/countingKernels.ts';
 
-/** Components are taken four at a time; a module has variants for 1, 2 and 3 groups (k ≤ 12). */
-export const COUNTING_GROUPS = [1, 2, 3] as const;
+/**
+ * Components are taken four at a time; a module has a variant for each group count from 1 to 6
+ * (k ≤ 24, MAX_KERNEL_COMPONENTS in src/vision/countingKernels.ts).
+ */
+export const COUNTING_GROUPS = [1, 2, 3, 4, 5, 6] as const;
 /** Pixels whose f32 lane sums are added into the f64 totals at a time. */
 export const COUNTING_TILE = 256;
 

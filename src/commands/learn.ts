@@ -16,6 +16,7 @@ import { numberOption, parseOptions, requireOption, UsageError } from './args.ts
 import { frameInput } from './frameInput.ts';
 import { progressLine } from './progressLine.ts';
 import { random } from '../frames/synthetic/random.ts';
+import { MAX_KERNEL_COMPONENTS } from '../vision/countingKernels.ts';
 
 export const learnUsage = `residuum learn --frames <folder|video|synthetic:scene:empty> --out <model file>
                 [--width W] [--components K | --variance V] [--max-components N]
@@ -29,9 +30,9 @@ is kept; the report says how much was set aside, and the verdict is "poor" when 
                     synthetic:<scene> (synthetic:<scene>:empty for the scene without people)
   --out             the model file to write
   --width           working width in pixels (default: long side 320, aspect kept)
-  --components      number of eigen-images to keep (default: by --variance)
+  --components      number of eigen-images to keep, at most 24 (default: by --variance)
   --variance        share of the variation to keep, 0 < V ≤ 1 (default 0.95)
-  --max-components  upper bound when choosing by variance (default 12)
+  --max-components  upper bound when choosing by variance, at most 24 (default 12)
   --every           use one frame in N (default 1)
   --limit           use at most N frames (default 500), chosen evenly at random over all the
                     frames read, so that learning sees the whole recording
@@ -75,10 +76,10 @@ export async function learnCommand(argv: string[], io = { out: process.stdout, e
   const frames = requireOption(v.frames, 'frames', 'the folder, video or scene to learn from');
   const out = requireOption(v.out, 'out', 'the model file to write');
   const width = numberOption(v.width, 'width', { min: 16, max: 4096, integer: true });
-  const components = numberOption(v.components, 'components', { min: 0, max: 64, integer: true });
+  const components = numberOption(v.components, 'components', { min: 0, max: MAX_KERNEL_COMPONENTS, integer: true });
   const variance = numberOption(v.variance, 'variance', { min: Number.MIN_VALUE, max: 1 });
   if (components !== undefined && variance !== undefined) throw new UsageError('give --components or --variance, not both');
-  const maxComponents = numberOption(v['max-components'], 'max-components', { min: 0, max: 64, integer: true });
+  const maxComponents = numberOption(v['max-components'], 'max-components', { min: 0, max: MAX_KERNEL_COMPONENTS, integer: true });
   const every = numberOption(v.every, 'every', { min: 1, integer: true }) ?? 1;
   const limit = numberOption(v.limit, 'limit', { min: 2, integer: true }) ?? 500;
   const read = numberOption(v.read, 'read', { min: 2, integer: true });
@@ -203,9 +204,9 @@ async function learnFromCamera(
   const camera = config.cameras.find((c) => c.id === id);
   if (!camera) throw new UsageError(`--camera: no camera "${id}" in ${config.file} (known: ${config.cameras.map((c) => c.id).join(', ')})`);
   const seconds = numberOption(v.seconds as string | undefined, 'seconds', { min: 1, max: 3600 }) ?? camera.learnSeconds;
-  const components = numberOption(v.components as string | undefined, 'components', { min: 0, max: 64, integer: true });
+  const components = numberOption(v.components as string | undefined, 'components', { min: 0, max: MAX_KERNEL_COMPONENTS, integer: true });
   const variance = numberOption(v.variance as string | undefined, 'variance', { min: Number.MIN_VALUE, max: 1 });
-  const maxComponents = numberOption(v['max-components'] as string | undefined, 'max-components', { min: 0, max: 64, integer: true });
+  const maxComponents = numberOption(v['max-components'] as string | undefined, 'max-components', { min: 0, max: MAX_KERNEL_COMPONENTS, integer: true });
 
   const frames: Float32Array[] = [];
   const progress = progressLine(io.err, `learning from ${id}`, Math.round(seconds));

@@ -9,7 +9,7 @@ import { createBitMask, packMask, unpackMask } from '../vision/bitMask.ts';
 import { clearLightChanges } from '../vision/clearLightChanges.ts';
 import { countingKernels, type CountingKernels } from '../vision/countingKernels.ts';
 import { frameNoiseScale } from '../vision/frameNoiseScale.ts';
-import { residualEnergy, sampleCoefficientPixels } from '../vision/residualEnergy.ts';
+import { refreshCoefficientSample, residualEnergy, sampleCoefficientPixels } from '../vision/residualEnergy.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import type { FrameTally } from '../vision/tallyZones.ts';
 import { COUNTER_STAGES, CounterStage, createMaskCounter, type MaskCounterOptions } from './createMaskCounter.ts';
@@ -51,7 +51,7 @@ export interface CounterOptions extends MaskCounterOptions {
   shadows?: Pick<SuppressShadowsOptions, 'alphaLow' | 'alphaHigh' | 'maxChromaDistortion'>;
   /**
    * Count with the WebAssembly SIMD kernels (countingKernels) and the packed-mask stages where
-   * they apply (1 to 12 components, coefficientStride ≥ 2, smoothRadius 1; and the kernels are
+   * they apply (1 to 24 components, coefficientStride ≥ 2, smoothRadius 1; and the kernels are
    * on, see setKernelsEnabled); default true. false always takes the JS stages.
    */
   kernels?: boolean;
@@ -103,6 +103,23 @@ export interface Counter {
   readonly stageTimes: Float64Array;
 }
 
+/** createCounter's counter, with what the drift adaptation needs of it. */
+export interface SubspaceCounter extends Counter {
+  /** The robust subspace coordinates y of the last counted frame (length k; the counter's own buffer). */
+  lastCoefficients(): Float64Array;
+  /**
+   * Takes the model's basis again after the caller changed `model.basis` in place (the drifting
+   * counter's rescaled eigen-images): refreshes the coefficient sample and the kernels' planes
+   * in their own buffers; no new counter, no new memory.
+   */
+  refreshBasis(): void;
+  /**
+   * Takes `model.mean` again after the caller changed it in place (the drifting counter's
+   * background update); the kernels copy it only then, not on every frame.
+   */
+  refreshMean(): void;
+}
+
 /**
  * One camera's counting pipeline: residual energy against the empty-scene model → threshold in
  * noise units → (colour mode: clear cast shadows) → opening and closing → connected components →
@@ -113,7 +130,7 @@ export interface Counter {
  * μ_i, so that a frame lit more dimly, or a lamp switched off, is not taken for one large shadow
  * (computed at the foreground pixels only).
  */
-export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): Counter {
+export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFrameZone], options: CounterOptions = {}): SubspaceCounter {
   const { smoothRadius = 1, adaptToFrameNoise = true, coefficientStride = 7, timeStages = false, colourModel, shadows = {}, kernels: useKernels = true, clearLight = true } = options;
   if (colourModel !== undefined) assertSameSize(model, colourModel, 'colour model');
   const { width, height } = model;
@@ -137,7 +154,7 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     distortion: { alpha: new Float32Array(d), cd: new Float32Array(d) },
   };
   const coefficientSample = coefficientStride > 1 ? sampleCoefficientPixels(model, coefficientStride) : undefined;
-  const kernels = useKernels && coefficientSample !== undefined && smoothRadius === 1 ? countingKernels(model, { coefficientSample, thresholds }) : undefined;
+  const kernels = useKernels && coefficientSample !== undefined && smoothRadius === 1 ? countingKernels(model, { coefficientSample, thresholds, followMean: false }) : undefined;
   const rawBits = createBitMask(width, height);
   const lightBuffers = clearLight ? { lit: createMask(width, height), scratch: new Float64Array(5 * (width + 1) * (height + 1)) } : undefined;
   /** The mask with changes of light cleared (lightBuffers.lit), or the mask itself without clearLight. */
@@ -193,6 +210,14 @@ export function createCounter(model: Subspace, zones: readonly Zone[] = [wholeFr
     },
     lastMask: () => stages.lastMask(),
     stageTimes,
+    lastCoefficients: () => coefficients,
+    refreshBasis() {
+      if (coefficientSample !== undefined) refreshCoefficientSample(coefficientSample, model.components);
+      kernels?.refreshBasis();
+    },
+    refreshMean() {
+      kernels?.refreshMean();
+    },
   };
 
   /** count() on the kernels: the packed threshold mask goes straight to the packed stages (in colour mode, unpacked for the shadows). */

@@ -67,9 +67,9 @@ const adaptedMeans = new WeakMap<Counter, { readonly model: Subspace }>();
  * createCounter with a background that follows slow drift of the scene (daylight, lamps, exposure)
  * and, per zone, absorbs changed but static objects after a while.
  *
- * The counter keeps its own copy of the model. Its mean is updated in place between frames:
- * createCounter reads `model.mean` on every frame, and the noise levels it precomputes from (the
- * inverse noise variances, the thresholds) do not change. At most every `updateSeconds`, after
+ * The counter keeps its own copy of the model. Its mean is updated in place between frames and
+ * the inner counter told so (refreshMean); the noise levels it precomputes from (the inverse
+ * noise variances, the thresholds) do not change. At most every `updateSeconds`, after
  * counting a frame:
  *
  * 1. Background pixels: not in the frame's cleaned foreground mask dilated by `margin`; the
@@ -87,8 +87,14 @@ const adaptedMeans = new WeakMap<Counter, { readonly model: Subspace }>();
  * 4. Eigen-images: once the mean has moved by `rescaleAfter` (relative, RMS) since the last
  *    time, the learned eigen-images are rescaled to its light (rescaleBasis: under a sunbeam the
  *    learned lamp brightens the floor more than it did while learning; an absorbed box varies
- *    with its own brightness, not the floor's). createCounter precomputes from the basis (the
- *    rows of its coefficient sample), so this makes a new inner counter, before the next frame.
+ *    with its own brightness, not the floor's). The rescaled eigen-images are written over the
+ *    counter's own copy of the basis, and the inner counter takes them in place (refreshBasis:
+ *    its coefficient sample and kernel planes), before the next frame: no new counter or memory.
+ *
+ * Cost per update: the subspace coordinates are the counter's robust ones of the same frame
+ * (no fit of its own), the rest is a few passes over the pixels in Float32 arrays (adaptBackground;
+ * the field's running sums in Float64); a rescale is two passes of k²/2 multiply-adds per pixel
+ * (rescaleBasis) and a copy of the basis into the kernels' planes.
  *
  * The learned model is never written. With `adaptToDrift: false` and no zone setting
  * `absorbSeconds`, this is createCounter on the learned model, frame for frame. With
@@ -134,14 +140,21 @@ export function createDriftingCounter(
   const d = width * height;
   const carried = continueFrom === undefined ? undefined : adaptedMeans.get(continueFrom)?.model;
   const fits = carried !== undefined && carried.width === width && carried.height === height && carried.components === model.components;
-  // The counter's own model: the mean is updated in place; the basis is replaced when rescaled.
-  let own: Subspace = { ...model, mean: Float32Array.from(fits ? carried.mean : model.mean), basis: fits ? carried.basis : model.basis };
-  let inner = createCounter(own, list, options);
+  // The counter's own model: the mean is updated in place, and so is the basis when it is rescaled
+  // (then it is the counter's own copy; the learned one otherwise, shared).
+  const rescaling = adaptToDrift && model.components > 0 && rescaleAfter !== Infinity;
+  const startBasis = fits ? carried.basis : model.basis;
+  const own: Subspace = {
+    ...model,
+    mean: Float32Array.from(fits ? carried.mean : model.mean),
+    basis: (rescaling || fits) && model.components > 0 ? Float32Array.from(startBasis) : model.basis,
+  };
+  const inner = createCounter(own, list, options);
   const zonesPrepared = inner.zones;
   const stageTimes = new Float64Array(inner.stageTimes.length);
   // The mean at the last rescaling of the basis (the learned one at first).
   const meanAtRescale = Float32Array.from(fits ? carried.mean : model.mean);
-  let rescalePending = fits && carried.basis !== model.basis ? false : !sameArray(own.mean, model.mean);
+  let rescalePending = own.basis === model.basis || (fits && carried.basis !== model.basis) ? false : !sameArray(own.mean, model.mean);
 
   // Seconds a pixel must stay foreground before it is absorbed (Infinity: never).
   const absorbAfter = new Float32Array(absorbing ? d : 0).fill(Infinity);
@@ -198,29 +211,34 @@ export function createDriftingCounter(
     if (rate === 0 && absorbNow === 0) return;
     dilate(mask, { radius: margin, out: near, scratch: morphScratch });
     for (let i = 0; i < d; i++) background.data[i] = near.data[i] ^ 1;
+    // The counter's robust coordinates of this frame (fitted on the pixels its residual explains)
+    // stand for adaptBackground's own fit on the background pixels, which would cost a pass.
     const step = adaptBackground(own, frame, background, {
       rate,
       maybeLevel,
       noiseScale,
       ...(absorbNow > 0 && { absorb }),
+      coefficients: inner.lastCoefficients(),
       out: own.mean,
       scratch,
     });
     if (!step.applied) return;
+    inner.refreshMean();
     updates++;
     absorbedPixels += step.absorbed;
     let shift = 0;
+    let change = 0;
+    const learned = model.mean;
+    const mean = own.mean;
     for (let i = 0; i < d; i++) {
-      const delta = own.mean[i] - model.mean[i];
+      const m = mean[i];
+      const delta = m - learned[i];
       shift += delta * delta;
+      const moved = (m - meanAtRescale[i]) / Math.max(8, learned[i]);
+      change += moved * moved;
     }
     meanShift = Math.sqrt(shift / d);
-    if (model.components > 0 && rescaleAfter !== Infinity) {
-      let change = 0;
-      for (let i = 0; i < d; i++) {
-        const delta = (own.mean[i] - meanAtRescale[i]) / Math.max(8, model.mean[i]);
-        change += delta * delta;
-      }
+    if (rescaling) {
       if (Math.sqrt(change / d) > rescaleAfter && (lastRescale === undefined || now - lastRescale >= driftSeconds * 1000)) {
         rescalePending = true;
         lastRescale = now;
@@ -229,16 +247,16 @@ export function createDriftingCounter(
   }
 
   /**
-   * A new inner counter on the learned eigen-images rescaled to the adapted mean (createCounter
-   * precomputes from the basis, so a new basis needs a new counter); the mean array carries over.
+   * The learned eigen-images rescaled to the adapted mean, written over the counter's own basis;
+   * the counter then takes them into its coefficient sample and kernel planes (refreshBasis):
+   * no new counter and no new memory.
    */
   function rescale(): void {
     rescalePending = false;
     rescales++;
     meanAtRescale.set(own.mean);
-    own = { ...own, basis: rescaleBasis(model, own.mean) };
-    inner = createCounter(own, list, options);
-    adaptedMeans.set(counter, { model: own });
+    rescaleBasis(model, own.mean, { out: own.basis });
+    inner.refreshBasis();
   }
 
   const counter: DriftingCounter = {

@@ -23,6 +23,12 @@ export interface AdaptBackgroundOptions {
   minSupport?: number;
   /** Pixels (1) whose whole residual is taken into the mean at once: a static object being absorbed. Default none. */
   absorb?: Uint8Array;
+  /**
+   * The frame's subspace coordinates y when the caller has them already (length k; e.g. the
+   * counter's robust coordinates of the same frame, fitted on the pixels its residual explains):
+   * step 1 below is then skipped, a pass of d·k²/2 multiply-adds. Default: fitted here.
+   */
+  coefficients?: Float64Array;
   /** The updated mean; may be `model.mean` itself to update in place. Default: a new array. */
   out?: Float32Array;
   /** Work buffers reused between calls (allocated when not given; contents on return unspecified). */
@@ -35,9 +41,9 @@ export interface AdaptBackgroundScratch {
   readonly residual: Float32Array;
   /** Length d: the relative residual r / (z − r) of used pixels. */
   readonly relative: Float32Array;
-  /** Length d: that relative residual averaged around each pixel. */
+  /** Length d: that relative residual averaged around each left-out pixel (NaN where no window had support; other pixels unspecified). */
   readonly field: Float32Array;
-  /** Length 2·d: running sums of the normalised convolution. */
+  /** Length 2·(width + 1)·(height + 1): the summed-area tables of the normalised convolution. */
   readonly sums: Float64Array;
   /** Length d: the used pixels (1) of this update. */
   readonly used: Uint8Array;
@@ -62,7 +68,7 @@ export interface BackgroundUpdate {
 /** Allocates the work buffers for a width × height frame. */
 export function adaptBackgroundScratch(width: number, height: number): AdaptBackgroundScratch {
   const d = width * height;
-  return { residual: new Float32Array(d), relative: new Float32Array(d), field: new Float32Array(d), sums: new Float64Array(2 * d), used: new Uint8Array(d) };
+  return { residual: new Float32Array(d), relative: new Float32Array(d), field: new Float32Array(d), sums: new Float64Array(2 * (width + 1) * (height + 1)), used: new Uint8Array(d) };
 }
 
 /**
@@ -117,6 +123,7 @@ export function adaptBackground(
     fieldRadius = Math.ceil(height / 24),
     minSupport = 0.25,
     absorb,
+    coefficients,
     out,
     scratch = adaptBackgroundScratch(width, height),
   } = options;
@@ -132,10 +139,11 @@ export function adaptBackground(
   }
   if (mean.length !== d || basis.length !== d * k || noise.length !== d) throw new RangeError(`mean, basis and noise must fit ${width}×${height} pixels and ${k} components`);
   if (absorb !== undefined && absorb.length !== d) throw new RangeError(`absorb has length ${absorb.length}, expected ${d}`);
+  if (coefficients !== undefined && coefficients.length !== k) throw new RangeError(`coefficients has length ${coefficients.length}, expected ${k}`);
   const result = out ?? new Float32Array(d);
   if (result.length !== d) throw new RangeError(`out has length ${result.length}, expected ${d}`);
   const { residual, relative, field, sums, used } = scratch;
-  if (residual.length !== d || relative.length !== d || field.length !== d || used.length !== d || sums.length !== 2 * d) {
+  if (residual.length !== d || relative.length !== d || field.length !== d || used.length !== d || sums.length < 2 * (width + 1) * (height + 1)) {
     throw new RangeError(`scratch buffers must fit ${d} pixels (see adaptBackgroundScratch)`);
   }
 
@@ -145,7 +153,8 @@ export function adaptBackground(
   let kept = 0;
   for (let i = 0; i < d; i++) kept += bg[i] !== 0 ? 1 : 0;
   // No background, or too little to fit k coordinates (fewer than 2k pixels): leave the mean as it is.
-  if (kept < Math.max(2 * k, 1) || !fitCoordinates(z, mean, basis, k, bg, kept, y)) {
+  if (coefficients !== undefined) y.set(coefficients);
+  if (kept < Math.max(2 * k, 1) || (coefficients === undefined && !fitCoordinates(z, mean, basis, k, bg, kept, y))) {
     if (result !== mean) result.set(mean);
     return { mean: result, coefficients: y, used: 0, filled: 0, absorbed: 0, applied: false };
   }
@@ -164,13 +173,10 @@ export function adaptBackground(
     relative[i] = use ? r / Math.max(1, z[i] - r) : 0;
   }
   const filling = usedCount < d;
-  if (filling) {
-    field.fill(NaN);
-    for (const radius of [fieldRadius, 3 * fieldRadius, 9 * fieldRadius]) {
-      if (!normalisedBoxMean(relative, used, width, height, radius, minSupport, sums, field)) break;
-      if (radius >= Math.max(width, height)) break;
-    }
-  }
+  if (filling) summedAreaTables(relative, used, width, height, sums);
+  const w1 = width + 1;
+  const size = w1 * (height + 1);
+  const radii = [fieldRadius, 3 * fieldRadius, 9 * fieldRadius].filter((r, n, all) => n === 0 || all[n - 1] < Math.max(width, height));
 
   let filled = 0;
   let absorbed = 0;
@@ -181,11 +187,34 @@ export function adaptBackground(
       absorbed++;
     } else if (used[i]) {
       result[i] = m + rate * residual[i];
-    } else if (filling && !Number.isNaN(field[i])) {
-      result[i] = m + rate * field[i] * Math.max(1, z[i] - residual[i]);
-      filled++;
     } else {
-      result[i] = m;
+      // The average relative drift of the used pixels around: the smallest window with support.
+      let f = NaN;
+      const x = i % width;
+      const y = (i - x) / width;
+      for (const r of radii) {
+        const x0 = Math.max(0, x - r);
+        const x1 = Math.min(width, x + r + 1);
+        const y0 = Math.max(0, y - r);
+        const y1 = Math.min(height, y + r + 1);
+        const a = y0 * w1 + x0;
+        const b = y0 * w1 + x1;
+        const c0 = y1 * w1 + x0;
+        const c1 = y1 * w1 + x1;
+        // The certainty sums are whole numbers (rounding removes float drift of the sums).
+        const c = Math.round(sums[size + c1] - sums[size + b] - sums[size + c0] + sums[size + a]);
+        if (c >= 1 && c >= minSupport * (x1 - x0) * (y1 - y0)) {
+          f = (sums[c1] - sums[b] - sums[c0] + sums[a]) / c;
+          break;
+        }
+      }
+      field[i] = f;
+      if (!Number.isNaN(f)) {
+        result[i] = m + rate * f * Math.max(1, z[i] - residual[i]);
+        filled++;
+      } else {
+        result[i] = m;
+      }
     }
   }
   return { mean: result, coefficients: y, used: usedCount, filled, absorbed, applied: true };
@@ -229,77 +258,29 @@ function fitCoordinates(
 }
 
 /**
- * Normalised convolution with a (2r + 1)² box: Σ c·v / Σ c over the window (inside the image),
- * written into `out` where it is still NaN and the window holds at least minSupport × its
- * pixels inside the image with certainty. `value` must be 0 where c is 0. Separable running
- * sums (rows into `sums`, then columns). Returns whether some pixel of `out` is still NaN.
+ * Summed-area tables (Crow 1984) of `value` and `certainty`, each (width + 1) × (height + 1) with
+ * a zero row and column in front, into sums[0 ..] and sums[(width + 1)(height + 1) ..]: any box
+ * sum of either is then four lookups, for the normalised convolution (Knutsson & Westin 1993) at
+ * the left-out pixels only. `value` must be 0 where the certainty is 0.
  */
-function normalisedBoxMean(
-  value: Float32Array,
-  certainty: Uint8Array,
-  width: number,
-  height: number,
-  r: number,
-  minSupport: number,
-  sums: Float64Array,
-  out: Float32Array,
-): boolean {
-  const d = width * height;
+function summedAreaTables(value: Float32Array, certainty: Uint8Array, width: number, height: number, sums: Float64Array): void {
+  const w1 = width + 1;
+  const size = w1 * (height + 1);
+  sums.fill(0, 0, w1);
+  sums.fill(0, size, size + w1);
   for (let y = 0; y < height; y++) {
-    const row = y * width;
-    let sv = 0;
-    let sc = 0;
-    for (let x = 0; x < Math.min(r, width); x++) {
-      sv += value[row + x];
-      sc += certainty[row + x];
-    }
-    for (let x = 0; x < width; x++) {
-      const add = x + r;
-      if (add < width) {
-        sv += value[row + add];
-        sc += certainty[row + add];
-      }
-      const drop = x - r - 1;
-      if (drop >= 0) {
-        sv -= value[row + drop];
-        sc -= certainty[row + drop];
-      }
-      sums[row + x] = sv;
-      sums[d + row + x] = sc;
-    }
-  }
-  const colV = new Float64Array(width);
-  const colC = new Float64Array(width);
-  for (let y = 0; y < Math.min(r, height); y++) {
-    for (let x = 0; x < width; x++) {
-      colV[x] += sums[y * width + x];
-      colC[x] += sums[d + y * width + x];
-    }
-  }
-  let missing = false;
-  for (let y = 0; y < height; y++) {
-    const add = y + r;
-    const drop = y - r - 1;
-    for (let x = 0; x < width; x++) {
-      if (add < height) {
-        colV[x] += sums[add * width + x];
-        colC[x] += sums[d + add * width + x];
-      }
-      if (drop >= 0) {
-        colV[x] -= sums[drop * width + x];
-        colC[x] -= sums[d + drop * width + x];
-      }
-    }
-    const rows = Math.min(height - 1, y + r) - Math.max(0, y - r) + 1;
+    const row = (y + 1) * w1;
+    sums[row] = 0;
+    sums[size + row] = 0;
+    let rv = 0;
+    let rc = 0;
     for (let x = 0; x < width; x++) {
       const i = y * width + x;
-      if (!Number.isNaN(out[i])) continue;
-      const cols = Math.min(width - 1, x + r) - Math.max(0, x - r) + 1;
-      // The certainty sums are whole numbers (rounding removes float drift of the running sums).
-      const c = Math.round(colC[x]);
-      if (c >= 1 && c >= minSupport * rows * cols) out[i] = colV[x] / c;
-      else missing = true;
+      rv += value[i];
+      rc += certainty[i];
+      const j = row + x + 1;
+      sums[j] = sums[j - w1] + rv;
+      sums[size + j] = sums[size + j - w1] + rc;
     }
   }
-  return missing;
 }

@@ -30,8 +30,9 @@ export interface ClearLightChangesOptions {
  * (D. Grest, J.-M. Frahm & R. Koch, "A color similarity measure for robust shadow removal in
  * real time", VMV 2003; J. C. S. Jacques Jr., C. R. Jung & S. R. Musse, "Background subtraction
  * and shadow detection in grayscale video sequences", SIBGRAPI 2005), with the brightness ratio
- * (the window's mean frame ÷ mean background) held to `gain`. Window sums come from summed-area
- * tables (Crow 1984), so the cost does not grow with the window.
+ * (the window's mean frame ÷ mean background) held to `gain`. Window sums are summed directly
+ * around each candidate when there are few (under 2 / (2·radius + 1)² of the pixels), else taken
+ * from summed-area tables (Crow 1984) over the whole frame, whose cost does not grow with the window.
  *
  * `noise` is the per-pixel noise level (grey levels) that tells texture from flat background.
  *
@@ -57,33 +58,72 @@ export function clearLightChanges(
   const f = frame.data;
   const m = background.data;
   const c = candidates.data;
-  let any = false;
-  for (let i = 0; i < c.length; i++) if (c[i]) {
-    any = true;
-    break;
+  let count = 0;
+  for (let i = 0; i < c.length; i++) count += c[i] !== 0 ? 1 : 0;
+  if (count === 0) return result;
+  const side = 2 * radius + 1;
+  // Few candidates (the usual frame): each window summed directly, cheaper than the five tables
+  // over the whole frame; many: the tables. The same sums either way, up to rounding.
+  if (count * side * side < 2 * c.length) {
+    for (let y = 0; y < height; y++) {
+      const y0 = Math.max(0, y - radius);
+      const y1 = Math.min(height, y + radius + 1);
+      for (let x = 0; x < width; x++) {
+        const i = y * width + x;
+        if (!c[i]) continue;
+        const x0 = Math.max(0, x - radius);
+        const x1 = Math.min(width, x + radius + 1);
+        let tf = 0;
+        let tm = 0;
+        let tff = 0;
+        let tmm = 0;
+        let tfm = 0;
+        for (let v = y0; v < y1; v++) {
+          for (let u = v * width + x0, end = v * width + x1; u < end; u++) {
+            const a = f[u];
+            const b = m[u];
+            tf += a;
+            tm += b;
+            tff += a * a;
+            tmm += b * b;
+            tfm += a * b;
+          }
+        }
+        if (isLight(tf, tm, tff, tmm, tfm, (x1 - x0) * (y1 - y0), noise[i])) result.data[i] = 0;
+      }
+    }
+    return result;
   }
-  if (!any) return result;
 
-  // Summed-area tables of f, m, f², m², f·m with a zero row and column in front.
+  // Summed-area tables of f, m, f², m², f·m with a zero row and column in front, interleaved (the
+  // five sums of an entry side by side, so that a lookup touches one place), over the rows the
+  // candidates' windows reach only: a table started at row y₀ gives the same window sums there.
+  let firstRow = height;
+  let lastRow = -1;
+  for (let i = 0; i < c.length; i++) {
+    if (c[i]) {
+      const y = (i / width) | 0;
+      if (y < firstRow) firstRow = y;
+      lastRow = y;
+    }
+  }
+  const top = Math.max(0, firstRow - radius);
+  const bottom = Math.min(height, lastRow + radius + 1);
   const w1 = width + 1;
   const size = w1 * (height + 1);
   if (scratch !== undefined && scratch.length < 5 * size) throw new RangeError(`scratch must hold at least ${5 * size} values, got ${scratch.length}`);
-  const work = scratch ?? new Float64Array(5 * size);
-  const tables = [0, 1, 2, 3, 4].map((k) => work.subarray(k * size, (k + 1) * size));
-  // Row 0 and column 0 of each table are 0; every other entry is written below.
-  for (const t of tables) {
-    t.fill(0, 0, w1);
-    for (let y = 1; y <= height; y++) t[y * w1] = 0;
-  }
-  const [sf, sm, sff, smm, sfm] = tables;
-  for (let y = 0; y < height; y++) {
+  const t = scratch ?? new Float64Array(5 * size);
+  // Row `top` and column 0 are 0; every other entry of rows top + 1 … bottom is written below.
+  t.fill(0, 5 * top * w1, 5 * (top + 1) * w1);
+  for (let y = top; y < bottom; y++) {
     let rf = 0;
     let rm = 0;
     let rff = 0;
     let rmm = 0;
     let rfm = 0;
-    for (let x = 0; x < width; x++) {
-      const i = y * width + x;
+    let j = 5 * (y + 1) * w1;
+    t[j] = t[j + 1] = t[j + 2] = t[j + 3] = t[j + 4] = 0;
+    for (let x = 0, i = y * width; x < width; x++, i++) {
       const a = f[i];
       const b = m[i];
       rf += a;
@@ -91,17 +131,16 @@ export function clearLightChanges(
       rff += a * a;
       rmm += b * b;
       rfm += a * b;
-      const j = (y + 1) * w1 + x + 1;
-      const up = j - w1;
-      sf[j] = sf[up] + rf;
-      sm[j] = sm[up] + rm;
-      sff[j] = sff[up] + rff;
-      smm[j] = smm[up] + rmm;
-      sfm[j] = sfm[up] + rfm;
+      j += 5;
+      const up = j - 5 * w1;
+      t[j] = t[up] + rf;
+      t[j + 1] = t[up + 1] + rm;
+      t[j + 2] = t[up + 2] + rff;
+      t[j + 3] = t[up + 3] + rmm;
+      t[j + 4] = t[up + 4] + rfm;
     }
   }
-  const boxSum = (t: Float64Array, x0: number, y0: number, x1: number, y1: number) => t[y1 * w1 + x1] - t[y0 * w1 + x1] - t[y1 * w1 + x0] + t[y0 * w1 + x0];
-  for (let y = 0; y < height; y++) {
+  for (let y = firstRow; y <= lastRow; y++) {
     const y0 = Math.max(0, y - radius);
     const y1 = Math.min(height, y + radius + 1);
     for (let x = 0; x < width; x++) {
@@ -110,22 +149,37 @@ export function clearLightChanges(
       const x0 = Math.max(0, x - radius);
       const x1 = Math.min(width, x + radius + 1);
       const n = (x1 - x0) * (y1 - y0);
-      const mf = boxSum(sf, x0, y0, x1, y1) / n;
-      const mm = boxSum(sm, x0, y0, x1, y1) / n;
-      if (!(mm > 1)) continue;
-      const ratio = mf / mm;
-      if (ratio < gain[0] || ratio > gain[1]) continue;
-      const vf = Math.max(0, boxSum(sff, x0, y0, x1, y1) / n - mf * mf);
-      const vm = Math.max(0, boxSum(smm, x0, y0, x1, y1) / n - mm * mm);
-      const level = flatLevel * noise[i];
-      if (vm <= level * level) {
-        // No texture to compare: a flat frame there is a uniform change of brightness.
-        if (flat === 'light' && vf <= (level * ratio) ** 2) result.data[i] = 0;
-        continue;
-      }
-      const cov = boxSum(sfm, x0, y0, x1, y1) / n - mf * mm;
-      if (vf > 0 && cov / Math.sqrt(vf * vm) >= minCorrelation) result.data[i] = 0;
+      const a = 5 * (y1 * w1 + x1);
+      const b = 5 * (y0 * w1 + x1);
+      const e = 5 * (y1 * w1 + x0);
+      const g = 5 * (y0 * w1 + x0);
+      const light = isLight(
+        t[a] - t[b] - t[e] + t[g],
+        t[a + 1] - t[b + 1] - t[e + 1] + t[g + 1],
+        t[a + 2] - t[b + 2] - t[e + 2] + t[g + 2],
+        t[a + 3] - t[b + 3] - t[e + 3] + t[g + 3],
+        t[a + 4] - t[b + 4] - t[e + 4] + t[g + 4],
+        n,
+        noise[i],
+      );
+      if (light) result.data[i] = 0;
     }
   }
   return result;
+
+  /** The test on a window's sums of f, m, f², m² and f·m over its n pixels. */
+  function isLight(tf: number, tm: number, tff: number, tmm: number, tfm: number, n: number, sigma: number): boolean {
+    const mf = tf / n;
+    const mm = tm / n;
+    if (!(mm > 1)) return false;
+    const ratio = mf / mm;
+    if (ratio < gain[0] || ratio > gain[1]) return false;
+    const vf = Math.max(0, tff / n - mf * mf);
+    const vm = Math.max(0, tmm / n - mm * mm);
+    const level = flatLevel * sigma;
+    // No texture to compare: a flat frame there is a uniform change of brightness.
+    if (vm <= level * level) return flat === 'light' && vf <= (level * ratio) ** 2;
+    const cov = tfm / n - mf * mm;
+    return vf > 0 && cov / Math.sqrt(vf * vm) >= minCorrelation;
+  }
 }

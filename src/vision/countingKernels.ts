@@ -11,8 +11,13 @@ import type { Subspace } from './subspace.ts';
 /** Histogram bins of the `select` kernel: the top 12 bits of a Float32 (scripts/countingKernelText.ts builds it with this). */
 export const SELECT_BINS = 4096;
 
-/** The largest number of components the kernels take (three groups of four). */
-export const MAX_KERNEL_COMPONENTS = 12;
+/**
+ * The largest number of components a model may have (six groups of four): the kernels have a
+ * variant for each group count up to it, and fitSubspace refuses to learn more. Each component
+ * adds a plane of the basis that every frame's residual pass reads (4 bytes a pixel), so the
+ * per-frame cost grows with k; 24 keeps it below MOG2's at 320×240 (README, speed).
+ */
+export const MAX_KERNEL_COMPONENTS = 24;
 
 export interface CountingKernelsOptions {
   /** The coordinates' pixel sample (sampleCoefficientPixels of the same model); required. */
@@ -21,6 +26,12 @@ export interface CountingKernelsOptions {
   thresholds: Float32Array;
   /** The pixel itself must exceed this share of its threshold, 0..1 (see thresholdResidual); default 0.5. */
   pixelShare?: number;
+  /**
+   * Copy the model's mean into the kernels' layout on every frame (true, the default: a mean
+   * changed in place is followed at once), or only on creation and `refreshMean()` (false: one
+   * pass over the pixels less per frame, for a caller that says when it changed the mean).
+   */
+  followMean?: boolean;
 }
 
 export interface KernelResidualOptions {
@@ -54,23 +65,22 @@ export interface CountingKernels {
   noiseScale(): number;
   /** The foreground of the last residual as thresholdResidual with radius 1 would mark it, packed into `out`. */
   threshold(noiseScale: number, out?: BitMask): BitMask;
+  /**
+   * Takes the model's basis again after it was changed in place (and its coefficient sample
+   * refreshed, refreshCoefficientSample): rewrites the component planes in this memory, nothing
+   * allocated.
+   */
+  refreshBasis(): void;
+  /** Takes the model's mean again after it was changed in place (needed only with `followMean: false`). */
+  refreshMean(): void;
 }
 
-interface Exports {
-  residual_g1: ResidualKernel;
-  residual_g2: ResidualKernel;
-  residual_g3: ResidualKernel;
-  project_g1: ProjectKernel;
-  project_g2: ProjectKernel;
-  project_g3: ProjectKernel;
-  robust_g1: RobustKernel;
-  robust_g2: RobustKernel;
-  robust_g3: RobustKernel;
+type Exports = Record<`residual_g${number}`, ResidualKernel> & Record<`project_g${number}`, ProjectKernel> & Record<`robust_g${number}`, RobustKernel> & {
   gather(src: number, index: number, n: number, dst: number): void;
   pad(src: number, width: number, rows: number, stride: number, dst: number): void;
   select(values: number, n: number, kth: number, hist: number, out: number, result: number): void;
   threshold(v: number, h: number, stride: number, rows: number, words: number, tn: number, ts: number, scale: number, bits: number): void;
-}
+};
 type ResidualKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, norm: number, sums: number) => void;
 type RobustKernel = (n: number, z: number, mean: number, basis: number, plane: number, y: number, weight: number, limit: number, left: number, acc: number, outer: number, rhs: number) => number;
 type ProjectKernel = (n: number, z: number, mean: number, basis: number, plane: number, out: number) => void;
@@ -121,20 +131,24 @@ const up4 = (n: number) => Math.ceil(n / 4) * 4;
  * 4, the extra planes and coordinates 0), and v with a zero guard row above and below.
  *
  * The model's mean is copied in on every frame, so a mean changed in place (createDriftingCounter)
- * is followed; the basis and noise are copied once (a changed basis needs new kernels, as it
- * needs a new coefficient sample).
+ * is followed; the basis and noise are copied once, and a basis changed in place is taken again
+ * by `refreshBasis` (after its coefficient sample is refreshed).
  *
  * Returns undefined where the kernels cannot run (no WebAssembly SIMD; turned off with
- * setKernelsEnabled(false); k = 0 or k > 12); the counter then takes the JS stages.
+ * setKernelsEnabled(false); k = 0); the counter then takes the JS stages. Throws for a model of
+ * more than MAX_KERNEL_COMPONENTS components (fitSubspace does not learn one).
  */
 export function countingKernels(model: Subspace, options: CountingKernelsOptions): CountingKernels | undefined {
-  const { coefficientSample: sample, thresholds, pixelShare = 0.5 } = options;
+  const { coefficientSample: sample, thresholds, pixelShare = 0.5, followMean = true } = options;
   const { width, height, components: k, basis, noise, eigenvalues } = model;
   const d = width * height;
+  if (k > MAX_KERNEL_COMPONENTS) {
+    throw new RangeError(`components: the model has ${k}, the counter takes at most ${MAX_KERNEL_COMPONENTS}; learn it again with fewer`);
+  }
   if (thresholds.length !== d) throw new RangeError(`thresholds has length ${thresholds.length}, expected ${d}`);
   if (sample.basis !== basis) throw new RangeError('coefficientSample was built for another model');
   if (!(pixelShare >= 0 && pixelShare <= 1)) throw new RangeError(`pixelShare: expected a share in 0..1, got ${String(pixelShare)}`);
-  if (k === 0 || k > MAX_KERNEL_COMPONENTS || !kernelsEnabled()) return undefined;
+  if (k === 0 || !kernelsEnabled()) return undefined;
   const module = countingModule();
   if (module === null) return undefined;
 
@@ -213,12 +227,14 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
   const projected = new Float64Array(memory.buffer, at.projected, kp);
   const bitWords = new Int32Array(memory.buffer, at.bits, height * words);
 
-  // Once per model: the noise weights, the basis planes, the thresholds, the sample's planes.
+  const planes = f32(at.basis, kp * n);
+  const planesS = f32(at.basisS, kp * ns4);
+  const planesSS = f32(at.basisSS, kp * nss4);
+  // Once per model: the noise weights, the thresholds, the sample's indices.
   {
     const weight = f32(at.weight, n);
     const tn = f32(at.tn, n).fill(Infinity);
     const ts = f32(at.ts, n);
-    const planes = f32(at.basis, kp * n);
     const share2 = pixelShare * pixelShare;
     for (let y = 0; y < height; y++) {
       const ny = Math.min(y + 1, height - 1) - Math.max(y - 1, 0) + 1;
@@ -231,11 +247,9 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
         tn[p] = t2 * nx * ny;
         // Without the pixel's own check (share 0) every pixel passes it: v ≥ 0 > −1.
         ts[p] = share2 === 0 ? -1 : t2 * share2;
-        for (let j = 0; j < k; j++) planes[j * n + p] = basis[i * k + j];
       }
     }
     const weightS = f32(at.weightS, ns);
-    const planesS = f32(at.basisS, kp * ns4);
     const padded = (i: number) => Math.floor(i / width) * stride + (i % width);
     const sampleIndex = new Int32Array(memory.buffer, at.sampleIndex, ns);
     const noiseIndex = new Int32Array(memory.buffer, at.noiseIndex, noiseCount);
@@ -243,23 +257,45 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
     for (let s = 0; s < noiseCount; s++) noiseIndex[s] = padded(s * scaleStride);
     const stepIndex = new Int32Array(memory.buffer, at.stepIndex, nss);
     const weightSS = f32(at.weightSS, nss);
-    const planesSS = f32(at.basisSS, kp * nss4);
     for (let t = 0; t < nss; t++) {
       const i = sample.pixels[t * scaleStride];
       stepIndex[t] = t * scaleStride;
       weightSS[t] = 1 / (noise[i] * noise[i]);
-      for (let j = 0; j < k; j++) planesSS[j * nss4 + t] = basis[i * k + j];
     }
     for (let s = 0; s < ns; s++) {
       const i = sample.pixels[s];
       sampleIndex[s] = padded(i);
       weightS[s] = 1 / (noise[i] * noise[i]);
+    }
+  }
+  /** The basis as component planes: the whole frame's, the sample's and every 7th of the sample's. */
+  function layBasis(): void {
+    for (let j = 0; j < k; j++) {
+      const plane = j * n;
+      for (let y = 0, i = 0; y < height; y++) {
+        for (let x = 0, p = plane + y * stride; x < width; x++, i++, p++) planes[p] = basis[i * k + j];
+      }
+    }
+    for (let t = 0; t < nss; t++) {
+      const i = sample.pixels[t * scaleStride];
+      for (let j = 0; j < k; j++) planesSS[j * nss4 + t] = basis[i * k + j];
+    }
+    for (let s = 0; s < ns; s++) {
+      const i = sample.pixels[s];
       for (let j = 0; j < k; j++) planesS[j * ns4 + s] = basis[i * k + j];
     }
   }
-  const residualKernel = run[`residual_g${groups}` as 'residual_g1'];
-  const projectKernel = run[`project_g${groups}` as 'project_g1'];
-  const robustKernel = run[`robust_g${groups}` as 'robust_g1'];
+  layBasis();
+  /** Whether the mean in the kernels' layout is older than the model's (see followMean). */
+  let meanStale = true;
+  function layMean(mean: Float32Array): void {
+    meanRaw.set(mean);
+    run.pad(at.meanRaw, width, height, stride, at.mean);
+    meanStale = false;
+  }
+  const residualKernel = run[`residual_g${groups}`];
+  const projectKernel = run[`project_g${groups}`];
+  const robustKernel = run[`robust_g${groups}`];
 
   const normal = new Float64Array(k * k);
   const y = new Float64Array(k);
@@ -288,9 +324,8 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
       const data = frame.data;
       const modelMean = model.mean;
       zRaw.set(data);
-      meanRaw.set(modelMean);
       run.pad(at.zRaw, width, height, stride, at.z);
-      run.pad(at.meanRaw, width, height, stride, at.mean);
+      if (followMean || meanStale) layMean(modelMean);
       run.gather(at.z, at.sampleIndex, ns, at.zS);
       run.gather(at.mean, at.sampleIndex, ns, at.meanS);
       run.gather(at.zS, at.stepIndex, nss, at.zSS);
@@ -362,6 +397,11 @@ export function countingKernels(model: Subspace, options: CountingKernelsOptions
       run.threshold(at.v, at.h, stride, height, words, at.tn, at.ts, noiseScale, at.bits);
       mask.data.set(bitWords);
       return mask;
+    },
+
+    refreshBasis: layBasis,
+    refreshMean() {
+      meanStale = true;
     },
   };
 }

@@ -5,13 +5,18 @@ import { clearLightChanges } from './clearLightChanges.ts';
 import { createMask } from '../frames/frame.ts';
 import { type CentredFrames, learningKernels } from './learningKernels.ts';
 import { symmetricEigen } from './symmetricEigen.ts';
+import { randomizedEigen } from './randomizedEigen.ts';
+import { MAX_KERNEL_COMPONENTS } from './countingKernels.ts';
 
 export interface FitSubspaceOptions {
-  /** Number of eigen-images to keep; when set, `variance` is ignored. 0 keeps only the mean. */
+  /**
+   * Number of eigen-images to keep, 0 to MAX_KERNEL_COMPONENTS (24, the most the counter takes);
+   * when set, `variance` is ignored. 0 keeps only the mean.
+   */
   components?: number;
   /** Smallest share of the learning frames' variance to retain, in (0, 1]; default 0.95. */
   variance?: number;
-  /** Upper bound on the number of components chosen by `variance`; default 12. */
+  /** Upper bound on the number of components chosen by `variance`, 0 to 24; default 12. */
   maxComponents?: number;
   /** Lowest per-pixel noise level, in grey levels (inclusive); default 1.5. */
   noiseFloor?: number;
@@ -34,7 +39,31 @@ export interface FitSubspaceOptions {
   robustIterations?: number;
   /** Residual, in noise units, beyond which a learning pixel is taken as foreground; default 3. */
   robustCutoff?: number;
+  /**
+   * How the eigen-images are found: `'snapshots'` (the full eigendecomposition of the n × n Gram
+   * matrix), `'randomized'` (only the components kept, by randomized subspace iteration), or
+   * `'auto'` (default): snapshots below `RANDOMIZED_FROM` frames (where they are cheaper and
+   * exact), randomized from there on.
+   */
+  decomposition?: 'auto' | 'snapshots' | 'randomized';
 }
+
+/**
+ * From this many learning frames on, `decomposition: 'auto'` takes the randomized method: its
+ * cost grows as n·d·l (l = kept components + OVERSAMPLING), the Gram matrix's as n²·d/2 plus an
+ * n³ eigendecomposition; at 320×240 and 12 components the two cost about the same near 300
+ * frames (measured: 1.0 and 1.1 s of CPU), and below that the snapshots are exact as well.
+ */
+export const RANDOMIZED_FROM = 320;
+/** Extra directions iterated beyond the components wanted (Halko et al. 2011, §4.2: p = 5 to 10). */
+const OVERSAMPLING = 8;
+/**
+ * Subspace iterations of the whole fit from its random start (Halko et al. 2011, §4.5). Each
+ * shrinks the angle of a kept direction by (λ_next / λ_kept)²: with a gap of 6.6 three leave
+ * 3e-3 rad (test/vision/fitSubspace.test.ts); scenes have a flat noise floor of d·σ² spread over
+ * n − 1 directions, which fewer iterations do not separate from a weak lighting component.
+ */
+const POWER_ITERATIONS = 3;
 
 /** What robust learning set aside of its frames: people passing through, or anything else that moved. */
 export interface LearningActivity {
@@ -90,9 +119,17 @@ const foldBlock = 8;
  * values). As long as each pixel shows the background in most frames, people passing through
  * are rejected and the empty scene remains.
  *
- * Cost: one Gram matrix per fit (n² d / 2 multiply-adds, tiled 4×4 so that each loaded pixel
- * serves four products); the two cross-validation halves are derived from the full Gram matrix
- * by double centring, without touching the pixels again. The pixel passes (centring, Gram matrix,
+ * Cost, snapshots (`decomposition: 'snapshots'`, and 'auto' below RANDOMIZED_FROM frames): one
+ * Gram matrix per fit (n² d / 2 multiply-adds, tiled so that each loaded pixel serves several
+ * products) and a full n × n eigendecomposition; the two cross-validation halves are derived
+ * from the full Gram matrix by double centring, without touching the pixels again.
+ * Randomized (from RANDOMIZED_FROM frames on): only the l = k + OVERSAMPLING leading directions,
+ * by randomized subspace iteration on the Gram operator (Halko, Martinsson & Tropp 2011; see
+ * `randomizedFit`), 2 (POWER_ITERATIONS + 1) passes over the frames with l directions each, the
+ * halves one more pass each from the whole fit's directions: cost n·d·l per pass, linear in n.
+ * Directions ahead of a gap in the spectrum come out as the full decomposition's (test: within
+ * 5e-3 rad and 2e-4 in eigenvalue); directions in the flat noise floor are interchangeable and
+ * differ, with the same noise map within 2 %. The pixel passes (centring, Gram matrix,
  * eigen-images, residual squares) run in WebAssembly SIMD kernels on one copy of the frames
  * (`learningKernels`, f32 lanes, long sums added in f64) and in the JS loops below (f64 sums)
  * where WebAssembly SIMD is missing; the two give the same model within the tolerances stated
@@ -118,6 +155,7 @@ export function fitSubspace(
     noiseSpread = 2,
     robustIterations = 0,
     robustCutoff = 3,
+    decomposition = 'auto',
   } = options;
   const n = frames.length;
   const d = size.width * size.height;
@@ -128,9 +166,12 @@ export function fitSubspace(
   if (components !== undefined && !(Number.isInteger(components) && components >= 0)) {
     throw new RangeError(`components must be a whole number ≥ 0, got ${components}`);
   }
+  if (components !== undefined && components > MAX_KERNEL_COMPONENTS) {
+    throw new RangeError(`components ${components} is more than the ${MAX_KERNEL_COMPONENTS} the counter takes`);
+  }
   if (!(variance > 0 && variance <= 1)) throw new RangeError(`variance must be in (0, 1], got ${variance}`);
-  if (!(Number.isInteger(maxComponents) && maxComponents >= 0)) {
-    throw new RangeError(`maxComponents must be a whole number ≥ 0, got ${maxComponents}`);
+  if (!(Number.isInteger(maxComponents) && maxComponents >= 0 && maxComponents <= MAX_KERNEL_COMPONENTS)) {
+    throw new RangeError(`maxComponents must be a whole number from 0 to ${MAX_KERNEL_COMPONENTS} (the most the counter takes), got ${maxComponents}`);
   }
   if (!(Number.isInteger(noiseSpread) && noiseSpread >= 0)) {
     throw new RangeError(`noiseSpread must be a whole number ≥ 0, got ${noiseSpread}`);
@@ -139,8 +180,12 @@ export function fitSubspace(
     throw new RangeError(`robustIterations must be a whole number from 0 to 20, got ${robustIterations}`);
   }
   if (!(robustCutoff > 0)) throw new RangeError(`robustCutoff must be a number > 0, got ${robustCutoff}`);
+  if (!['auto', 'snapshots', 'randomized'].includes(decomposition)) {
+    throw new RangeError(`decomposition must be 'auto', 'snapshots' or 'randomized', got ${String(decomposition)}`);
+  }
 
-  const choice = { components, variance, maxComponents };
+  const randomized = decomposition === 'randomized' || (decomposition === 'auto' && n >= RANDOMIZED_FROM);
+  const choice = { components, variance, maxComponents, randomized };
   let data = frames;
   let activity: LearningActivity = { rejectedShare: 0, busyFrameShare: 0, persistentShare: 0 };
   if (robustIterations > 0) {
@@ -164,19 +209,33 @@ function fitAll(
   frames: readonly Float32Array[],
   d: number,
   size: { width: number; height: number },
-  choice: { components: number | undefined; variance: number; maxComponents: number },
+  choice: { components: number | undefined; variance: number; maxComponents: number; randomized: boolean },
   noiseEstimate: 'cross-validated' | 'training',
   noiseFloor: number,
   noiseSpread: number,
 ): Subspace {
   const n = frames.length;
-  // A combine call asks for at most k eigen-images and a mean, k ≤ rank ≤ n − 1.
-  const maxRows = Math.min(choice.components ?? choice.maxComponents, n - 1) + 1;
+  const wanted = Math.min(choice.components ?? choice.maxComponents, rankOf(n, d));
+  // A combine call asks for at most k eigen-images and a mean (k ≤ rank ≤ n − 1), or for the
+  // randomized method's block of wanted + OVERSAMPLING directions.
+  const maxRows = choice.randomized ? Math.max(wanted + OVERSAMPLING, wanted + 1) : wanted + 1;
   const centred = learningKernels(frames, d, { maxRows }) ?? centredFrames(frames, d);
   const { mean } = centred;
-  const gram = centred.gram();
   const all = Array.from({ length: n }, (_, t) => t);
-  const fit = fitFromGram(gram, n, all, centred, d, choice);
+  let fit: GramFit;
+  let half: (train: number[]) => GramFit;
+  if (choice.randomized) {
+    const norms = centred.squaredNorms();
+    fit = randomizedFit(centred, all, norms, d, choice, undefined);
+    const whole = fit;
+    // The halves start from the whole fit's directions (a warm start: each half's eigen-images are
+    // still combinations of its own frames only) and need no iteration of their own.
+    half = (train) => randomizedFit(centred, train, norms, d, { components: undefined, variance: 1, maxComponents: whole.k }, whole);
+  } else {
+    const gram = centred.gram();
+    fit = fitFromGram(gram, n, all, centred, d, choice);
+    half = (train) => fitFromGram(gram, n, train, centred, d, { components: undefined, variance: 1, maxComponents: fit.k });
+  }
   const { basis, k, keptSum, total } = fit;
 
   const sumSq = new Float64Array(d);
@@ -189,8 +248,8 @@ function fitAll(
     if (folds[1].length === 0) folds = [all.filter((t) => t % 2 === 0), all.filter((t) => t % 2 === 1)];
     for (let f = 0; f < 2; f++) {
       const train = folds[1 - f];
-      const half = fitFromGram(gram, n, train, centred, d, { components: undefined, variance: 1, maxComponents: k });
-      centred.addResidualSquares(folds[f], half.offset, half.basis, half.k, sumSq);
+      const { offset, basis: halfBasis, k: halfK } = half(train);
+      centred.addResidualSquares(folds[f], offset, halfBasis, halfK, sumSq);
     }
     divisor = n;
   } else {
@@ -225,6 +284,125 @@ interface GramFit {
   /** Sum of the kept Gram eigenvalues and of all of them (the trace), grey levels². */
   keptSum: number;
   total: number;
+  /**
+   * Randomized fits only: the coefficients of every learning frame on the fit's `block` Ritz
+   * eigen-images (n × block, frame-major), the warm start of the cross-validation halves.
+   */
+  coefficients?: Float64Array;
+  block?: number;
+}
+
+/**
+ * PCA of the frames `subset` (indices into the globally centred frames, centred again on their own
+ * mean) that computes only the leading directions: randomized subspace iteration on their Gram
+ * operator (`randomizedEigen`; Halko, Martinsson & Tropp 2011), each product G Z = Xᵀ(X Z) being
+ * two passes over the frames (`combine`, then `project`), never the n × n matrix itself. The
+ * eigen-images are u_j = X Z s_j / √θ_j from the last X Z, so no further pass is needed.
+ * `start` (a whole fit) gives a warm start: its Ritz directions' coefficients on the subset.
+ */
+function randomizedFit(
+  centred: CentredFrames,
+  subset: readonly number[],
+  norms: Float64Array,
+  d: number,
+  choice: { components: number | undefined; variance: number; maxComponents: number },
+  start: GramFit | undefined,
+): GramFit {
+  const m = subset.length;
+  const n = norms.length;
+  const whole = m === n;
+  const rank = rankOf(m, d);
+  const { components, variance, maxComponents } = choice;
+  if (components !== undefined && components > rank) {
+    throw new RangeError(`components ${components} is more than the ${rank} independent directions in ${m} learning frames`);
+  }
+  const wanted = Math.min(components ?? maxComponents, rank);
+  // The subset's own mean δ of the c_t (zero, up to rounding, for all the frames).
+  const offset = new Float32Array(d);
+  let total = 0;
+  for (const t of subset) total += norms[t];
+  if (!whole && m > 0) {
+    const [delta] = centred.combine(subset, new Float64Array(m).fill(1 / m), 1);
+    let dd = 0;
+    for (let i = 0; i < d; i++) {
+      offset[i] = delta[i];
+      dd += delta[i] * delta[i];
+    }
+    total -= m * dd;
+  }
+  const empty = { offset, basis: new Float32Array(0), eigenvalues: new Float64Array(0), k: 0, keptSum: 0, total: Math.max(total, 0) };
+  if (wanted === 0 || rank === 0) return empty;
+  let l = Math.min(wanted + OVERSAMPLING, rank);
+  let lastImages: Float64Array[] = [];
+  const multiply = (block: Float64Array, rows: number) => {
+    lastImages = centred.combine(subset, block, rows);
+    const y = centred.project(subset, lastImages);
+    const out = new Float64Array(rows * m);
+    for (let t = 0; t < m; t++) for (let j = 0; j < rows; j++) out[j * m + t] = y[t * rows + j];
+    return out;
+  };
+  let warm: Float64Array | undefined;
+  if (start?.coefficients !== undefined && start.block !== undefined) {
+    const b = start.block;
+    l = Math.min(l, b);
+    warm = new Float64Array(l * m);
+    for (let j = 0; j < l; j++) for (let t = 0; t < m; t++) warm[j * m + t] = start.coefficients[subset[t] * b + j];
+  }
+  const ritz = randomizedEigen(multiply, m, {
+    block: l,
+    iterations: warm === undefined ? POWER_ITERATIONS : 0,
+    start: warm,
+    centre: !whole,
+  });
+  const values = ritz.values;
+  const tiny = Math.max(values[0], 0) * 1e-10;
+  let found = 0;
+  while (found < l && values[found] > tiny) found++;
+  if (components !== undefined && components > found) {
+    throw new RangeError(`components ${components} is more than the ${found} independent directions in ${m} learning frames`);
+  }
+  let k: number;
+  if (components !== undefined) k = components;
+  else {
+    k = 0;
+    let kept = 0;
+    while (k < found && k < maxComponents && (total <= 0 || kept / total < variance)) kept += values[k++];
+  }
+  const eigenvalues = new Float64Array(k);
+  let keptSum = 0;
+  // Eigen-images u_j = Σ_a (X z_a) S_ja / √θ_j, for the k kept and (whole fits) all `found`.
+  const images = whole ? found : k;
+  const scaled = new Float64Array(images * l);
+  for (let j = 0; j < images; j++) {
+    const s = 1 / Math.sqrt(values[j]);
+    for (let a = 0; a < l; a++) scaled[j * l + a] = ritz.rotation[j * l + a] * s;
+    if (j < k) {
+      keptSum += values[j];
+      eigenvalues[j] = values[j] / (m - 1);
+    }
+  }
+  const basis = new Float32Array(d * k);
+  for (let i = 0, b = 0; i < d; i++) {
+    for (let j = 0; j < k; j++, b++) {
+      let u = 0;
+      for (let a = 0; a < l; a++) u += lastImages[a][i] * scaled[j * l + a];
+      basis[b] = u;
+    }
+  }
+  orthonormaliseColumns(basis, d, k);
+  let coefficients: Float64Array | undefined;
+  if (whole) {
+    // y_tj = c_t · u_j = Σ_a (Xᵀ X z_a)_t S_ja / √θ_j: from the last product, no pass over the frames.
+    coefficients = new Float64Array(n * found);
+    for (let t = 0; t < n; t++) {
+      for (let j = 0; j < found; j++) {
+        let y = 0;
+        for (let a = 0; a < l; a++) y += ritz.product[a * n + t] * scaled[j * l + a];
+        coefficients[t * found + j] = y;
+      }
+    }
+  }
+  return { offset, basis, eigenvalues, k, keptSum, total: Math.max(total, 0), coefficients, block: whole ? found : undefined };
 }
 
 /** The largest number of independent directions n centred frames of d pixels can have. */
@@ -444,6 +622,27 @@ function centredFrames(frames: readonly Float32Array[], d: number): CentredFrame
     },
     addResidualSquares(subset, offset, basis, k, sumSq) {
       addResidualSquares(subset.map((t) => centred[t]), offset, basis, d, k, sumSq);
+    },
+    project(subset, columns) {
+      const kk = columns.length;
+      const out = new Float64Array(subset.length * kk);
+      subset.forEach((t, row) => {
+        const c = centred[t];
+        for (let j = 0; j < kk; j++) {
+          const u = columns[j];
+          let y = 0;
+          for (let i = 0; i < d; i++) y += u[i] * c[i];
+          out[row * kk + j] = y;
+        }
+      });
+      return out;
+    },
+    squaredNorms() {
+      return Float64Array.from(centred, (c) => {
+        let s = 0;
+        for (let i = 0; i < d; i++) s += c[i] * c[i];
+        return s;
+      });
     },
   };
 }

@@ -28,6 +28,13 @@ export interface CentredFrames {
    * B Bᵀ(c − offset) into sumSq (d values), B the d × k pixel-major basis (orthonormal columns).
    */
   addResidualSquares(subset: readonly number[], offset: Float32Array, basis: Float32Array, k: number, sumSq: Float64Array): void;
+  /**
+   * Coefficients y_tj = u_j · c_subset[t] of the subset's frames on the `columns` (at most maxRows
+   * arrays of d values, any norm): m × columns.length, frame-major.
+   */
+  project(subset: readonly number[], columns: readonly Float64Array[]): Float64Array;
+  /** ‖c_t‖² of every centred frame (n values). */
+  squaredNorms(): Float64Array;
 }
 
 export interface LearningKernelsOptions {
@@ -134,7 +141,7 @@ export function learningKernels(
   if (k === null || n === 0 || d === 0) return undefined;
 
   const np = up(n, BLOCK);
-  const dp = up(d, 4);
+  const dp = up(d, 8);
   const r4 = up(maxRows, BLOCK);
   const frameBytes = np * dp * 4;
   const meanAt = frameBytes;
@@ -142,6 +149,7 @@ export function learningKernels(
   const gramBytes = np * np * 8;
   const combineBytes = r4 * dp * 8 + up(n * r4 * 4, 16) + up(n * 4, 16);
   const residualBytes = r4 * dp * 4 + dp * 4 + dp * 8 + np * r4 * 8 + up(n * r4 * 4, 16) + np * 4;
+  // project's columns, offset, coefficients and row table fit within residualBytes.
   const bytes = scratch + Math.max(gramBytes, combineBytes, residualBytes);
   if (bytes > MAX_BYTES) return undefined;
   const pages = Math.ceil(bytes / 65536);
@@ -249,6 +257,43 @@ export function learningKernels(
       f64.fill(0, sums / 8, sums / 8 + dp);
       k.run.residual(table, m, delta, columns, k4, dp, coefficients, FRAME_TILE, sums);
       for (let i = 0; i < d; i++) sumSq[i] += f64[sums / 8 + i];
+    },
+
+    project(subset, given) {
+      check();
+      const m = subset.length;
+      const kk = given.length;
+      if (kk > maxRows) throw new RangeError(`${kk} columns is more than the maxRows ${maxRows} reserved`);
+      given.forEach((u, j) => {
+        if (u.length !== d) throw new RangeError(`column ${j} has ${u.length} entries, expected ${d}`);
+      });
+      const out = new Float64Array(m * kk);
+      if (m === 0 || kk === 0) return out;
+      const k4 = up(kk, BLOCK);
+      const m4 = up(m, BLOCK);
+      reset();
+      const columns = alloc(k4 * dp * 4);
+      const delta = alloc(dp * 4);
+      const y = alloc(m4 * k4 * 8);
+      const table = rowTable(subset, m4);
+      f32.fill(0, columns / 4, columns / 4 + k4 * dp);
+      for (let j = 0; j < kk; j++) f32.set(given[j], columns / 4 + j * dp);
+      f32.fill(0, delta / 4, delta / 4 + dp);
+      f64.fill(0, y / 8, y / 8 + m4 * k4);
+      k.run.project(table, m4, delta, columns, k4, dp, PIXEL_TILE, y);
+      for (let t = 0; t < m; t++) for (let j = 0; j < kk; j++) out[t * kk + j] = f64[y / 8 + t * k4 + j];
+      return out;
+    },
+
+    squaredNorms() {
+      check();
+      const norms = new Float64Array(n);
+      for (let t = 0; t < n; t++) {
+        let s = 0;
+        for (let i = t * dp, end = t * dp + d; i < end; i++) s += f32[i] * f32[i];
+        norms[t] = s;
+      }
+      return norms;
     },
   };
 }

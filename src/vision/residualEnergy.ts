@@ -84,12 +84,33 @@ export function sampleCoefficientPixels(model: Subspace, stride: number): Coeffi
   const d = width * height;
   const n = Math.ceil(d / stride);
   const pixels = new Int32Array(n);
+  for (let s = 0, i = 0; s < n; s++, i += stride) pixels[s] = i;
   const sampledBasis = new Float32Array(n * k);
-  for (let s = 0, i = 0; s < n; s++, i += stride) {
-    pixels[s] = i;
+  const gram = new Float64Array(k * k);
+  resampleBasis(basis, k, pixels, sampledBasis, gram);
+  const buffer = () => new Float32Array(n);
+  return {
+    basis, stride, pixels, sampledBasis, gram,
+    z: buffer(), mean: buffer(), weight: buffer(), energy: buffer(),
+    noiseSample: new Float32Array(Math.ceil(n / scaleStride)),
+  };
+}
+
+/**
+ * Refreshes a coefficient sample after its basis was changed in place (the drifting counter's
+ * rescaled eigen-images): the sampled rows and B_Sᵀ B_S, in the sample's own arrays.
+ */
+export function refreshCoefficientSample(sample: CoefficientSample, k: number): void {
+  resampleBasis(sample.basis, k, sample.pixels, sample.sampledBasis, sample.gram);
+}
+
+function resampleBasis(basis: Float32Array, k: number, pixels: Int32Array, sampledBasis: Float32Array, gram: Float64Array): void {
+  const n = pixels.length;
+  for (let s = 0; s < n; s++) {
+    const i = pixels[s];
     sampledBasis.set(basis.subarray(i * k, i * k + k), s * k);
   }
-  const gram = new Float64Array(k * k);
+  gram.fill(0);
   for (let s = 0; s < n; s++) {
     const b = s * k;
     for (let p = 0; p < k; p++) {
@@ -97,12 +118,6 @@ export function sampleCoefficientPixels(model: Subspace, stride: number): Coeffi
       for (let q = 0; q <= p; q++) gram[p * k + q] += bp * sampledBasis[b + q];
     }
   }
-  const buffer = () => new Float32Array(n);
-  return {
-    basis, stride, pixels, sampledBasis, gram,
-    z: buffer(), mean: buffer(), weight: buffer(), energy: buffer(),
-    noiseSample: new Float32Array(Math.ceil(n / scaleStride)),
-  };
 }
 
 /** Pixels sampled for the robust noise scale: every 7th. */

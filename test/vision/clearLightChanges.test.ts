@@ -46,4 +46,30 @@ describe('clearLightChanges', () => {
     expect(count(clearLightChanges(shadow, stripes, all(), noise, { scratch }))).toBe(0);
     expect(() => clearLightChanges(shadow, stripes, all(), new Float32Array(3))).toThrow(/12×10/);
   });
+  it('decides each candidate the same whether its window is summed directly or from the tables', () => {
+    // check: a brute-force window sum per pixel (the direct path, taken for few candidates) against
+    // the summed-area tables (taken for many); a seeded mixture of shadowed and replaced texture.
+    let seed = 7;
+    const rand = () => ((seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648);
+    const big = { width: 60, height: 40 };
+    const d = big.width * big.height;
+    const background = { ...big, data: Float32Array.from({ length: d }, () => 40 + 160 * rand()) };
+    const frame = { ...big, data: Float32Array.from(background.data, (v, i) => ((i % big.width) < 30 ? v * (0.5 + 0.1 * rand()) : 20 + 200 * rand())) };
+    const sigma = new Float32Array(d).fill(2);
+    const few = { ...big, data: new Uint8Array(d) };
+    for (let i = 0; i < d; i += 37) few.data[i] = 1;
+    const direct = clearLightChanges(frame, background, few, sigma);
+    const many = { ...big, data: new Uint8Array(d).fill(1) };
+    const tables = clearLightChanges(frame, background, many, sigma);
+    let checked = 0;
+    for (let i = 0; i < d; i++) {
+      if (!few.data[i]) continue;
+      checked++;
+      expect(direct.data[i], `pixel ${i}`).toBe(tables.data[i]);
+    }
+    expect(checked).toBeGreaterThan(60);
+    // Both outcomes occur: shadowed texture cleared on the left, replaced texture kept on the right.
+    expect(count(direct)).toBeGreaterThan(10);
+    expect(count(direct)).toBeLessThan(checked - 10);
+  });
 });

@@ -8,7 +8,7 @@ import { countingKernels } from '../../src/vision/countingKernels.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
 import { frameNoiseScale } from '../../src/vision/frameNoiseScale.ts';
 import { setKernelsEnabled } from '../../src/vision/learningKernels.ts';
-import { residualEnergy, sampleCoefficientPixels } from '../../src/vision/residualEnergy.ts';
+import { refreshCoefficientSample, residualEnergy, sampleCoefficientPixels } from '../../src/vision/residualEnergy.ts';
 import type { Subspace } from '../../src/vision/subspace.ts';
 import { thresholdResidual } from '../../src/vision/thresholdResidual.ts';
 import { mulberry } from '../helpers/random.ts';
@@ -65,8 +65,8 @@ describe('countingKernels', () => {
     expect(Buffer.from(await buildCountingKernelsWasm()).equals(committed)).toBe(true);
   });
 
-  it('gives the JS stages’ coordinates, energies, noise scale and foreground, for 1 to 3 groups of components and any width', () => {
-    for (const [width, height, k] of [[40, 30, 3], [33, 17, 8], [64, 20, 12], [1, 9, 2], [70, 45, 5]] as const) {
+  it('gives the JS stages’ coordinates, energies, noise scale and foreground, for 1 to 6 groups of components and any width', () => {
+    for (const [width, height, k] of [[40, 30, 3], [33, 17, 8], [64, 20, 12], [1, 9, 2], [70, 45, 5], [48, 36, 16], [41, 30, 21], [64, 48, 24]] as const) {
       const { model, frame } = scene(width, height, k, width * 7 + k);
       const { kernels, thresholds, coefficientSample, weight } = setup(model, (i) => 2.5 + (i % 5) * 0.25);
       for (const [t, boxes] of [[0.3, 0], [0.7, 2], [0.1, 4]] as const) {
@@ -153,11 +153,47 @@ describe('countingKernels', () => {
     expect(kernels.residual(f).dffs / js.dffs).toBeCloseTo(1, 4);
   });
 
-  it('is not offered without components, beyond 12, or with the kernels turned off', () => {
+  it('with followMean false, takes a changed mean on refreshMean only; takes a changed basis on refreshBasis', () => {
+    const { model, frame } = scene(40, 30, 3, 5);
+    const d = model.width * model.height;
+    const thresholds = new Float32Array(d).fill(3);
+    const coefficientSample = sampleCoefficientPixels(model, 3);
+    const kernels = countingKernels(model, { coefficientSample, thresholds, followMean: false })!;
+    const weight = Float32Array.from(model.noise, (s) => 1 / (s * s));
+    const f = frame(0.5, 1);
+    const before = residualEnergy(model, f, { inverseNoiseVariance: weight, coefficientSample }).dffs;
+    expect(kernels.residual(f).dffs / before).toBeCloseTo(1, 4);
+    for (let i = 0; i < d; i++) model.mean[i] += 5 * Math.sin(i);
+    // check: residualEnergy (the JS stage) on the model as it is now
+    const after = residualEnergy(model, f, { inverseNoiseVariance: weight, coefficientSample }).dffs;
+    expect(Math.abs(after / before - 1)).toBeGreaterThan(0.01);
+    expect(kernels.residual(f).dffs / before).toBeCloseTo(1, 4);
+    kernels.refreshMean();
+    expect(kernels.residual(f).dffs / after).toBeCloseTo(1, 4);
+    // A basis rotated in place (components swapped), its sample refreshed: the same residual.
+    const k = model.components;
+    for (let i = 0; i < d; i++) {
+      const first = model.basis[i * k];
+      model.basis[i * k] = model.basis[i * k + 1];
+      model.basis[i * k + 1] = first;
+    }
+    refreshCoefficientSample(coefficientSample, k);
+    kernels.refreshBasis();
+    const swapped = residualEnergy(model, f, { inverseNoiseVariance: weight, coefficientSample });
+    const ours = kernels.residual(f);
+    expect(ours.dffs / swapped.dffs).toBeCloseTo(1, 4);
+    expect(ours.coefficients[0]).toBeCloseTo(swapped.coefficients[0], 3);
+  });
+
+  it('is not offered without components or with the kernels turned off, and refuses more than 24 components', () => {
     const { model } = scene(20, 10, 0, 1);
     expect(countingKernels(model, { coefficientSample: sampleCoefficientPixels(model, 3), thresholds: new Float32Array(200) })).toBeUndefined();
     const many = scene(20, 10, 13, 1).model;
-    expect(countingKernels(many, { coefficientSample: sampleCoefficientPixels(many, 3), thresholds: new Float32Array(200) })).toBeUndefined();
+    expect(countingKernels(many, { coefficientSample: sampleCoefficientPixels(many, 3), thresholds: new Float32Array(200) })).toBeDefined();
+    const most = scene(20, 10, 24, 1).model;
+    const tooMany = { ...most, components: 25, basis: new Float32Array(200 * 25), eigenvalues: new Float64Array(25).fill(1) };
+    expect(() => countingKernels(tooMany, { coefficientSample: sampleCoefficientPixels(most, 3), thresholds: new Float32Array(200) })).toThrow(/components: the model has 25, the counter takes at most 24/);
+    expect(() => scene(20, 10, 25, 1)).toThrow(/components 25 is more than the 24/);
     const some = scene(20, 10, 4, 1).model;
     setKernelsEnabled(false);
     expect(countingKernels(some, { coefficientSample: sampleCoefficientPixels(some, 3), thresholds: new Float32Array(200) })).toBeUndefined();
