@@ -31,8 +31,9 @@ export interface ClearLightChangesOptions {
  * real time", VMV 2003; J. C. S. Jacques Jr., C. R. Jung & S. R. Musse, "Background subtraction
  * and shadow detection in grayscale video sequences", SIBGRAPI 2005), with the brightness ratio
  * (the window's mean frame ÷ mean background) held to `gain`. Window sums are summed directly
- * around each candidate when there are few (under 2 / (2·radius + 1)² of the pixels), else taken
- * from summed-area tables (Crow 1984) over the whole frame, whose cost does not grow with the window.
+ * around each candidate when there are few (under 2 / (2·radius + 1)² of the pixels; the window
+ * slides along runs of candidates, a column in and a column out), else taken from summed-area
+ * tables (Crow 1984) over the whole frame, whose cost does not grow with the window.
  *
  * `noise` is the per-pixel noise level (grey levels) that tells texture from flat background.
  *
@@ -65,31 +66,79 @@ export function clearLightChanges(
   // Few candidates (the usual frame): each window summed directly, cheaper than the five tables
   // over the whole frame; many: the tables. The same sums either way, up to rounding.
   if (count * side * side < 2 * c.length) {
+    // Along a run of candidates in a row the window slides by one column: its five sums change by
+    // one column's sums in and one out, so each column is summed once per run, not once per pixel.
+    const columns = new Float64Array(5 * width);
     for (let y = 0; y < height; y++) {
       const y0 = Math.max(0, y - radius);
       const y1 = Math.min(height, y + radius + 1);
+      const rows = y1 - y0;
       for (let x = 0; x < width; x++) {
-        const i = y * width + x;
-        if (!c[i]) continue;
-        const x0 = Math.max(0, x - radius);
-        const x1 = Math.min(width, x + radius + 1);
-        let tf = 0;
-        let tm = 0;
-        let tff = 0;
-        let tmm = 0;
-        let tfm = 0;
-        for (let v = y0; v < y1; v++) {
-          for (let u = v * width + x0, end = v * width + x1; u < end; u++) {
-            const a = f[u];
-            const b = m[u];
+        if (!c[y * width + x]) continue;
+        let runEnd = x;
+        while (runEnd + 1 < width && c[y * width + runEnd + 1]) runEnd++;
+        const from = Math.max(0, x - radius);
+        const to = Math.min(width, runEnd + radius + 1);
+        for (let u = from; u < to; u++) {
+          let tf = 0;
+          let tm = 0;
+          let tff = 0;
+          let tmm = 0;
+          let tfm = 0;
+          for (let v = y0, k = y0 * width + u; v < y1; v++, k += width) {
+            const a = f[k];
+            const b = m[k];
             tf += a;
             tm += b;
             tff += a * a;
             tmm += b * b;
             tfm += a * b;
           }
+          const o = 5 * u;
+          columns[o] = tf;
+          columns[o + 1] = tm;
+          columns[o + 2] = tff;
+          columns[o + 3] = tmm;
+          columns[o + 4] = tfm;
         }
-        if (isLight(tf, tm, tff, tmm, tfm, (x1 - x0) * (y1 - y0), noise[i])) result.data[i] = 0;
+        let s0 = 0;
+        let s1 = 0;
+        let s2 = 0;
+        let s3 = 0;
+        let s4 = 0;
+        let x0 = from;
+        let x1 = Math.min(width, x + radius + 1);
+        for (let u = x0; u < x1; u++) {
+          s0 += columns[5 * u];
+          s1 += columns[5 * u + 1];
+          s2 += columns[5 * u + 2];
+          s3 += columns[5 * u + 3];
+          s4 += columns[5 * u + 4];
+        }
+        for (let p = x; ; p++) {
+          if (isLight(s0, s1, s2, s3, s4, (x1 - x0) * rows, noise[y * width + p])) result.data[y * width + p] = 0;
+          if (p === runEnd) break;
+          // Slide to p + 1: column x1 comes in (if inside), column x0 leaves once the window is full on the left.
+          if (x1 < width) {
+            const o = 5 * x1;
+            s0 += columns[o];
+            s1 += columns[o + 1];
+            s2 += columns[o + 2];
+            s3 += columns[o + 3];
+            s4 += columns[o + 4];
+            x1++;
+          }
+          if (p + 1 - radius > x0) {
+            const o = 5 * x0;
+            s0 -= columns[o];
+            s1 -= columns[o + 1];
+            s2 -= columns[o + 2];
+            s3 -= columns[o + 3];
+            s4 -= columns[o + 4];
+            x0++;
+          }
+        }
+        x = runEnd;
       }
     }
     return result;
