@@ -79,7 +79,7 @@ export const OPERATIONS: readonly Operation[] = [
   { method: 'get', path: '/api/cameras/{id}/events', summary: 'Events of a camera', access: 'view', query: [{ name: 'days', description: 'Days back, 1..90 (default 7)', schema: { type: 'integer', minimum: 1, maximum: 90 } }], response: obj({ camera: str, from: int, events: list({ type: 'object' }) }) },
   { method: 'get', path: '/api/settings', summary: 'Display settings (capacity margins, low-stock levels)', access: 'view', response: { type: 'object' } },
   { method: 'put', path: '/api/settings', summary: 'Change display settings field by field', access: 'admin', body: { type: 'object' }, response: { type: 'object' } },
-  { method: 'get', path: '/api/capacity', summary: 'Occupant load from floor area and use (advice only; local rules govern)', access: 'view', query: [{ name: 'use', description: 'Use of the space', schema: str, required: true }, { name: 'area', description: 'Floor area', schema: num, required: true }, { name: 'unit', description: 'm2 or ft2', schema: { enum: ['m2', 'ft2'] } }], response: { type: 'object' } },
+  { method: 'get', path: '/api/capacity', summary: 'The table of uses, or with use and area a suggested occupant load (advice only; local rules and the authority having jurisdiction govern)', access: 'view', query: [{ name: 'use', description: 'Use of the space (one of the table); without it, the table', schema: str }, { name: 'area', description: 'Floor area, with use', schema: num }, { name: 'unit', description: 'm2 or ft2', schema: { enum: ['m2', 'ft2'] } }], response: { type: 'object' } },
   { method: 'get', path: '/metrics', summary: 'Prometheus text format metrics', access: 'view', response: { mediaType: 'text/plain' } },
 ];
 
