@@ -31,6 +31,8 @@ export interface CollectCommandOptions {
   /** Resolves when the collector should stop; default SIGINT or SIGTERM. */
   readonly until?: Promise<void>;
   readonly log?: (line: string) => void;
+  /** Where RESIDUUM_ADMIN_KEY_FILE is read; default process.env. */
+  readonly env?: Readonly<Record<string, string | undefined>>;
   /** Where the one-time key notice goes; default standard output. */
   readonly out?: { write(text: string): unknown };
 }
@@ -48,7 +50,7 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
   // Validated before the database is opened: a bad file changes nothing.
   const config = loadCollectorConfig(configFile);
   readMqttTls(config.mqtt); // unreadable TLS files fail here, before the database is touched
-  const adminKey = adminKeyFromEnvironment(); // RESIDUUM_ADMIN_KEY_FILE, likewise
+  const adminKey = adminKeyFromEnvironment(options.env); // RESIDUUM_ADMIN_KEY_FILE, likewise
   const { store, where } = openCollectorStore(config, v.data);
   let collector: Collector;
   try {

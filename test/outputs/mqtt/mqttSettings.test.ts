@@ -1,4 +1,4 @@
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { chmodSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
@@ -163,7 +163,8 @@ describe('mqtt.password from the environment or a file', () => {
     expect(() => withEnv({ url: 'mqtt://h', username: 'u', password: { file: 'nope' } }, {}, dir)).toThrow(/site\.yaml: mqtt\.password\.file cannot be read: .*nope \(ENOENT/);
     writeFileSync(join(dir, 'empty'), '', { mode: 0o600 });
     expect(() => withEnv({ url: 'mqtt://h', username: 'u', password: { file: 'empty' } }, {}, dir)).toThrow(/mqtt\.password\.file .*empty is empty/);
-    writeFileSync(join(dir, 'open'), 's3cret', { mode: 0o644 });
+    writeFileSync(join(dir, 'open'), 's3cret');
+    chmodSync(join(dir, 'open'), 0o644); // whatever the umask
     const message = (() => {
       try {
         withEnv({ url: 'mqtt://h', username: 'u', password: { file: 'open' } }, {}, dir);
