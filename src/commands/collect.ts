@@ -5,7 +5,7 @@ import { sqliteCollectorStore } from '../outputs/mqtt/collectorStore.ts';
 import { startCollector, type Collector } from '../outputs/mqtt/mqttCollector.ts';
 import { readMqttTls } from '../outputs/mqtt/mqttSettings.ts';
 import { createApp } from '../server/createApp.ts';
-import { prepareTokens, tokenNotice } from '../server/tokens.ts';
+import { adminKeyFromEnvironment, prepareTokens, tokenNotice } from '../server/tokens.ts';
 import { openStore, type Store } from '../store/index.ts';
 import { openPostgresStore, redactUrl } from '../store/postgres/openPostgresStore.ts';
 import type { CollectorStore } from '../outputs/mqtt/collectorStore.ts';
@@ -31,6 +31,8 @@ export interface CollectCommandOptions {
   /** Resolves when the collector should stop; default SIGINT or SIGTERM. */
   readonly until?: Promise<void>;
   readonly log?: (line: string) => void;
+  /** Where RESIDUUM_ADMIN_KEY_FILE is read; default process.env. */
+  readonly env?: Readonly<Record<string, string | undefined>>;
   /** Where the one-time key notice goes; default standard output. */
   readonly out?: { write(text: string): unknown };
 }
@@ -48,6 +50,7 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
   // Validated before the database is opened: a bad file changes nothing.
   const config = loadCollectorConfig(configFile);
   readMqttTls(config.mqtt); // unreadable TLS files fail here, before the database is touched
+  const adminKey = adminKeyFromEnvironment(options.env); // RESIDUUM_ADMIN_KEY_FILE, likewise
   const { store, where } = openCollectorStore(config, v.data);
   let collector: Collector;
   try {
@@ -90,7 +93,7 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
     const address = server.address();
     const bound = typeof address === 'object' && address ? address.port : port;
     log(`collecting from ${new URL(config.mqtt.url).host} under ${config.mqtt.topicPrefix}/ into ${where}; dashboard at http://${config.server.host}:${bound}/`);
-    out.write(tokenNotice(prepareTokens(store as unknown as Store, { viewToken: config.server.viewToken, reset: v['reset-token'] === true })));
+    out.write(tokenNotice(prepareTokens(store as unknown as Store, { viewToken: config.server.viewToken, reset: v['reset-token'] === true, ...(adminKey !== undefined && { adminKey }) })));
     await (options.until ??
       new Promise<void>((done) => {
         process.once('SIGINT', () => done());

@@ -27,7 +27,7 @@ import type { BackoffOptions } from '../frames/live/backoff.ts';
 import { createScene } from '../frames/synthetic/index.ts';
 import { createApp } from '../server/createApp.ts';
 import { ModelChoiceError, type KeptModel, type ServiceControl, type SmallImage } from '../server/serviceControl.ts';
-import { prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts';
+import { adminKeyFromEnvironment, prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts';
 import { validateZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
 import { describeZoneChange, reconcileZones } from '../config/reconcileZones.ts';
@@ -111,6 +111,8 @@ export function logLine(line: string): void {
 }
 
 export interface StartServiceOptions {
+  /** Where RESIDUUM_ADMIN_KEY_FILE is read (adminKeyFromEnvironment); default process.env. */
+  readonly env?: Readonly<Record<string, string | undefined>>;
   /** Folder of residuum.db. */
   readonly dataDir: string;
   /** Overrides config.server.port. */
@@ -148,6 +150,8 @@ export interface StartServiceOptions {
 export async function startService(config: ResiduumConfig, options: StartServiceOptions): Promise<RunningService> {
   const { dataDir, log = () => {}, workerRestart = {}, workerStallMs = 30_000, workerYoungGenerationMb = 8, workerFaults = {} } = options;
   const keepModels = config.models?.keep ?? 5;
+  // Before the database is opened: a bad key file changes nothing.
+  const adminKey = adminKeyFromEnvironment(options.env);
   const dbFile = join(resolve(dataDir), 'residuum.db');
   const store = openStore(dbFile, { timeZone: config.site.timeZone });
   const configIds = new Set(config.cameras.map((c) => c.id));
@@ -291,7 +295,7 @@ export async function startService(config: ResiduumConfig, options: StartService
   }
   const address = server.address();
   // After listening succeeded, so that a key is never made without being shown.
-  const newTokens = prepareTokens(store, { viewToken: config.server.viewToken, reset: options.resetToken === true });
+  const newTokens = prepareTokens(store, { viewToken: config.server.viewToken, reset: options.resetToken === true, ...(adminKey !== undefined && { adminKey }) });
   // Alerts look at the same live view as the dashboard (levels, low-stock marks, camera status).
   const alerts: AlertService | undefined =
     config.alerts &&

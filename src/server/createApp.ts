@@ -30,6 +30,7 @@ import { todayRoutes } from './routes/today.ts';
 import type { ServiceControl } from './serviceControl.ts';
 import type { Metrics } from '../outputs/metrics.ts';
 import { metricsRoutes } from './routes/metrics.ts';
+import { openApiDocument } from './openapi.ts';
 
 export { HttpError } from './HttpError.ts';
 
@@ -137,6 +138,10 @@ export function createApp(deps: AppDeps): express.Express {
   );
 
   const api = express.Router();
+  const openApi = JSON.stringify(openApiDocument());
+  api.get('/openapi.json', (_req, res) => {
+    res.type('application/json').send(openApi);
+  });
   api.use(healthRoutes(ctx));
   api.use(liveRoutes(ctx, deps.stream));
   api.use(historyRoutes(ctx));

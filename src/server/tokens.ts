@@ -1,4 +1,6 @@
 import crypto from 'node:crypto';
+import { ConfigError } from '../config/ConfigError.ts';
+import { readSecretFile } from '../config/readSecret.ts';
 import type { SettingStore } from '../store/index.ts';
 
 /**
@@ -7,7 +9,7 @@ import type { SettingStore } from '../store/index.ts';
  * - The **admin** token allows every change (zones, thresholds, learning, the empty-scene image
  *   and the foreground preview). It is made at the first start: 32 random bytes from
  *   `crypto.randomBytes`, written as base64url (43 characters), shown once on standard output and
- *   never again.
+ *   never again; or, with RESIDUUM_ADMIN_KEY_FILE, read from that file at every start and never shown.
  * - The **view** token (only with `server.viewToken: true`) allows reading counts; the admin token
  *   allows that too.
  *
@@ -40,6 +42,41 @@ export interface PrepareTokensOptions {
   readonly viewToken?: boolean;
   /** Replace the existing tokens with new ones; default false. */
   readonly reset?: boolean;
+  /**
+   * An admin key given by the operator (RESIDUUM_ADMIN_KEY_FILE, {@link adminKeyFromEnvironment}):
+   * its digest replaces the stored one at every start and it is never returned as new; default
+   * none (a key is made at the first start).
+   */
+  readonly adminKey?: string;
+}
+
+/** The environment variable naming a file that holds the admin key. */
+export const ADMIN_KEY_FILE_VARIABLE = 'RESIDUUM_ADMIN_KEY_FILE';
+
+/** Fewest characters of an admin key from a file: the digest is a plain SHA-256, sound only for a long random key. */
+export const MIN_ADMIN_KEY_LENGTH = 32;
+
+/**
+ * The admin key from the file named by RESIDUUM_ADMIN_KEY_FILE (a container or systemd secret),
+ * or undefined when the variable is not set. The file must exist, be readable, hold 32 to 200
+ * letters, digits, `-` or `_` (one final line break is dropped) and be readable by this user only: a file others
+ * may read is refused (ConfigError naming the variable), as the key allows every change.
+ *
+ * Example: `RESIDUUM_ADMIN_KEY_FILE=/run/secrets/residuum-admin` → that file's key.
+ */
+export function adminKeyFromEnvironment(env: Readonly<Record<string, string | undefined>> = process.env): string | undefined {
+  const path = env[ADMIN_KEY_FILE_VARIABLE];
+  if (path === undefined) return undefined;
+  const fail = (at: string, message: string): never => {
+    throw new ConfigError(`${at} ${message}`);
+  };
+  if (path === '') fail(ADMIN_KEY_FILE_VARIABLE, 'is set but empty; it must name a file holding the admin key');
+  const key = readSecretFile(path, ADMIN_KEY_FILE_VARIABLE, fail, true);
+  // The characters a Bearer key may have here (auth.ts: base64url, at most 200).
+  if (!new RegExp(`^[A-Za-z0-9_-]{${MIN_ADMIN_KEY_LENGTH},200}$`).test(key)) {
+    fail(ADMIN_KEY_FILE_VARIABLE, `names ${path}, whose key must be ${MIN_ADMIN_KEY_LENGTH} to 200 letters, digits, "-" or "_" on one line (e.g. the output of: openssl rand -hex 32)`);
+  }
+  return key;
 }
 
 /** A new random token: 32 bytes from the system's CSPRNG, base64url without padding. */
@@ -58,9 +95,10 @@ export function hashToken(token: string): string {
  * returned (they cannot be: only digests are kept).
  */
 export function prepareTokens(store: SettingStore, options: PrepareTokensOptions = {}): NewTokens {
-  const { viewToken = false, reset = false } = options;
+  const { viewToken = false, reset = false, adminKey } = options;
   const made: { admin?: string; view?: string } = {};
-  const kinds: TokenKind[] = viewToken ? ['admin', 'view'] : ['admin'];
+  if (adminKey !== undefined) store.setSetting(TOKEN_SETTING.admin, hashToken(adminKey));
+  const kinds: TokenKind[] = (viewToken ? ['admin', 'view'] : ['admin']).filter((k) => k !== 'admin' || adminKey === undefined) as TokenKind[];
   for (const kind of kinds) {
     if (!reset && typeof store.getSetting(TOKEN_SETTING[kind]) === 'string') continue;
     const token = newToken();

@@ -1,6 +1,5 @@
-import { readFileSync } from 'node:fs';
-import { resolve } from 'node:path';
 import { ConfigError } from '../../config/ConfigError.ts';
+import { readSecret } from '../../config/readSecret.ts';
 import { ALERT_RULES, type AlertRule } from './evaluateAlerts.ts';
 
 /**
@@ -103,7 +102,7 @@ export function validateAlertSettings(raw: unknown, options: ValidateAlertSettin
   const a = mapping(raw, 'alerts', ['quietSeconds', 'rules', 'webhooks', 'email'], fail);
   const quietSeconds = num(a.quietSeconds ?? 300, 'alerts.quietSeconds', 0, 86_400, fail);
   const rules = ruleList(a.rules ?? ALERT_RULES, 'alerts.rules', ALERT_RULES, fail);
-  const secret = (v: unknown, at: string) => readSecret(v, at, fail, base, env);
+  const secret = (v: unknown, at: string) => readSecret(v, at, fail, { base, env });
 
   const hooksRaw = a.webhooks ?? [];
   if (!Array.isArray(hooksRaw)) fail('alerts.webhooks', 'must be a list of webhooks ({ url, secret, … })');
@@ -157,34 +156,6 @@ export function validateAlertSettings(raw: unknown, options: ValidateAlertSettin
   }
   if (webhooks.length === 0 && email === undefined) fail('alerts', 'needs at least one webhook (alerts.webhooks) or alerts.email');
   return { quietMs: quietSeconds * 1000, rules, webhooks, ...(email && { email }) };
-}
-
-/** A secret given as text, `{ env: NAME }` or `{ file: path }`; its value never appears in a message. */
-function readSecret(v: unknown, at: string, fail: Fail, base: string, env: Readonly<Record<string, string | undefined>>): string {
-  if (typeof v === 'string') {
-    if (v.length === 0 || v.length > 4096) fail(at, 'must be non-empty text of at most 4096 characters, { env: NAME } or { file: path }');
-    return v;
-  }
-  const m = mapping(v, at, ['env', 'file'], fail);
-  if ((m.env === undefined) === (m.file === undefined)) fail(at, 'must have exactly one of env (an environment variable) or file (a file holding the secret)');
-  if (m.env !== undefined) {
-    if (typeof m.env !== 'string' || !/^[A-Za-z_][A-Za-z0-9_]{0,127}$/.test(m.env)) fail(`${at}.env`, `must be the name of an environment variable, got ${show(m.env)}`);
-    const value = env[m.env as string];
-    if (value === undefined || value === '') fail(`${at}.env`, `names the environment variable ${m.env as string}, which is not set or empty`);
-    return value as string;
-  }
-  const path = resolve(base, text(m.file, `${at}.file`, fail));
-  let content: string;
-  try {
-    content = readFileSync(path, 'utf8');
-  } catch (error) {
-    const code = (error as NodeJS.ErrnoException).code;
-    return fail(`${at}.file`, `cannot be read: ${path} (${code ?? (error as Error).message})`);
-  }
-  // A secret file usually ends with a line break that is no part of the secret.
-  const secret = content.replace(/\r?\n$/, '');
-  if (secret.length === 0 || secret.length > 4096) fail(`${at}.file`, `${path} must hold 1 to 4096 characters`);
-  return secret;
 }
 
 function ruleList(v: unknown, at: string, allowed: readonly AlertRule[], fail: Fail): AlertRule[] {

@@ -1,6 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { ConfigError } from '../../config/ConfigError.ts';
+import { readSecret } from '../../config/readSecret.ts';
 import { SITE_ID_PATTERN } from './topics.ts';
 
 /**
@@ -13,7 +14,7 @@ import { SITE_ID_PATTERN } from './topics.ts';
  *   topicPrefix: residuum                   # default residuum; topics are <prefix>/<site>/<camera>/...
  *   qos: 1                                  # 0, 1 or 2; default 1 (samples always go with at least 1)
  *   username: counter                       # optional; password needs a username (MQTT 3.1.1 §3.1.2.9)
- *   password: secret
+ *   password: secret                        # or { env: MQTT_PASSWORD } or { file: /run/secrets/mqtt } (readable by this user only)
  *   clientId: riverside-counter             # optional; default residuum-<site>-<random> (collector: residuum-collector-<host>)
  *   tls: { ca: certs/ca.pem, cert: certs/client.pem, key: certs/client.key, rejectUnauthorized: true }
  *   site: riverside                         # publisher only: the site's topic level; default a slug of site.name
@@ -85,6 +86,8 @@ export interface ValidateMqttSettingsOptions {
   readonly file?: string;
   /** Folder that relative TLS file paths are resolved against; default the current folder. */
   readonly base?: string;
+  /** Where `password: { env: NAME }` is read; default process.env. */
+  readonly env?: Readonly<Record<string, string | undefined>>;
   /** Field path of the section; default `mqtt`. */
   readonly at?: string;
   /** `publisher` (default) accepts the publisher-only keys; `collector` refuses them. */
@@ -109,7 +112,7 @@ const CLIENT_ID_PATTERN = /^[A-Za-z0-9._:-]{1,128}$/;
  * `{ url: 'mqtt://127.0.0.1:1883', topicPrefix: 'residuum', qos: 1, queueLimit: 10000, … }`.
  */
 export function validateMqttSettings(raw: unknown, options: ValidateMqttSettingsOptions = {}): MqttSettings {
-  const { file = 'config', base = '.', at = 'mqtt', role = MqttRole.publisher } = options;
+  const { file = 'config', base = '.', env = process.env, at = 'mqtt', role = MqttRole.publisher } = options;
   const fail = (path: string, message: string): never => {
     throw new ConfigError(`${file}: ${path} ${message}`);
   };
@@ -121,7 +124,8 @@ export function validateMqttSettings(raw: unknown, options: ValidateMqttSettings
   const qos = m.qos ?? 1;
   if (qos !== 0 && qos !== 1 && qos !== 2) fail(`${at}.qos`, `must be 0, 1 or 2, got ${show(qos)}`);
   const username = m.username === undefined ? undefined : text(m.username, `${at}.username`, fail);
-  const password = m.password === undefined ? undefined : text(m.password, `${at}.password`, fail, false);
+  // Text, { env: NAME } or { file: path }; a password file others may read is refused.
+  const password = m.password === undefined ? undefined : readSecret(m.password, `${at}.password`, fail, { base, env, privateFile: true });
   // MQTT 3.1.1 §3.1.2.9 (recalled from memory): the password flag must be 0 when the user name flag is 0.
   if (password !== undefined && username === undefined) fail(`${at}.password`, `needs ${at}.username as well (MQTT sends a password only with a user name)`);
   let clientId: string | undefined;

@@ -46,7 +46,7 @@ describe('validateAlertSettings', () => {
     fails({ rules: ['camera-offline'], webhooks: [{ ...hook, rules: ['low-stock'] }] }, /alerts\.webhooks\[0\]\.rules\[0\] must be one of camera-offline/);
     fails({ webhooks: [{ ...hook, retries: 21 }] }, /alerts\.webhooks\[0\]\.retries must be a whole number from 0 to 20/);
     fails({ webhooks: [{ ...hook, secret: { env: 'NOT_SET' } }] }, /alerts\.webhooks\[0\]\.secret\.env names the environment variable NOT_SET, which is not set or empty/);
-    fails({ webhooks: [{ ...hook, secret: { file: 'missing' } }] }, /alerts\.webhooks\[0\]\.secret\.file cannot be read: .*missing \(ENOENT\)/);
+    fails({ webhooks: [{ ...hook, secret: { file: 'missing' } }] }, /alerts\.webhooks\[0\]\.secret\.file cannot be read: .*missing \(ENOENT, no such file\)/);
     fails({ webhooks: [{ ...hook, secret: { env: 'A', file: 'b' } }] }, /alerts\.webhooks\[0\]\.secret must have exactly one of env/);
     fails({ webhooks: [{ ...hook, sekret: 'x' }] }, /alerts\.webhooks\[0\]\.sekret is not a known setting here/);
     const smtp = { host: 'smtp.example.org' };

@@ -1,4 +1,4 @@
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { chmodSync, existsSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
@@ -22,6 +22,19 @@ afterEach(async () => {
 });
 
 describe('residuum collect', () => {
+  it('refuses an admin key file that others may read, before the database is opened', async () => {
+    dir = mkdtempSync(join(tmpdir(), 'residuum-collect-'));
+    const config = join(dir, 'collect.yaml');
+    writeFileSync(config, 'site: { name: Head office, timeZone: Europe/Berlin }\nserver: { host: 127.0.0.1, port: 0 }\nmqtt: { url: "mqtt://127.0.0.1:1" }\n');
+    const keyFile = join(dir, 'admin-key');
+    writeFileSync(keyFile, 'ab'.repeat(32));
+    chmodSync(keyFile, 0o644); // whatever the umask
+    await expect(collectCommand(['--config', config, '--data', join(dir, 'data')], { env: { RESIDUUM_ADMIN_KEY_FILE: keyFile }, log: () => {} })).rejects.toThrow(
+      /RESIDUUM_ADMIN_KEY_FILE .*admin-key may be read by every user of this machine/,
+    );
+    expect(existsSync(join(dir, 'data', 'residuum.db'))).toBe(false);
+  });
+
   it('collects published samples into <data>/residuum.db and serves the collected cameras', async () => {
     broker = await startBroker();
     dir = mkdtempSync(join(tmpdir(), 'residuum-collect-'));

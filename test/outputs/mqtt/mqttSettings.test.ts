@@ -1,4 +1,4 @@
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { chmodSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
@@ -140,5 +140,40 @@ describe('loadCollectorConfig', () => {
     expect(() => loadCollectorConfig(write('server: { port: 70000 }\nmqtt: { url: "mqtt://h" }\n'))).toThrow(/collect\.yaml: server\.port must be a whole number from 0 to 65535, got 70000/);
     expect(() => loadCollectorConfig(write('mqtt: { url: "mqtt://h", qos: 5 }\n'))).toThrow(/collect\.yaml: mqtt\.qos must be 0, 1 or 2, got 5/);
     expect(() => loadCollectorConfig(join(tmpdir(), 'no-such-residuum.yaml'))).toThrow(/no such configuration file/);
+  });
+});
+
+describe('mqtt.password from the environment or a file', () => {
+  let dir: string | undefined;
+  afterEach(() => {
+    if (dir) rmSync(dir, { recursive: true, force: true });
+    dir = undefined;
+  });
+  const withEnv = (raw: unknown, env: Record<string, string>, base = '/etc/residuum') => validateMqttSettings(raw, { file: 'site.yaml', base, env });
+
+  it('reads { env: NAME } and names the variable when it is not set', () => {
+    expect(withEnv({ url: 'mqtt://h', username: 'u', password: { env: 'MQTT_PW' } }, { MQTT_PW: 's3cret' }).password).toBe('s3cret');
+    expect(() => withEnv({ url: 'mqtt://h', username: 'u', password: { env: 'MQTT_PW' } }, {})).toThrow(/site\.yaml: mqtt\.password\.env names the environment variable MQTT_PW, which is not set or empty/);
+  });
+
+  it('reads { file: path } against the configuration folder, refusing a missing, empty or world-readable file', () => {
+    dir = mkdtempSync(join(tmpdir(), 'residuum-mqtt-pw-'));
+    writeFileSync(join(dir, 'mqtt'), 's3cret\n', { mode: 0o600 });
+    expect(withEnv({ url: 'mqtt://h', username: 'u', password: { file: 'mqtt' } }, {}, dir).password).toBe('s3cret');
+    expect(() => withEnv({ url: 'mqtt://h', username: 'u', password: { file: 'nope' } }, {}, dir)).toThrow(/site\.yaml: mqtt\.password\.file cannot be read: .*nope \(ENOENT/);
+    writeFileSync(join(dir, 'empty'), '', { mode: 0o600 });
+    expect(() => withEnv({ url: 'mqtt://h', username: 'u', password: { file: 'empty' } }, {}, dir)).toThrow(/mqtt\.password\.file .*empty is empty/);
+    writeFileSync(join(dir, 'open'), 's3cret');
+    chmodSync(join(dir, 'open'), 0o644); // whatever the umask
+    const message = (() => {
+      try {
+        withEnv({ url: 'mqtt://h', username: 'u', password: { file: 'open' } }, {}, dir);
+      } catch (e) {
+        return (e as Error).message;
+      }
+      return '';
+    })();
+    expect(message).toMatch(/mqtt\.password\.file .*open may be read by every user of this machine/);
+    expect(message).not.toContain('s3cret');
   });
 });
