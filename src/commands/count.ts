@@ -10,7 +10,7 @@ import type { ColourFrameItem } from '../frames/colourFrame.ts';
 import { calibratedTally, describeCalibration, fitZoneCalibrations, regressionsInUse, zoneCountFeatures } from '../counting/calibratedTally.ts';
 import type { CalibrationPoint, CountFeatures } from '../counting/fitCountRegression.ts';
 import { basename, extname } from 'node:path';
-import { parseCountTruth, type CountTruth } from './evaluate.ts';
+import { readCalibration } from './countsFile.ts';
 import { numberOption, parseOptions, requireOption, UsageError } from './args.ts';
 import { frameInput } from './frameInput.ts';
 
@@ -130,21 +130,6 @@ export async function countCommand(argv: string[], io = { out: process.stdout, e
   return 0;
 }
 
-/** A calibration file: counts in the format of evaluate's truth, for room zones of the zones file. */
-export async function readCalibration(file: string, zones: readonly Zone[]): Promise<CountTruth> {
-  const text = await readFile(file, 'utf8').catch((e: NodeJS.ErrnoException) => {
-    throw new UsageError(`--calibration: cannot read ${file} (${e.code === 'ENOENT' ? 'no such file' : e.message})`);
-  });
-  const counts = parseCountTruth(text, file);
-  const rooms = new Set(zones.filter((z) => z.kind === 'room').map((z) => z.id));
-  for (const [frame, byZone] of counts) {
-    for (const [zone, n] of Object.entries(byZone)) {
-      if (!rooms.has(zone)) throw new UsageError(`--calibration: ${file}: frame ${frame}: ${JSON.stringify(zone)} is not a room zone of ${zones.length === 1 && zones[0].id === 'all' ? 'the whole frame (zone "all")' : 'the zones file'}`);
-      if (!Number.isInteger(n)) throw new UsageError(`--calibration: ${file}: frame ${frame}, zone ${zone}: a count of people must be a whole number, got ${n}`);
-    }
-  }
-  return counts;
-}
 
 /**
  * Whether frames are separate pictures rather than a sequence in time: fewer than 80 % of their

@@ -11,7 +11,8 @@ import { calibratedTally, describeCalibration, fitZoneCalibrations, regressionsI
 import type { CalibrationPoint, CountFeatures, CountRegressionFit } from '../counting/fitCountRegression.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 import type { FrameTally } from '../vision/tallyZones.ts';
-import { isSnapshots, personSizeReport, readCalibration } from './count.ts';
+import { isSnapshots, personSizeReport } from './count.ts';
+import { parseCountTruth, readCalibration, type CountTruth } from './countsFile.ts';
 import { loadModel, ModelFileError } from '../counting/modelFile.ts';
 import { parseZones } from '../counting/parseZones.ts';
 import type { Zone } from '../counting/zone.ts';
@@ -112,8 +113,6 @@ export interface EvaluateOptions {
    */
   calibration?: CountTruth;
 }
-
-export type CountTruth = Map<string, Record<string, number>>;
 
 /** `residuum evaluate`. */
 export async function evaluateCommand(argv: string[], io = { out: process.stdout, err: process.stderr }): Promise<number> {
@@ -317,44 +316,6 @@ function keepWorst(list: WorstFrame[], frame: WorstFrame, limit: number): void {
   if (list.length > limit) list.pop();
 }
 
-/** Count truth: {"frames": {name: {zone: n | {count: n}}}} or JSON lines of {frame, zones}. */
-export function parseCountTruth(text: string, source: string): CountTruth {
-  const truth: CountTruth = new Map();
-  const add = (name: unknown, zones: unknown, at: string) => {
-    if (typeof name !== 'string' && typeof name !== 'number') throw new UsageError(`${source}: ${at} needs a frame name`);
-    if (typeof zones !== 'object' || zones === null) throw new UsageError(`${source}: ${at}.zones must be an object of zone counts`);
-    const counts: Record<string, number> = {};
-    for (const [zone, raw] of Object.entries(zones as Record<string, unknown>)) {
-      const n = typeof raw === 'object' && raw !== null ? (raw as { count?: unknown }).count : raw;
-      if (typeof n !== 'number' || !Number.isFinite(n) || n < 0) throw new UsageError(`${source}: ${at}.${zone} must be a count ≥ 0, got ${JSON.stringify(raw)}`);
-      counts[zone] = n;
-    }
-    truth.set(String(name), counts);
-  };
-  const trimmed = text.trim();
-  let doc: unknown;
-  try {
-    doc = JSON.parse(trimmed);
-  } catch {
-    trimmed.split(/\r?\n/).forEach((line, i) => {
-      if (line.trim() === '') return;
-      let row: { frame?: unknown; zones?: unknown };
-      try {
-        row = JSON.parse(line);
-      } catch {
-        throw new UsageError(`${source}: line ${i + 1} is not JSON`);
-      }
-      add(row.frame, row.zones, `line ${i + 1}`);
-    });
-    return truth;
-  }
-  const framesObject = (doc as { frames?: unknown })?.frames;
-  if (typeof framesObject !== 'object' || framesObject === null || Array.isArray(framesObject)) {
-    throw new UsageError(`${source}: expected {"frames": {"<frame>": {"<zone>": count}}} or JSON lines of {"frame", "zones"}`);
-  }
-  for (const [name, zones] of Object.entries(framesObject)) add(name, zones, `frames["${name}"]`);
-  return truth;
-}
 
 async function maskIndex(folder: string): Promise<Map<string, string>> {
   const index = new Map<string, string>();

@@ -8,9 +8,9 @@ import { fitCountRegression, predictCount, type CalibrationPoint, type CountFeat
  * The count features of each room zone in one counted frame (fitCountRegression's order): the
  * blob rule's count (after following, as the zone would report it), the perspective-normalised
  * foreground area and edge of the zone (measureZoneForeground on the frame's cleaned mask) and
- * the number of blobs the zone kept. Shelves are not calibrated. `only`: just these zones.
+ * the number of blobs the zone kept. Shelves are not calibrated. `only`: just the zones it has (a set or a map by zone id).
  */
-export function zoneCountFeatures(tally: FrameTally, mask: Mask, zones: readonly PreparedZone[], only?: ReadonlySet<string>): Map<string, CountFeatures> {
+export function zoneCountFeatures(tally: FrameTally, mask: Mask, zones: readonly PreparedZone[], only?: { has(id: string): boolean }): Map<string, CountFeatures> {
   const rooms = zones.filter((zone) => zone.kind === 'room' && (only === undefined || only.has(zone.id)));
   const foreground = measureZoneForeground(mask, rooms);
   const features = new Map<string, CountFeatures>();

@@ -358,7 +358,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     lastCountedWall = Date.now();
     const result = regressions.size === 0
       ? ruled
-      : calibratedTally(ruled, zoneCountFeatures(ruled, counter.lastMask(), counter.zones, new Set(regressions.keys())), regressions);
+      : calibratedTally(ruled, zoneCountFeatures(ruled, counter.lastMask(), counter.zones, regressions), regressions);
     emitter.emit('counted', (performance.now() - started) / 1000, counter.stageTimes);
     lastFrameAt = at;
     state = 'online';

@@ -1,5 +1,6 @@
 import { ConfigError } from '../../config/ConfigError.ts';
 import { readSecret } from '../../config/readSecret.ts';
+import { int, mapping, num, show, text, type Fail } from '../../config/settingFields.ts';
 import { ALERT_RULES, type AlertRule } from './evaluateAlerts.ts';
 
 /**
@@ -87,8 +88,6 @@ export interface ValidateAlertSettingsOptions {
   /** Where `{ env: NAME }` secrets are read; default process.env. */
   readonly env?: Readonly<Record<string, string | undefined>>;
 }
-
-type Fail = (path: string, message: string) => never;
 
 /**
  * Validates a parsed `alerts` section (defaults filled in, secrets read); throws ConfigError naming
@@ -190,32 +189,4 @@ function address(v: unknown, at: string, fail: Fail): string {
   // Not RFC 5322 in full (common practice: one @, no spaces, a dot in the domain).
   if (!bare || !/^[^@\s]+@[^@\s]+\.[^@\s]+$/.test(bare)) fail(at, `must be an e-mail address such as facilities@example.org, got ${show(v)}`);
   return v.trim();
-}
-
-function mapping(v: unknown, at: string, keys: string[], fail: Fail): Record<string, unknown> {
-  if (typeof v !== 'object' || v === null || Array.isArray(v)) return fail(at, `must be a mapping (key: value), got ${show(v)}`);
-  for (const key of Object.keys(v)) if (!keys.includes(key)) fail(`${at}.${key}`, `is not a known setting here (known: ${keys.join(', ')})`);
-  return v as Record<string, unknown>;
-}
-
-function text(v: unknown, at: string, fail: Fail): string {
-  if (typeof v !== 'string' || v.length === 0 || v.length > 2000) fail(at, `must be non-empty text, got ${show(v)}`);
-  return v as string;
-}
-
-function int(v: unknown, at: string, min: number, max: number, fail: Fail): number {
-  if (typeof v !== 'number' || !Number.isInteger(v) || v < min || v > max) fail(at, `must be a whole number from ${min} to ${max}, got ${show(v)}`);
-  return v as number;
-}
-
-function num(v: unknown, at: string, min: number, max: number, fail: Fail): number {
-  if (typeof v !== 'number' || !Number.isFinite(v) || v < min || v > max) fail(at, `must be a number from ${min} to ${max}, got ${show(v)}`);
-  return v as number;
-}
-
-function show(v: unknown): string {
-  if (typeof v === 'number') return String(v);
-  if (v === undefined) return 'nothing';
-  const s = JSON.stringify(v);
-  return s === undefined ? String(v) : s.length > 60 ? s.slice(0, 57) + '...' : s;
 }

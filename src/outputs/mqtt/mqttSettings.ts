@@ -2,6 +2,7 @@ import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { ConfigError } from '../../config/ConfigError.ts';
 import { readSecret } from '../../config/readSecret.ts';
+import { bool, int, mapping, num, show, text, type Fail } from '../../config/settingFields.ts';
 import { SITE_ID_PATTERN } from './topics.ts';
 
 /**
@@ -206,14 +207,6 @@ export function readMqttTls(settings: MqttSettings, at = 'mqtt'): MqttTlsMateria
   return { ...(ca && { ca }), ...(cert && { cert }), ...(key && { key }), rejectUnauthorized: tls.rejectUnauthorized };
 }
 
-type Fail = (path: string, message: string) => never;
-
-function mapping(v: unknown, at: string, keys: string[], fail: Fail): Record<string, unknown> {
-  if (typeof v !== 'object' || v === null || Array.isArray(v)) return fail(at, `must be a mapping (key: value), got ${show(v)}`);
-  for (const key of Object.keys(v)) if (!keys.includes(key)) fail(`${at}.${key}`, `is not a known setting here (known: ${keys.join(', ')})`);
-  return v as Record<string, unknown>;
-}
-
 function brokerUrl(v: unknown, at: string, fail: Fail): string {
   if (typeof v !== 'string' || v === '') return fail(at, `must be the broker's URL, e.g. mqtt://127.0.0.1:1883, got ${show(v)}`);
   let parsed: URL;
@@ -237,31 +230,4 @@ function prefix(v: unknown, at: string, fail: Fail): string {
   if (v.startsWith('$')) fail(at, `must not start with "$" (topics for the broker's own use), got ${show(v)}`);
   if (v.split('/').some((level) => level === '')) fail(at, `must not have empty levels (a leading, trailing or double "/"), got ${show(v)}`);
   return v;
-}
-
-function text(v: unknown, at: string, fail: Fail, echo = true): string {
-  if (typeof v !== 'string' || v.length === 0 || v.length > 2000) fail(at, `must be non-empty text${echo ? `, got ${show(v)}` : ''}`);
-  return v as string;
-}
-
-function int(v: unknown, at: string, min: number, max: number, fail: Fail): number {
-  if (typeof v !== 'number' || !Number.isInteger(v) || v < min || v > max) fail(at, `must be a whole number from ${min} to ${max}, got ${show(v)}`);
-  return v as number;
-}
-
-function num(v: unknown, at: string, min: number, max: number, fail: Fail): number {
-  if (typeof v !== 'number' || !Number.isFinite(v) || v < min || v > max) fail(at, `must be a number from ${min} to ${max}, got ${show(v)}`);
-  return v as number;
-}
-
-function bool(v: unknown, at: string, fail: Fail): boolean {
-  if (typeof v !== 'boolean') fail(at, `must be true or false, got ${show(v)}`);
-  return v as boolean;
-}
-
-function show(v: unknown): string {
-  if (typeof v === 'number') return String(v);
-  if (v === undefined) return 'nothing';
-  const s = JSON.stringify(v);
-  return s === undefined ? String(v) : s.length > 60 ? s.slice(0, 57) + '...' : s;
 }
