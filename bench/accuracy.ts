@@ -13,7 +13,7 @@ import { parseArgs } from 'node:util';
 import { evaluate } from '../src/commands/evaluate.ts';
 import { findPersonSize } from '../src/counting/findPersonSize.ts';
 import { describeCalibration } from '../src/counting/calibratedTally.ts';
-import type { Zone } from '../src/counting/zone.ts';
+import type { Zone } from '../src/domain/zone.ts';
 import { createScene, sceneIds, syntheticFrames, type SceneId } from '../src/frames/synthetic/index.ts';
 import { fitSubspace } from '../src/vision/fitSubspace.ts';
 

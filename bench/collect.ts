@@ -24,7 +24,7 @@ import pg from 'pg';
 import { startCollector } from '../src/outputs/mqtt/mqttCollector.ts';
 import { createMqttPublisher, type MqttPublisher } from '../src/outputs/mqtt/mqttPublisher.ts';
 import { validateMqttSettings } from '../src/outputs/mqtt/mqttSettings.ts';
-import { publishingStore } from '../src/outputs/mqtt/publishingStore.ts';
+import { reportingStore } from '../src/store/reportingStore.ts';
 import { openStore, type Sample, type Store } from '../src/store/index.ts';
 import { openPostgresStore } from '../src/store/postgres/openPostgresStore.ts';
 
@@ -97,7 +97,7 @@ async function endToEnd(url: string) {
       store.upsertCamera({ id: 'door' });
       for (const z of ZONES) store.upsertZone('door', { id: z, kind: 'room', polygon: [[0, 0], [1, 0], [1, 1]] });
       const publisher = createMqttPublisher(validateMqttSettings({ url: 'mqtt://127.0.0.1:1883', topicPrefix: prefix, stateIntervalSeconds: 0 }), { site: `site${s}`, store });
-      site.push({ store, writer: publishingStore(store, publisher), publisher });
+      site.push({ store, writer: reportingStore(store, publisher), publisher });
     }
     while (!site.every((x) => x.publisher.stats().connected)) await new Promise((done) => setTimeout(done, 20));
     // One batch (three zones) per site and tick; ticks spaced to give `rate` samples a second in all.

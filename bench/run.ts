@@ -62,7 +62,7 @@ import { openStore } from '../src/store/index.ts';
 import { createCounter } from '../src/counting/createCounter.ts';
 import { createDriftingCounter } from '../src/counting/createDriftingCounter.ts';
 import { decodeImage } from '../src/frames/decodeImage.ts';
-import type { GreyFrame } from '../src/frames/frame.ts';
+import type { GreyFrame } from '../src/domain/frame.ts';
 import { createScene } from '../src/frames/synthetic/index.ts';
 import { fitSubspace } from '../src/vision/fitSubspace.ts';
 import type { Subspace } from '../src/vision/subspace.ts';

@@ -17,7 +17,7 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { stringify } from 'yaml';
 import { NEW_KEYS_FILE } from '../src/commands/run.ts';
-import type { Zone } from '../src/counting/zone.ts';
+import type { Zone } from '../src/domain/zone.ts';
 import { openStore, type Sample } from '../src/store/index.ts';
 
 const root = fileURLToPath(new URL('../', import.meta.url));

@@ -1,14 +1,14 @@
 import type { Server } from 'node:http';
 import { join, resolve } from 'node:path';
 import { loadCollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
-import { sqliteCollectorStore } from '../outputs/mqtt/collectorStore.ts';
+import { sqliteCollectorStore } from '../store/collectorStore.ts';
 import { startCollector, type Collector } from '../outputs/mqtt/mqttCollector.ts';
 import { readMqttTls } from '../outputs/mqtt/mqttSettings.ts';
 import { createApp } from '../server/createApp.ts';
 import { adminKeyFromEnvironment, prepareTokens, tokenNotice } from '../server/tokens.ts';
 import { openStore, type Store } from '../store/index.ts';
 import { openPostgresStore, redactUrl } from '../store/postgres/openPostgresStore.ts';
-import type { CollectorStore } from '../outputs/mqtt/collectorStore.ts';
+import type { CollectorStore } from '../store/collectorStore.ts';
 import { createCollectorMetrics } from '../outputs/metrics.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
 

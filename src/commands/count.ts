@@ -4,9 +4,9 @@ import { createSequenceCounter, sceneMismatchWarning } from '../counting/createS
 import { findPersonSize, formatShare, type FoundPersonSize } from '../counting/findPersonSize.ts';
 import { loadModel, ModelFileError } from '../counting/modelFile.ts';
 import { parseZones } from '../counting/parseZones.ts';
-import type { Zone } from '../counting/zone.ts';
+import type { Zone } from '../domain/zone.ts';
 import type { FrameCount } from '../counting/createCounter.ts';
-import type { ColourFrameItem } from '../frames/colourFrame.ts';
+import type { ColourFrameItem } from '../domain/colourFrame.ts';
 import { calibratedTally, describeCalibration, fitZoneCalibrations, regressionsInUse, zoneCountFeatures } from '../counting/calibratedTally.ts';
 import type { CalibrationPoint, CountFeatures } from '../counting/fitCountRegression.ts';
 import { basename, extname } from 'node:path';

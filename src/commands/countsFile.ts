@@ -1,5 +1,5 @@
 import { readFile } from 'node:fs/promises';
-import type { Zone } from '../counting/zone.ts';
+import type { Zone } from '../domain/zone.ts';
 import { UsageError } from './args.ts';
 
 /**

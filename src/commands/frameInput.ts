@@ -1,6 +1,6 @@
 import { stat } from 'node:fs/promises';
-import type { ColourFrameItem } from '../frames/colourFrame.ts';
-import type { FrameItem } from '../frames/frame.ts';
+import type { ColourFrameItem } from '../domain/colourFrame.ts';
+import type { FrameItem } from '../domain/frame.ts';
 import { FrameError } from '../frames/FrameError.ts';
 import type { FrameSourceOptions } from '../frames/frameSourceOptions.ts';
 import { openFrames } from '../frames/openFrames.ts';

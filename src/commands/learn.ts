@@ -1,5 +1,5 @@
-import type { ColourFrame } from '../frames/colourFrame.ts';
-import type { GreyFrame } from '../frames/frame.ts';
+import type { ColourFrame } from '../domain/colourFrame.ts';
+import type { GreyFrame } from '../domain/frame.ts';
 import { fitChromaticity } from '../vision/fitChromaticity.ts';
 import { statSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';

@@ -13,7 +13,7 @@ import type { WorkerFault } from '../counting/cameraWorkerProtocol.ts';
 import { learnInWorker } from '../counting/learnInWorker.ts';
 import { createMetrics, type Metrics } from '../outputs/metrics.ts';
 import { createMqttPublisher } from '../outputs/mqtt/mqttPublisher.ts';
-import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
+import { reportingStore } from '../store/reportingStore.ts';
 import { siteSlug } from '../outputs/mqtt/topics.ts';
 import { startAlerts, type AlertService, type StartAlertsOptions } from '../outputs/alerts/startAlerts.ts';
 import { readDisplaySettings } from '../server/displaySettings.ts';
@@ -29,7 +29,7 @@ import { createApp } from '../server/createApp.ts';
 import { ModelChoiceError, type KeptModel, type ServiceControl, type SmallImage } from '../server/serviceControl.ts';
 import { adminKeyFromEnvironment, prepareTokens, tokenNotice, type NewTokens } from '../server/tokens.ts';
 import { validateZones } from '../counting/parseZones.ts';
-import type { Zone } from '../counting/zone.ts';
+import type { Zone } from '../domain/zone.ts';
 import { describeZoneChange, reconcileZones } from '../config/reconcileZones.ts';
 import { openStore, type ModelInfo, type Store } from '../store/index.ts';
 import type { Subspace } from '../vision/subspace.ts';
@@ -169,7 +169,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     threadHeap: () => [...hosts.values()].map((h) => [h.id, h.heap()] as const),
   });
   // The main thread's own events (a camera's worker failed) go to MQTT too.
-  const mainEvents = mqtt ? publishingStore(store, mqtt, log) : store;
+  const mainEvents = mqtt ? reportingStore(store, mqtt, log) : store;
   const quietly = (what: string, publish: () => void) => {
     try {
       publish();

@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import { parse as parseYaml } from 'yaml';
 import { validateZones, ZONE_RANGES } from '../counting/parseZones.ts';
-import type { Zone } from '../counting/zone.ts';
+import type { Zone } from '../domain/zone.ts';
 import type { CameraSourceDescription } from '../frames/live/createCameraSource.ts';
 import { sceneIds } from '../frames/synthetic/index.ts';
 import { validateMqttSettings, type MqttSettings } from '../outputs/mqtt/mqttSettings.ts';
@@ -12,35 +12,8 @@ import { ConfigError } from './ConfigError.ts';
 
 export { ConfigError };
 
-/** How per-frame counts are smoothed before sampling. */
-export interface SmoothingConfig {
-  /** Frames in the sliding window (≥ 1; 1 = no smoothing). */
-  readonly window: number;
-  /** `median` (robust to single-frame glitches) or `mean`. */
-  readonly method: 'median' | 'mean';
-}
-
-export interface CameraConfig {
-  readonly id: string;
-  readonly name: string;
-  /** The live source, with the working size filled in. */
-  readonly source: CameraSourceDescription;
-  /** A model file (resolved against the configuration file's folder), or undefined to use the stored one. */
-  readonly model?: string;
-  /** Seconds of frames to learn from at start when no model exists (the view must be empty then). */
-  readonly learnSeconds: number;
-  /** Seconds between two stored samples per zone. */
-  readonly sampleSeconds: number;
-  readonly smoothing: SmoothingConfig;
-  /** Default foreground threshold for this camera's zones, noise units. */
-  readonly threshold: number;
-  /**
-   * Follow slow drift of the empty scene (daylight, lamps, exposure) from pixels judged
-   * background; absent: createDriftingCounter's default (on). See README "Counting in real rooms".
-   */
-  readonly adaptToDrift?: boolean;
-  readonly zones: readonly Zone[];
-}
+export type { CameraConfig, SmoothingConfig } from '../counting/cameraConfig.ts';
+import type { CameraConfig, SmoothingConfig } from '../counting/cameraConfig.ts';
 
 export interface ResiduumConfig {
   /** The file it was read from (for messages). */

@@ -1,4 +1,4 @@
-import type { Zone } from '../counting/zone.ts';
+import type { Zone } from '../domain/zone.ts';
 
 /**
  * Who wins when a camera's zones are both in the configuration file and edited in the dashboard.

@@ -1,4 +1,4 @@
-import type { Mask } from '../frames/frame.ts';
+import type { Mask } from '../domain/frame.ts';
 import { measureZoneForeground } from '../vision/measureZoneForeground.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 import type { FrameTally } from '../vision/tallyZones.ts';

@@ -1,8 +1,8 @@
 import { EventEmitter } from 'node:events';
 import { Worker } from 'node:worker_threads';
 import type { EventLoopUtilization } from 'node:perf_hooks';
-import type { CameraConfig } from '../config/loadConfig.ts';
-import type { Mask } from '../frames/frame.ts';
+import type { CameraConfig } from './cameraConfig.ts';
+import type { Mask } from '../domain/frame.ts';
 import { createRetryScheduler, type BackoffOptions } from '../frames/live/backoff.ts';
 import type { Store } from '../store/index.ts';
 import type { Subspace } from '../vision/subspace.ts';
@@ -10,7 +10,7 @@ import type { CameraLive, LearnStatus, ZoneLive } from './cameraPipeline.ts';
 import type { CameraWorkerData, FromWorker, ToWorker, WorkerFault, WorkerHeap } from './cameraWorkerProtocol.ts';
 import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 import { CalibrationError, type ZoneCalibrationStatus } from './zoneCalibration.ts';
 
 export interface CameraHostOptions {
@@ -59,7 +59,7 @@ export interface CameraHostOptions {
  * and learning requests, and restarts the worker with backoff when it crashes, exits or hangs.
  *
  * Events: `live` (CameraLive) after every counted frame and state change, as the pipeline's;
- * `learn` (LearnStatus); `stage` (label, seconds); `sample` (Sample) and `event` (PublishedEvent)
+ * `learn` (LearnStatus); `stage` (label, seconds); `sample` (Sample) and `event` (EventInput)
  * after the worker's store committed them (with `relayCommits`); `sourceError` (); `model`
  * (Subspace, id) when the worker counts with another model (one it learned and judged usable, or
  * one given to `useModel`); `restart` ({ reason, attempt, retryInMs }) when a worker failed and

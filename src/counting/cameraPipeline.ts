@@ -1,8 +1,8 @@
 import { EventEmitter } from 'node:events';
-import type { CameraConfig } from '../config/loadConfig.ts';
-import type { GreyFrame, Mask } from '../frames/frame.ts';
+import type { CameraConfig } from './cameraConfig.ts';
+import type { GreyFrame, Mask } from '../domain/frame.ts';
 import type { FrameError } from '../frames/FrameError.ts';
-import type { ColourFrame } from '../frames/colourFrame.ts';
+import type { ColourFrame } from '../domain/colourFrame.ts';
 import type { CameraHandlers, SourceState, StatusDetail } from '../frames/live/cameraSource.ts';
 import type { Store } from '../store/index.ts';
 import { QualityFlag, type Sample } from '../store/samples.ts';
@@ -19,7 +19,7 @@ import { calibratedTally, zoneCountFeatures } from './calibratedTally.ts';
 import type { CountRegression } from './fitCountRegression.ts';
 import { CalibrationError, fitStoredCalibration, storedRegressions, zoneShapeKey, type ZoneCalibrationStatus } from './zoneCalibration.ts';
 import type { FrameTally } from '../vision/tallyZones.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 
 /** What the dashboard and outputs see of one zone right now. */
 export interface ZoneLive {

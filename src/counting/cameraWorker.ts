@@ -16,7 +16,7 @@
 import { getHeapStatistics } from 'node:v8';
 import { parentPort, workerData } from 'node:worker_threads';
 import { createCameraSource } from '../frames/live/createCameraSource.ts';
-import { publishingStore } from '../outputs/mqtt/publishingStore.ts';
+import { reportingStore } from '../store/reportingStore.ts';
 import { openStore, type Store } from '../store/index.ts';
 import { createCameraPipeline } from './cameraPipeline.ts';
 import { counterStageDeltas } from './counterStageDeltas.ts';
@@ -77,7 +77,7 @@ const timedStore: Store = {
 };
 // For MQTT: what the store committed goes to the main thread, which publishes it (the database first, always).
 const store = data.relayCommits
-  ? publishingStore(timedStore, { publishSample: (sample) => post({ type: 'sample', sample }), publishEvent: (event) => post({ type: 'event', event }) }, log)
+  ? reportingStore(timedStore, { publishSample: (sample) => post({ type: 'sample', sample }), publishEvent: (event) => post({ type: 'event', event }) }, log)
   : timedStore;
 
 const mask = sharedMask(camera.source.size, { buffer: data.mask });

@@ -4,12 +4,12 @@
  * committed samples and events, log lines and the empty-scene model cross: never a frame. The
  * last foreground mask is shared through memory (src/counting/sharedMask.ts), not posted.
  */
-import type { CameraConfig } from '../config/loadConfig.ts';
-import type { PublishedEvent } from '../outputs/mqtt/mqttPublisher.ts';
+import type { CameraConfig } from './cameraConfig.ts';
+import type { EventInput } from '../domain/event.ts';
 import type { Sample } from '../store/samples.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import type { CameraLive, LearnStatus } from './cameraPipeline.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 import type { ZoneCalibrationStatus } from './zoneCalibration.ts';
 
 /**
@@ -115,7 +115,7 @@ export type FromWorker =
   /** A sample the worker's store committed (only with `relayCommits`). */
   | { readonly type: 'sample'; readonly sample: Sample }
   /** An event the worker's store committed (only with `relayCommits`). */
-  | { readonly type: 'event'; readonly event: PublishedEvent }
+  | { readonly type: 'event'; readonly event: EventInput }
   /**
    * The answer to a CalibrateMessage: the zone's calibration after the point was stored, or why
    * it could not be (`refused`: a CalibrationError, e.g. no recent frame; otherwise a fault).

@@ -1,6 +1,6 @@
-import type { ColourFrame } from '../frames/colourFrame.ts';
-import type { GreyFrame, Mask } from '../frames/frame.ts';
-import { assertSameSize, createMask } from '../frames/frame.ts';
+import type { ColourFrame } from '../domain/colourFrame.ts';
+import type { GreyFrame, Mask } from '../domain/frame.ts';
+import { assertSameSize, createMask } from '../domain/frame.ts';
 import type { ChromaticityModel } from '../vision/chromaticityModel.ts';
 import { suppressShadows, type SuppressShadowsOptions } from '../vision/suppressShadows.ts';
 import type { Blob } from '../vision/labelComponents.ts';
@@ -14,7 +14,7 @@ import type { Subspace } from '../vision/subspace.ts';
 import type { FrameTally } from '../vision/tallyZones.ts';
 import { COUNTER_STAGES, CounterStage, createMaskCounter, type MaskCounterOptions } from './createMaskCounter.ts';
 import { thresholdResidual } from '../vision/thresholdResidual.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 
 /** The zone used when a camera has no zones: the whole frame, counting people. */
 export const wholeFrameZone: Zone = { id: 'all', kind: 'room', polygon: [[0, 0], [1, 0], [1, 1], [0, 1]] };

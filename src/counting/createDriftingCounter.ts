@@ -1,10 +1,10 @@
-import { createMask, type GreyFrame, type Mask } from '../frames/frame.ts';
+import { createMask, type GreyFrame, type Mask } from '../domain/frame.ts';
 import { adaptBackground, adaptBackgroundScratch } from '../vision/adaptBackground.ts';
 import { dilate } from '../vision/dilate.ts';
 import { rescaleBasis } from '../vision/rescaleBasis.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { createCounter, wholeFrameZone, type Counter, type CounterOptions } from './createCounter.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 
 export interface DriftingCounterOptions extends CounterOptions {
   /** Follow slow drift of the empty scene (false: the learned model is used as it is, like createCounter); default true. */

@@ -1,4 +1,4 @@
-import { createMask, type Mask } from '../frames/frame.ts';
+import { createMask, type Mask } from '../domain/frame.ts';
 import { createBitMask, unpackMask, type BitMask } from '../vision/bitMask.ts';
 import { createLabelBitRunsScratch, labelBitRuns } from '../vision/labelBitRuns.ts';
 import { morphologyBitMask } from '../vision/morphologyBits.ts';
@@ -8,7 +8,7 @@ import { labelComponents, type Blob } from '../vision/labelComponents.ts';
 import { openMask } from '../vision/openMask.ts';
 import { prepareZones, type PreparedZone, type PrepareZonesOptions } from '../vision/prepareZones.ts';
 import { tallyZones, type FrameTally } from '../vision/tallyZones.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 
 export interface MaskCounterOptions extends PrepareZonesOptions {
   /** Radius of the opening that removes specks, pixels; default 1. 0 skips it. */

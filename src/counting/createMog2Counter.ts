@@ -1,8 +1,8 @@
-import type { ColourFrame } from '../frames/colourFrame.ts';
-import { createMask, type GreyFrame, type Mask } from '../frames/frame.ts';
+import type { ColourFrame } from '../domain/colourFrame.ts';
+import { createMask, type GreyFrame, type Mask } from '../domain/frame.ts';
 import { createMaskCounter, type MaskCounterOptions, type MaskTally } from './createMaskCounter.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 
 export interface Mog2Options extends MaskCounterOptions {
   /** Frames of history (OpenCV's default 500). */

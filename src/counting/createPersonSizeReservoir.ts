@@ -1,6 +1,6 @@
 import type { Blob } from '../vision/labelComponents.ts';
 import { learnPersonArea, type LearnPersonAreaOptions, type PersonObservation } from '../vision/learnPersonArea.ts';
-import { pointInPolygon } from '../vision/pointInPolygon.ts';
+import { pointInPolygon } from '../domain/pointInPolygon.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 
 /** One blob kept for learning: a person standing alone (numbers only, never pixels). */

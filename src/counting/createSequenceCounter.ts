@@ -1,11 +1,11 @@
-import type { ColourFrame } from '../frames/colourFrame.ts';
-import type { GreyFrame, Mask } from '../frames/frame.ts';
+import type { ColourFrame } from '../domain/colourFrame.ts';
+import type { GreyFrame, Mask } from '../domain/frame.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import type { FrameCount } from './createCounter.ts';
 import { createDriftingCounter, type DriftingCounterOptions } from './createDriftingCounter.ts';
 import { createBlobFollower, type FollowBlobsOptions } from './followBlobs.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 
 export interface SequenceCounterOptions extends Omit<DriftingCounterOptions, 'clock'> {
   /** Frames per second of the sequence (its clock for drift; > 0, default 10). */

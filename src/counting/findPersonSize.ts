@@ -1,11 +1,11 @@
-import type { FrameItem } from '../frames/frame.ts';
+import type { FrameItem } from '../domain/frame.ts';
 import { random } from '../frames/synthetic/random.ts';
 import type { Blob } from '../vision/labelComponents.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { createCounter, type CounterOptions } from './createCounter.ts';
 import { createPersonSizeReservoir, PersonSizeState, type PersonSizeSuggestion } from './createPersonSizeReservoir.ts';
-import type { PerspectiveReference, Zone } from './zone.ts';
+import type { PerspectiveReference, Zone } from '../domain/zone.ts';
 
 /** A person size found in a sequence of frames, and the zones it was given to. */
 export interface FoundPersonSize {

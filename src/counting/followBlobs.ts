@@ -1,5 +1,5 @@
 import type { Blob } from '../vision/labelComponents.ts';
-import { pointInPolygon } from '../vision/pointInPolygon.ts';
+import { pointInPolygon } from '../domain/pointInPolygon.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 import { peopleInBlob, type FrameTally, type ZoneTally } from '../vision/tallyZones.ts';
 

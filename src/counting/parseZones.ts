@@ -1,5 +1,5 @@
 import { parse as parseYaml } from 'yaml';
-import { AnchorPoint, ZoneKind, type NormalisedPoint, type PerspectiveReference, type Zone } from './zone.ts';
+import { AnchorPoint, ZoneKind, type NormalisedPoint, type PerspectiveReference, type Zone } from '../domain/zone.ts';
 
 /** A zones file or configuration section that does not validate; the message names the field. */
 export class ZoneError extends Error {

@@ -1,4 +1,4 @@
-import type { Mask } from '../frames/frame.ts';
+import type { Mask } from '../domain/frame.ts';
 
 /**
  * The last foreground mask of a camera, in memory shared between the camera's worker thread

@@ -1,7 +1,7 @@
 import type { CalibrationStore, StoredCalibrationPoint } from '../store/calibration.ts';
 import { describeCalibration } from './calibratedTally.ts';
 import { fitCountRegression, type CountRegression, type CountRegressionFit } from './fitCountRegression.ts';
-import type { Zone } from './zone.ts';
+import type { Zone } from '../domain/zone.ts';
 
 /** Calibration that cannot be done now (no recent frame, view changed, not a room zone): the HTTP layer answers 409. */
 export class CalibrationError extends Error {

@@ -1,6 +1,6 @@
 import sharp, { type OutputInfo } from 'sharp';
-import type { ColourFrame } from './colourFrame.ts';
-import type { GreyFrame } from './frame.ts';
+import type { ColourFrame } from '../domain/colourFrame.ts';
+import type { GreyFrame } from '../domain/frame.ts';
 import { FrameError } from './FrameError.ts';
 import { assertAspect, workingSize } from './workingSize.ts';
 

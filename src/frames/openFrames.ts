@@ -1,6 +1,6 @@
 import { stat } from 'node:fs/promises';
 import { isAbsolute } from 'node:path';
-import type { FrameItem } from './frame.ts';
+import type { FrameItem } from '../domain/frame.ts';
 import { FrameError } from './FrameError.ts';
 import { readImageFolder, type ReadImageFolderOptions } from './readImageFolder.ts';
 import { readVideo, type ReadVideoOptions } from './readVideo.ts';

@@ -1,8 +1,8 @@
 import { readdir, readFile } from 'node:fs/promises';
 import { extname, join } from 'node:path';
 import { decodeImage } from './decodeImage.ts';
-import type { ColourFrameItem } from './colourFrame.ts';
-import type { FrameItem } from './frame.ts';
+import type { ColourFrameItem } from '../domain/colourFrame.ts';
+import type { FrameItem } from '../domain/frame.ts';
 import { FrameError } from './FrameError.ts';
 import { frameSourceOptions, type FrameSourceOptions } from './frameSourceOptions.ts';
 import { naturalSort } from './naturalSort.ts';

@@ -1,6 +1,6 @@
 import { spawn, type ChildProcessByStdio } from 'node:child_process';
 import type { Readable } from 'node:stream';
-import type { FrameItem } from './frame.ts';
+import type { FrameItem } from '../domain/frame.ts';
 import { FrameError } from './FrameError.ts';
 import { frameSourceOptions, type FrameSourceOptions } from './frameSourceOptions.ts';
 import { assertAspect, workingSize, type Size } from './workingSize.ts';

@@ -1,6 +1,6 @@
 import type { EventEmitter } from 'node:events';
 import type { CameraLive, LearnStatus } from '../counting/cameraPipeline.ts';
-import type { Zone } from '../counting/zone.ts';
+import type { Zone } from '../domain/zone.ts';
 import type { ModelVerdict } from '../counting/modelVerdict.ts';
 import type { ZoneCalibrationStatus } from '../counting/zoneCalibration.ts';
 

@@ -1,5 +1,5 @@
 import type Database from 'better-sqlite3';
-import { AnchorPoint, ZoneKind, type Zone } from '../counting/zone.ts';
+import { AnchorPoint, ZoneKind, type Zone } from '../domain/zone.ts';
 import { checkEpochMs, checkId, checkInt, checkNumber, checkOneOf, checkText } from './validate.ts';
 
 /**

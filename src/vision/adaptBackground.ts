@@ -1,4 +1,4 @@
-import type { GreyFrame, Mask } from '../frames/frame.ts';
+import type { GreyFrame, Mask } from '../domain/frame.ts';
 import type { Subspace } from './subspace.ts';
 import { solveSymmetric } from './solveSymmetric.ts';
 

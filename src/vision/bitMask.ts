@@ -1,4 +1,4 @@
-import { outputMask, type Mask } from '../frames/frame.ts';
+import { outputMask, type Mask } from '../domain/frame.ts';
 
 /**
  * A binary mask packed 32 pixels to a 32-bit word, the form the counting path keeps it in between

@@ -1,4 +1,4 @@
-import { outputMask, type GreyFrame, type Mask } from '../frames/frame.ts';
+import { outputMask, type GreyFrame, type Mask } from '../domain/frame.ts';
 
 export interface ClearLightChangesOptions {
   /** Half-size of the square window compared around each pixel, pixels (whole number ≥ 1); default 3 (7×7). */

@@ -1,5 +1,5 @@
-import type { Mask } from '../frames/frame.ts';
-import type { ElementShape } from './erode.ts';
+import type { Mask } from '../domain/frame.ts';
+import type { ElementShape } from './elementShape.ts';
 import { morphologyBits } from './morphologyBits.ts';
 import { morphologyInput } from './morphologyInput.ts';
 

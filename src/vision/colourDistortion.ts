@@ -1,4 +1,4 @@
-import type { ColourFrame } from '../frames/colourFrame.ts';
+import type { ColourFrame } from '../domain/colourFrame.ts';
 import type { ChromaticityModel } from './chromaticityModel.ts';
 
 /** Per-pixel brightness and chromaticity distortion of a colour frame. */

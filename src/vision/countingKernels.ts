@@ -1,5 +1,5 @@
 import { readFileSync } from 'node:fs';
-import type { GreyFrame } from '../frames/frame.ts';
+import type { GreyFrame } from '../domain/frame.ts';
 import { outputBitMask, wordsPerRow, type BitMask } from './bitMask.ts';
 import { chiSquare1Median } from './frameNoiseScale.ts';
 import { kernelsEnabled } from './learningKernels.ts';

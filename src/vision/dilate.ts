@@ -1,7 +1,7 @@
-import type { Mask } from '../frames/frame.ts';
+import type { Mask } from '../domain/frame.ts';
 import { morphologyBits } from './morphologyBits.ts';
 import { morphologyInput } from './morphologyInput.ts';
-import type { ElementShape } from './erode.ts';
+import type { ElementShape } from './elementShape.ts';
 
 export interface DilateOptions {
   /** Half-size of the structuring element in pixels, integer ≥ 0 (inclusive); 1 → 3×3; 0 copies the mask. Default 1. */

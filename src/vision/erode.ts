@@ -1,15 +1,7 @@
-import type { Mask } from '../frames/frame.ts';
+import type { Mask } from '../domain/frame.ts';
 import { morphologyBits } from './morphologyBits.ts';
 import { morphologyInput } from './morphologyInput.ts';
-
-/** Shape of the structuring element, centred on the pixel, of half-size `radius`. */
-export const ElementShape = {
-  /** (2r+1)×(2r+1) square: opencv MORPH_RECT. */
-  Square: 'square',
-  /** Row r and column r of that square, a plus sign: opencv MORPH_CROSS. */
-  Cross: 'cross',
-} as const;
-export type ElementShape = (typeof ElementShape)[keyof typeof ElementShape];
+import type { ElementShape } from './elementShape.ts';
 
 export interface ErodeOptions {
   /** Half-size of the structuring element in pixels, integer ≥ 0 (inclusive); 1 → 3×3; 0 copies the mask. Default 1. */

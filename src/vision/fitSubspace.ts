@@ -2,7 +2,7 @@ import type { Subspace } from './subspace.ts';
 import { dilate } from './dilate.ts';
 import { openMask } from './openMask.ts';
 import { clearLightChanges } from './clearLightChanges.ts';
-import { createMask } from '../frames/frame.ts';
+import { createMask } from '../domain/frame.ts';
 import { type CentredFrames, learningKernels } from './learningKernels.ts';
 import { symmetricEigen } from './symmetricEigen.ts';
 import { randomizedEigen } from './randomizedEigen.ts';

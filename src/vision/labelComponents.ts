@@ -1,4 +1,4 @@
-import type { Mask } from '../frames/frame.ts';
+import type { Mask } from '../domain/frame.ts';
 import { unionSets } from './unionFind.ts';
 
 /** Which neighbours count as touching: the 4 edge neighbours, or those plus the 4 corner ones. */

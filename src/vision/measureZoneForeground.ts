@@ -1,4 +1,4 @@
-import type { Mask } from '../frames/frame.ts';
+import type { Mask } from '../domain/frame.ts';
 import type { PreparedZone } from './prepareZones.ts';
 
 /** A zone's foreground in one frame, measured in sizes of one person where the pixels are. */

@@ -1,6 +1,6 @@
-import { outputMask, type Mask } from '../frames/frame.ts';
+import { outputMask, type Mask } from '../domain/frame.ts';
 import { outputBitMask, packMask, unpackMask, type BitMask } from './bitMask.ts';
-import type { ElementShape } from './erode.ts';
+import type { ElementShape } from './elementShape.ts';
 
 /** One step of a morphological sequence. */
 export const MorphologyStep = {

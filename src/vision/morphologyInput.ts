@@ -1,4 +1,4 @@
-import { outputMask, type Mask } from '../frames/frame.ts';
+import { outputMask, type Mask } from '../domain/frame.ts';
 
 /**
  * Checks the arguments shared by erode, dilate, openMask and closeMask and returns the mask to

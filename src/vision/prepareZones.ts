@@ -1,7 +1,7 @@
-import type { AnchorPoint, Zone, ZoneKind } from '../counting/zone.ts';
+import type { AnchorPoint, Zone, ZoneKind } from '../domain/zone.ts';
 import { fitPersonArea } from './fitPersonArea.ts';
 import { packMask, type BitMask } from './bitMask.ts';
-import { rasterizeZone } from './rasterizeZone.ts';
+import { rasterizeZone } from '../domain/rasterizeZone.ts';
 
 /** A zone turned into pixels and pixel counts at one working size, ready for tallying. */
 export interface PreparedZone {

@@ -1,4 +1,4 @@
-import type { GreyFrame } from '../frames/frame.ts';
+import type { GreyFrame } from '../domain/frame.ts';
 import { chiSquare1Median } from './frameNoiseScale.ts';
 import { quickselect } from './quickselect.ts';
 import { solveSymmetric } from './solveSymmetric.ts';

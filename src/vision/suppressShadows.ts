@@ -1,5 +1,5 @@
-import type { ColourFrame } from '../frames/colourFrame.ts';
-import { outputMask, type Mask } from '../frames/frame.ts';
+import type { ColourFrame } from '../domain/colourFrame.ts';
+import { outputMask, type Mask } from '../domain/frame.ts';
 import type { ChromaticityModel } from './chromaticityModel.ts';
 import { colourDistortion, type ColourDistortion } from './colourDistortion.ts';
 

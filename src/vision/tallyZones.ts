@@ -1,7 +1,7 @@
-import type { Mask } from '../frames/frame.ts';
+import type { Mask } from '../domain/frame.ts';
 import { popcount32, type BitMask } from './bitMask.ts';
 import type { Blob } from './labelComponents.ts';
-import { pointInPolygon } from './pointInPolygon.ts';
+import { pointInPolygon } from '../domain/pointInPolygon.ts';
 import type { PreparedZone } from './prepareZones.ts';
 
 /** What one zone holds in one frame. */

@@ -1,4 +1,4 @@
-import { outputMask, type Mask } from '../frames/frame.ts';
+import { outputMask, type Mask } from '../domain/frame.ts';
 
 export interface ThresholdResidualOptions {
   /**

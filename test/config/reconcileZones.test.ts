@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { describeZoneChange, reconcileZones } from '../../src/config/reconcileZones.ts';
-import type { Zone } from '../../src/counting/zone.ts';
+import type { Zone } from '../../src/domain/zone.ts';
 
 // Hand-made zones; the rule under test is ours (README, "Zones: the file seeds, the dashboard wins").
 const square: Zone['polygon'] = [[0, 0], [0.5, 0], [0.5, 0.5], [0, 0.5]];

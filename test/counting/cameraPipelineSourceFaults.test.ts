@@ -10,7 +10,7 @@ import { join } from 'node:path';
 import { afterEach, beforeAll, describe, expect, it } from 'vitest';
 import type { CameraConfig } from '../../src/config/loadConfig.ts';
 import { createCameraPipeline } from '../../src/counting/cameraPipeline.ts';
-import type { GreyFrame } from '../../src/frames/frame.ts';
+import type { GreyFrame } from '../../src/domain/frame.ts';
 import type { CameraHandlers } from '../../src/frames/live/cameraSource.ts';
 import { mjpegStream } from '../../src/frames/live/mjpegStream.ts';
 import { createScene } from '../../src/frames/synthetic/index.ts';

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { createCounter } from '../../src/counting/createCounter.ts';
 import { createMaskCounter } from '../../src/counting/createMaskCounter.ts';
-import { createMask } from '../../src/frames/frame.ts';
+import { createMask } from '../../src/domain/frame.ts';
 import { createScene } from '../../src/frames/synthetic/index.ts';
 import { packMask } from '../../src/vision/bitMask.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';

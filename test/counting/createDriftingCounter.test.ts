@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { createCounter, type FrameCount } from '../../src/counting/createCounter.ts';
 import { createDriftingCounter } from '../../src/counting/createDriftingCounter.ts';
-import type { Zone } from '../../src/counting/zone.ts';
+import type { Zone } from '../../src/domain/zone.ts';
 import { createReadingRoom } from '../../src/frames/synthetic/readingRoom.ts';
 import type { SyntheticScene } from '../../src/frames/synthetic/scene.ts';
 import { withSlowDrift, type SlowDriftOptions } from '../../src/frames/synthetic/slowDrift.ts';

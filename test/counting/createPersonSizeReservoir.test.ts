@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { createPersonSizeReservoir, type CountedFrame } from '../../src/counting/createPersonSizeReservoir.ts';
-import type { Zone } from '../../src/counting/zone.ts';
+import type { Zone } from '../../src/domain/zone.ts';
 import { random } from '../../src/frames/synthetic/index.ts';
 import type { Blob } from '../../src/vision/labelComponents.ts';
 import { prepareZones } from '../../src/vision/prepareZones.ts';

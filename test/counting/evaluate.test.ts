@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { evaluate } from '../../src/commands/evaluate.ts';
 import { parseCountTruth } from '../../src/commands/countsFile.ts';
-import type { FrameItem } from '../../src/frames/frame.ts';
+import type { FrameItem } from '../../src/domain/frame.ts';
 import { createScene } from '../../src/frames/synthetic/index.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
 import sharp from 'sharp';

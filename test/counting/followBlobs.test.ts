@@ -3,7 +3,7 @@ import { createBlobFollower } from '../../src/counting/followBlobs.ts';
 import type { Blob } from '../../src/vision/labelComponents.ts';
 import { prepareZones } from '../../src/vision/prepareZones.ts';
 import { tallyZones } from '../../src/vision/tallyZones.ts';
-import { createMask } from '../../src/frames/frame.ts';
+import { createMask } from '../../src/domain/frame.ts';
 
 // A 100×100 view, one room zone over all of it, one person = 100 pixels.
 const size = { width: 100, height: 100 };

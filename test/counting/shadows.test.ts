@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import sharp from 'sharp';
 import { describe, expect, it } from 'vitest';
 import { evaluate, type MethodReport } from '../../src/commands/evaluate.ts';
-import type { ColourFrameItem } from '../../src/frames/colourFrame.ts';
+import type { ColourFrameItem } from '../../src/domain/colourFrame.ts';
 import { createShadowRoom } from '../../src/frames/synthetic/shadowRoom.ts';
 import { fitChromaticity } from '../../src/vision/fitChromaticity.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';

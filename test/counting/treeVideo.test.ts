@@ -2,7 +2,7 @@ import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { createCounter } from '../../src/counting/createCounter.ts';
-import type { GreyFrame } from '../../src/frames/frame.ts';
+import type { GreyFrame } from '../../src/domain/frame.ts';
 import { readVideo } from '../../src/frames/readVideo.ts';
 import { distinctFrames } from '../../src/vision/distinctFrames.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';

@@ -1,7 +1,7 @@
 import { mkdir, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { FrameItem } from '../../src/frames/frame.ts';
+import type { FrameItem } from '../../src/domain/frame.ts';
 import { FrameError } from '../../src/frames/FrameError.ts';
 import { readImageFolder } from '../../src/frames/readImageFolder.ts';
 import { collect, encodeGrey, flatPng, greyPixels, makeTempDir, removeTempDir, truncatedJpeg } from './fixtures.ts';

@@ -2,7 +2,7 @@ import { existsSync } from 'node:fs';
 import { writeFile } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { FrameItem } from '../../src/frames/frame.ts';
+import type { FrameItem } from '../../src/domain/frame.ts';
 import { FrameError } from '../../src/frames/FrameError.ts';
 import { FFMPEG_NOT_FOUND, readVideo } from '../../src/frames/readVideo.ts';
 import { childProcesses, collect, encodeGrey, greyPixels, makeTempDir, removeTempDir, runFfmpeg, runFfprobe } from './fixtures.ts';

@@ -6,8 +6,8 @@
  * outside are marked with `check:`.
  */
 import { describe, expect, it } from 'vitest';
-import type { GreyFrame } from '../../src/frames/frame.ts';
-import type { NormalisedPoint, Zone } from '../../src/counting/zone.ts';
+import type { GreyFrame } from '../../src/domain/frame.ts';
+import type { NormalisedPoint, Zone } from '../../src/domain/zone.ts';
 import { validateZones } from '../../src/counting/parseZones.ts';
 import {
   createReadingRoom,

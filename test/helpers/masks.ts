@@ -1,4 +1,4 @@
-import type { Mask } from '../../src/frames/frame.ts';
+import type { Mask } from '../../src/domain/frame.ts';
 
 /** A mask from rows of '#' (set) and '.' (unset). */
 export function maskOf(rows: string[]): Mask {

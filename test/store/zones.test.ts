@@ -1,5 +1,5 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import type { Zone } from '../../src/counting/zone.ts';
+import type { Zone } from '../../src/domain/zone.ts';
 import { tempStore, type TempStore } from './tempStore.ts';
 
 const polygon: Zone['polygon'] = [

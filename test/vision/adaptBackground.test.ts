@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { createMask, type Mask } from '../../src/frames/frame.ts';
+import { createMask, type Mask } from '../../src/domain/frame.ts';
 import { adaptBackground, adaptBackgroundScratch } from '../../src/vision/adaptBackground.ts';
 import { mulberry } from '../helpers/random.ts';
 

@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import { Matrix, solve } from 'ml-matrix';
 import { afterEach, describe, expect, it } from 'vitest';
 import { buildCountingKernelsWasm } from '../../scripts/buildKernels.ts';
-import type { GreyFrame } from '../../src/frames/frame.ts';
+import type { GreyFrame } from '../../src/domain/frame.ts';
 import { packMask, type BitMask } from '../../src/vision/bitMask.ts';
 import { countingKernels } from '../../src/vision/countingKernels.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';

@@ -1,5 +1,5 @@
 import { beforeAll, describe, expect, it } from 'vitest';
-import type { Mask } from '../../src/frames/frame.ts';
+import type { Mask } from '../../src/domain/frame.ts';
 import { packMask, type BitMask } from '../../src/vision/bitMask.ts';
 import { createLabelBitRunsScratch, labelBitRuns, type LabelBitRunsScratch } from '../../src/vision/labelBitRuns.ts';
 import { labelComponents, type Blob } from '../../src/vision/labelComponents.ts';

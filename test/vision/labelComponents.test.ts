@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { beforeAll, describe, expect, it } from 'vitest';
-import type { Mask } from '../../src/frames/frame.ts';
+import type { Mask } from '../../src/domain/frame.ts';
 import { labelComponents, type Components } from '../../src/vision/labelComponents.ts';
 import { loadOpenCv } from '../helpers/opencv.ts';
 import { maskOf } from '../helpers/masks.ts';

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { createMask } from '../../src/frames/frame.ts';
+import { createMask } from '../../src/domain/frame.ts';
 import { measureZoneForeground } from '../../src/vision/measureZoneForeground.ts';
 import { prepareZones } from '../../src/vision/prepareZones.ts';
 

@@ -1,9 +1,10 @@
 import fc from 'fast-check';
 import { beforeAll, describe, expect, it } from 'vitest';
-import type { Mask } from '../../src/frames/frame.ts';
+import type { Mask } from '../../src/domain/frame.ts';
 import { closeMask } from '../../src/vision/closeMask.ts';
 import { dilate } from '../../src/vision/dilate.ts';
-import { erode, type ElementShape } from '../../src/vision/erode.ts';
+import { erode } from '../../src/vision/erode.ts';
+import type { ElementShape } from '../../src/vision/elementShape.ts';
 import { openMask } from '../../src/vision/openMask.ts';
 import { loadOpenCv } from '../helpers/opencv.ts';
 import { maskOf } from '../helpers/masks.ts';

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import type { Mask } from '../../src/frames/frame.ts';
-import type { ElementShape } from '../../src/vision/erode.ts';
+import type { Mask } from '../../src/domain/frame.ts';
+import type { ElementShape } from '../../src/vision/elementShape.ts';
 import { packMask, popcount32, unpackMask } from '../../src/vision/bitMask.ts';
 import { setKernelsEnabled } from '../../src/vision/learningKernels.ts';
 import { morphologyBitMask, morphologyBits, type MorphologyStep } from '../../src/vision/morphologyBits.ts';

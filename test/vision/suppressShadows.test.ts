@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { createMask } from '../../src/frames/frame.ts';
+import { createMask } from '../../src/domain/frame.ts';
 import { suppressShadows } from '../../src/vision/suppressShadows.ts';
 
 // A 4×1 strip whose expected colour is E = (100, 80, 40) with σ = (10, 8, 4) and b = 0.5

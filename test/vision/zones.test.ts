@@ -1,12 +1,12 @@
 import { beforeAll, describe, expect, it } from 'vitest';
-import { createMask } from '../../src/frames/frame.ts';
+import { createMask } from '../../src/domain/frame.ts';
 import { packMask } from '../../src/vision/bitMask.ts';
 import type { Blob } from '../../src/vision/labelComponents.ts';
-import { pointInPolygon } from '../../src/vision/pointInPolygon.ts';
+import { pointInPolygon } from '../../src/domain/pointInPolygon.ts';
 import { prepareZones } from '../../src/vision/prepareZones.ts';
-import { rasterizeZone } from '../../src/vision/rasterizeZone.ts';
+import { rasterizeZone } from '../../src/domain/rasterizeZone.ts';
 import { peopleInBlob, tallyZones } from '../../src/vision/tallyZones.ts';
-import type { NormalisedPoint } from '../../src/counting/zone.ts';
+import type { NormalisedPoint } from '../../src/domain/zone.ts';
 import { loadOpenCv } from '../helpers/opencv.ts';
 import { mulberry } from '../helpers/random.ts';
 

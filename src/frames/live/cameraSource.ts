@@ -21,8 +21,8 @@
  *
  * Frames are never written anywhere: they are handed to `frame` in memory and forgotten.
  */
-import type { ColourFrame } from '../colourFrame.ts';
-import type { GreyFrame } from '../frame.ts';
+import type { ColourFrame } from '../../domain/colourFrame.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
 import type { FrameError } from '../FrameError.ts';
 import type { Size } from '../workingSize.ts';
 

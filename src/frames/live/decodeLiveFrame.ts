@@ -4,8 +4,8 @@
  */
 import sharp from 'sharp';
 import { decodeImage } from '../decodeImage.ts';
-import type { ColourFrame } from '../colourFrame.ts';
-import type { GreyFrame } from '../frame.ts';
+import type { ColourFrame } from '../../domain/colourFrame.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
 import { FrameError } from '../FrameError.ts';
 import type { Size } from '../workingSize.ts';
 import { jpegFrameSize } from './jpegFrameSize.ts';

@@ -12,8 +12,8 @@
  * noise would leave 0..1, the pixel's deviation from neutral grey is scaled down until it fits,
  * which also keeps its luminance.
  */
-import type { GreyFrame } from '../frame.ts';
-import { outputColourFrame, type ColourFrame } from '../colourFrame.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
+import { outputColourFrame, type ColourFrame } from '../../domain/colourFrame.ts';
 
 export interface ColouriseOptions {
   /** Standard normal draws, 2 per pixel (interleaved), for the colour noise; default none (no colour noise). */

@@ -17,7 +17,7 @@
  * Everything repeats with period P frames, so empty frames spread over one period show every
  * lighting state the scene will ever have.
  */
-import type { NormalisedPoint } from '../../counting/zone.ts';
+import type { NormalisedPoint } from '../../domain/zone.ts';
 import { random } from './random.ts';
 import type { SceneLamp } from './scene.ts';
 

@@ -57,14 +57,14 @@
  * (option `halves`) its `far` and `near` halves. They give neither `personArea` nor
  * `minBlobArea`: the counter must find the size of a person itself. Truth per zone: the number
  * of people whose foot point (bottom centre of the drawn bounding box) lies in the zone polygon
- * (even–odd rule of vision/pointInPolygon). The margins keep every counted person entirely
+ * (even–odd rule of domain/pointInPolygon). The margins keep every counted person entirely
  * inside the frame.
  *
  * The walk schedule is generated once from the seed for one hour of scene time and repeats.
  */
-import type { GreyFrame } from '../frame.ts';
-import type { NormalisedPoint, Zone } from '../../counting/zone.ts';
-import { pointInPolygon } from '../../vision/pointInPolygon.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
+import type { NormalisedPoint, Zone } from '../../domain/zone.ts';
+import { pointInPolygon } from '../../domain/pointInPolygon.ts';
 import { plazaBackground } from './plazaBackground.ts';
 import { plazaGeometry } from './plazaGeometry.ts';
 import { castShadow, drawPerson, personBox, SHAPE, shapeUnitArea } from './plazaPerson.ts';

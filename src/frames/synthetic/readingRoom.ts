@@ -24,15 +24,15 @@
  * is the drawn area of the posture usual there (seated at the tables, standing elsewhere).
  *
  * Truth: per zone, the number of people whose foot point (bottom centre of the drawn shape's
- * bounding box) lies in the zone polygon (even–odd rule of vision/pointInPolygon). Zone polygons
+ * bounding box) lies in the zone polygon (even–odd rule of domain/pointInPolygon). Zone polygons
  * keep a margin from the frame edges, so a counted person is entirely inside the frame.
  *
  * The visit schedule is generated once from the seed for one hour of scene time and repeats
  * (the room is empty at each repetition); lighting repeats every `lightingPeriod` frames.
  */
-import type { GreyFrame } from '../frame.ts';
-import type { NormalisedPoint, Zone } from '../../counting/zone.ts';
-import { pointInPolygon } from '../../vision/pointInPolygon.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
+import type { NormalisedPoint, Zone } from '../../domain/zone.ts';
+import { pointInPolygon } from '../../domain/pointInPolygon.ts';
 import { lighting } from './lighting.ts';
 import { random, type Random } from './random.ts';
 import {

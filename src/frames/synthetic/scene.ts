@@ -3,8 +3,8 @@
  * learn the empty-scene model, to check counting accuracy and to run the demo live. They contain
  * no real people: only grey ellipses and boxes drawn from a seeded schedule.
  */
-import type { GreyFrame } from '../frame.ts';
-import type { NormalisedPoint, Zone } from '../../counting/zone.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
+import type { NormalisedPoint, Zone } from '../../domain/zone.ts';
 
 /** The truth of one zone in one frame. */
 export interface ZoneTruth {

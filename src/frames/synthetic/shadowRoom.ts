@@ -22,8 +22,8 @@
  * darkens it by more than 4 levels, 0 elsewhere. Shadow pixels are background for the CDnet
  * metrics, so any detected there is a false positive.
  */
-import type { GreyFrame } from '../frame.ts';
-import { createColourFrame, type ColourFrame } from '../colourFrame.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
+import { createColourFrame, type ColourFrame } from '../../domain/colourFrame.ts';
 import { colourise, LUMA } from './colourise.ts';
 import { random } from './random.ts';
 import { createReadingRoom, type ReadingRoomOptions } from './readingRoom.ts';

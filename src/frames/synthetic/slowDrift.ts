@@ -22,8 +22,8 @@
  * smooth in time: no pixel changes by more than a fraction of a grey level from one frame to the
  * next for runs of thousands of frames, which is what "slow drift" means here.
  */
-import type { GreyFrame } from '../frame.ts';
-import type { NormalisedPoint } from '../../counting/zone.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
+import type { NormalisedPoint } from '../../domain/zone.ts';
 import { random } from './random.ts';
 import { assertFrameIndex, outputFrame, type SyntheticScene } from './scene.ts';
 

@@ -18,13 +18,13 @@
  * A fifth of the boxes are only 12–20 grey levels off the shelf's back panel.
  *
  * Truth per section zone: count = boxes whose centroid lies in the zone polygon; fill = share of
- * the zone's pixels (pixel centres inside the polygon, as vision/rasterizeZone) covered by boxes.
+ * the zone's pixels (pixel centres inside the polygon, as domain/rasterizeZone) covered by boxes.
  * Box edges and zone polygons lie on pixel boundaries, so the fill is exact.
  */
-import type { GreyFrame } from '../frame.ts';
-import type { Zone } from '../../counting/zone.ts';
-import { pointInPolygon } from '../../vision/pointInPolygon.ts';
-import { rasterizeZone } from '../../vision/rasterizeZone.ts';
+import type { GreyFrame } from '../../domain/frame.ts';
+import type { Zone } from '../../domain/zone.ts';
+import { pointInPolygon } from '../../domain/pointInPolygon.ts';
+import { rasterizeZone } from '../../domain/rasterizeZone.ts';
 import { lighting } from './lighting.ts';
 import { random, type Random } from './random.ts';
 import { assertFrameIndex, outputFrame, SceneObjectKind, type SceneObject, type SceneTruth, type SyntheticScene } from './scene.ts';

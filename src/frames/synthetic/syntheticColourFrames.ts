@@ -2,7 +2,7 @@
  * A colour synthetic scene as a colour frame source: the `AsyncIterable<ColourFrameItem>` of the
  * colour mode, as syntheticFrames is for grey.
  */
-import type { ColourFrameItem } from '../colourFrame.ts';
+import type { ColourFrameItem } from '../../domain/colourFrame.ts';
 import { assertFrameIndex } from './scene.ts';
 import type { ShadowRoomScene } from './shadowRoom.ts';
 import type { SyntheticFramesOptions } from './syntheticFrames.ts';

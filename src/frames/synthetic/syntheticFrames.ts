@@ -2,7 +2,7 @@
  * A synthetic scene as a frame source: the same `AsyncIterable<FrameItem>` as the folder and video
  * sources, so the CLI and the counter read a synthetic scene like any camera.
  */
-import type { FrameItem } from '../frame.ts';
+import type { FrameItem } from '../../domain/frame.ts';
 import { assertFrameIndex, type SyntheticScene } from './scene.ts';
 
 export interface SyntheticFramesOptions {

@@ -1,13 +1,13 @@
 import { hostname } from 'node:os';
 import type { CameraLive, ZoneLive } from '../../counting/cameraPipeline.ts';
-import type { Zone, ZoneKind } from '../../counting/zone.ts';
+import type { Zone, ZoneKind } from '../../domain/zone.ts';
 import type { BackoffOptions } from '../../frames/live/backoff.ts';
 import { EventType, type Sample } from '../../store/index.ts';
 import { checkEpochMs, checkId, checkOneOf } from '../../store/validate.ts';
 import { connectMqtt, type MqttConnection } from './connectMqtt.ts';
 import type { MqttQos, MqttSettings } from './mqttSettings.ts';
 import type { AckMessage } from './ackMessage.ts';
-import type { CollectorStore, SampleOutcome } from './collectorStore.ts';
+import type { CollectorStore, SampleOutcome } from '../../store/collectorStore.ts';
 import { parseSampleMessage, type SampleMessage } from './sampleMessage.ts';
 import { ackTopic, collectorCameraId, collectorFilters, parseTopic, SITE_ID_PATTERN, stateTopic, topicSegment } from './topics.ts';
 import { ZoneStateName, type ZoneStateMessage } from './zoneState.ts';

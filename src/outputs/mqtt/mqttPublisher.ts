@@ -1,7 +1,7 @@
 import { randomBytes } from 'node:crypto';
 import type { CameraLive } from '../../counting/cameraPipeline.ts';
 import type { BackoffOptions } from '../../frames/live/backoff.ts';
-import { EventType, type Sample, type Store } from '../../store/index.ts';
+import { EventType, type EventInput, type Sample, type Store } from '../../store/index.ts';
 import { checkEpochMs, checkId, checkOneOf } from '../../store/validate.ts';
 import { boundedQueue } from './boundedQueue.ts';
 import { connectMqtt, type MqttConnection } from './connectMqtt.ts';
@@ -18,7 +18,7 @@ import { zoneState, ZoneStateName, type ZoneStateMessage } from './zoneState.ts'
  * (topics: see topics.ts).
  *
  * The database comes first: samples and events are published only after the store has committed
- * them (see publishingStore.ts), so nothing is lost from the database when the broker is away.
+ * them (see src/store/reportingStore.ts), so nothing is lost from the database when the broker is away.
  *
  * With a store that numbers its samples (a full Residuum store, src/store/sequence.ts), the
  * database itself is the queue (sampleOutbox.ts): samples are read from it in sequence order and
@@ -64,16 +64,6 @@ export interface MqttPublisherOptions {
   readonly eventQueueLimit?: number;
 }
 
-/** An event as stored (src/store/events.ts), to be published. */
-export interface PublishedEvent {
-  readonly camera: string;
-  readonly type: EventType;
-  readonly zone?: string | null;
-  /** Epoch ms; default the publisher's clock. */
-  readonly time?: number;
-  readonly detail?: unknown;
-}
-
 /** The JSON body of an event message on `<prefix>/<site>/<camera>/events`. */
 export interface EventMessage {
   readonly site: string;
@@ -114,7 +104,7 @@ export interface MqttPublisher {
   /** Call on every pipeline 'live' event: updates (rate-limited) the retained state of each zone. */
   publishLive(live: CameraLive): void;
   /** Call after the store committed an event. */
-  publishEvent(event: PublishedEvent): void;
+  publishEvent(event: EventInput): void;
   /** Call after the store committed a sample. */
   publishSample(sample: Sample): void;
   stats(): MqttPublisherStats;

@@ -1,5 +1,5 @@
 import { SAMPLE_KIND_OF_ZONE, validateSample, type Sample, type SampleKind } from '../../store/index.ts';
-import type { ZoneKind } from '../../counting/zone.ts';
+import type { ZoneKind } from '../../domain/zone.ts';
 import { MAX_EPOCH_MS } from '../../store/validate.ts';
 import { SITE_ID_PATTERN } from './topics.ts';
 

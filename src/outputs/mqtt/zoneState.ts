@@ -1,5 +1,5 @@
 import type { CameraLive, ZoneLive } from '../../counting/cameraPipeline.ts';
-import type { ZoneKind } from '../../counting/zone.ts';
+import type { ZoneKind } from '../../domain/zone.ts';
 
 /**
  * The state of one zone as published (retained) on `<prefix>/<site>/<camera>/<zone>/state`.

@@ -1,5 +1,5 @@
-import type { CollectorStore, SampleOutcome } from '../../outputs/mqtt/collectorStore.ts';
-import { sameSample } from '../../outputs/mqtt/collectorStore.ts';
+import type { CollectorStore, SampleOutcome } from '../collectorStore.ts';
+import { sameSample } from '../collectorStore.ts';
 import type { CameraRecord } from '../cameras.ts';
 import { EventType, type StoredEvent } from '../events.ts';
 import { BUCKET_MS, MAX_INTERVAL_MS, VALUE_SCALE, type Rollup } from '../rollups.ts';
@@ -8,7 +8,7 @@ import { validateSample, type Sample, type StoredSample } from '../samples.ts';
 import { SettingKey } from '../settings.ts';
 import { checkEpochMs, checkId, checkInt, checkNumber, checkOneOf, checkText, checkTimeZone, toJson } from '../validate.ts';
 import { normaliseZone, type ZoneHistoryEntry, type ZoneRecord } from '../zones.ts';
-import type { Zone } from '../../counting/zone.ts';
+import type { Zone } from '../../domain/zone.ts';
 import { syncPg, type SyncPg } from './syncPg.ts';
 import { postgresMigrations, PARTITION_MS, partitionName } from './postgresSchema.ts';
 

@@ -8,7 +8,7 @@
 import { describe, expect, it } from 'vitest';
 import { validateZones } from '../../../src/counting/parseZones.ts';
 import { frameInput } from '../../../src/commands/frameInput.ts';
-import type { GreyFrame } from '../../../src/frames/frame.ts';
+import type { GreyFrame } from '../../../src/domain/frame.ts';
 import { createPlaza, type PlazaScene } from '../../../src/frames/synthetic/plaza.ts';
 import { createScene, sceneIds, type SceneObject } from '../../../src/frames/synthetic/index.ts';
 

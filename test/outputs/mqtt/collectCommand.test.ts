@@ -9,7 +9,7 @@ import { openStore } from '../../../src/store/index.ts';
 import { waitUntil } from '../../service/waitUntil.ts';
 import { startBroker, type TestBroker } from './broker.ts';
 import { dayCsv, FAST, inventedBatches, sourceStore, TIME_ZONE, ZONES } from './fixtures.ts';
-import { publishingStore } from '../../../src/outputs/mqtt/publishingStore.ts';
+import { reportingStore } from '../../../src/store/reportingStore.ts';
 import { pgAvailable, testDatabase } from '../../store/postgres/pgTestDatabase.ts';
 
 let broker: TestBroker | undefined;
@@ -100,7 +100,7 @@ describe('residuum collect', () => {
       expect(lines.join('\n')).toContain(`into postgres://postgres@127.0.0.1:5432/${db.name}`);
       const publisher = createMqttPublisher(validateMqttSettings({ url: broker.url, stateIntervalSeconds: 0 }), { site: 'riverside', backoff: FAST, store: source.store });
       await waitUntil(() => publisher.stats().connected, { what: 'the publisher to connect', timeoutMs: 30_000, intervalMs: 20 });
-      const writer = publishingStore(source.store, publisher);
+      const writer = reportingStore(source.store, publisher);
       const batches = inventedBatches(11);
       for (const b of batches) writer.insertSamples(b);
       const n = batches.length * ZONES.length;

@@ -1,7 +1,7 @@
 import { hourlyRows, writeHourlyCsv } from '../../../src/outputs/hourlyCsv.ts';
 import { createMqttPublisher, type MqttPublisher, type MqttPublisherOptions } from '../../../src/outputs/mqtt/mqttPublisher.ts';
 import { startCollector, type Collector, type CollectorOptions } from '../../../src/outputs/mqtt/mqttCollector.ts';
-import { sqliteCollectorStore } from '../../../src/outputs/mqtt/collectorStore.ts';
+import { sqliteCollectorStore } from '../../../src/store/collectorStore.ts';
 import { validateMqttSettings } from '../../../src/outputs/mqtt/mqttSettings.ts';
 import type { Sample, Store } from '../../../src/store/index.ts';
 import { mulberry } from '../../helpers/random.ts';

@@ -4,11 +4,11 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
-import { sqliteCollectorStore } from '../../../src/outputs/mqtt/collectorStore.ts';
+import { sqliteCollectorStore } from '../../../src/store/collectorStore.ts';
 import { startCollector, type Collector } from '../../../src/outputs/mqtt/mqttCollector.ts';
 import { createMqttPublisher, type MqttPublisher } from '../../../src/outputs/mqtt/mqttPublisher.ts';
 import { validateMqttSettings } from '../../../src/outputs/mqtt/mqttSettings.ts';
-import { publishingStore } from '../../../src/outputs/mqtt/publishingStore.ts';
+import { reportingStore } from '../../../src/store/reportingStore.ts';
 import { openStore, type Sample, type Store } from '../../../src/store/index.ts';
 import { waitUntil } from '../../service/waitUntil.ts';
 import { tempStore, type TempStore } from '../../store/tempStore.ts';
@@ -136,7 +136,7 @@ describe.skipIf(!brokerUp)('collection through the real Mosquitto loses nothing'
     const seconds = OUTAGE_MS / 1000 + 12;
     const batches = plannedBatches(150 * seconds);
     const n = batches.flat().length;
-    const writing = write(publishingStore(source.store, publisher), batches, 150);
+    const writing = write(reportingStore(source.store, publisher), batches, 150);
     await new Promise((done) => setTimeout(done, 4000));
     await collector.kill('SIGKILL');
     await new Promise((done) => setTimeout(done, OUTAGE_MS));
@@ -170,7 +170,7 @@ describe.skipIf(!brokerUp)('collection through the real Mosquitto loses nothing'
     const publisher = sitePublisher(SHARED_BROKER.url, prefix, source);
     await waitUntil(() => publisher.stats().connected, { what: 'the site to connect', timeoutMs: 20_000, intervalMs: 20 });
     const batches = plannedBatches(20_000);
-    await write(publishingStore(source.store, publisher), batches, Infinity);
+    await write(reportingStore(source.store, publisher), batches, Infinity);
     await waitUntil(confirmedAll(publisher), { what: 'the collector to confirm 20 000 samples', timeoutMs: 240_000, intervalMs: 100 });
     await collector.stop();
     expectExactlyOnce(source.store, target.store, 20_000);
@@ -195,7 +195,7 @@ describe.skipIf(!mosquittoInstalled)('collection through a restarted Mosquitto l
 
     const batches = plannedBatches(150 * 20);
     const n = batches.flat().length;
-    const writing = write(publishingStore(source.store, publisher), batches, 150);
+    const writing = write(reportingStore(source.store, publisher), batches, 150);
     const pause = (ms: number) => new Promise((done) => setTimeout(done, ms));
     await pause(3000);
     await broker.stop(); // SIGTERM: Mosquitto saves sessions, queues and retained messages
@@ -245,7 +245,7 @@ describe.skipIf(!mosquittoInstalled)('collection through bridged Mosquitto broke
     await waitUntil(() => publisher.stats().connected, { what: 'the site to connect', timeoutMs: 20_000, intervalMs: 20 });
     const batches = plannedBatches(150 * 15);
     const n = batches.flat().length;
-    const writing = write(publishingStore(source.store, publisher), batches, 150);
+    const writing = write(reportingStore(source.store, publisher), batches, 150);
     await new Promise((done) => setTimeout(done, 4000));
     await central.kill(); // the uplink's far end goes away without saving anything
     await new Promise((done) => setTimeout(done, 3000));

@@ -1,5 +1,5 @@
 import { afterEach, describe, expect, it } from 'vitest';
-import { publishingStore } from '../../../src/outputs/mqtt/publishingStore.ts';
+import { reportingStore } from '../../../src/store/reportingStore.ts';
 import type { Sample } from '../../../src/store/index.ts';
 import { mulberry } from '../../helpers/random.ts';
 import { waitUntil } from '../../service/waitUntil.ts';
@@ -8,7 +8,7 @@ import { connect } from 'mqtt';
 import { observe, startBroker } from './broker.ts';
 import { createMqttPublisher } from '../../../src/outputs/mqtt/mqttPublisher.ts';
 import { startCollector } from '../../../src/outputs/mqtt/mqttCollector.ts';
-import { sqliteCollectorStore } from '../../../src/outputs/mqtt/collectorStore.ts';
+import { sqliteCollectorStore } from '../../../src/store/collectorStore.ts';
 import { validateMqttSettings } from '../../../src/outputs/mqtt/mqttSettings.ts';
 import { tempStore } from '../../store/tempStore.ts';
 import { dayCsv, FAST, inventedBatches, samplesOf, SITE, sourceStore, startRig, TIME_ZONE, ZONES, type Rig } from './fixtures.ts';
@@ -69,7 +69,7 @@ describe('publisher → broker → collector', () => {
     source = sourceStore();
     rig = await startRig({ publisher: { store: source.store } });
     const { publisher, collector, target } = rig;
-    const store = publishingStore(source.store, publisher);
+    const store = reportingStore(source.store, publisher);
     const batches = inventedBatches();
     for (const batch of batches) store.insertSamples(batch);
     const n = batches.length * ZONES.length;
@@ -111,7 +111,7 @@ describe('publisher → broker → collector', () => {
     const { broker, publisher, collector } = rig;
     broker.down();
     await waitUntil(() => !publisher.stats().connected && !collector.connected, { what: 'both clients to notice', ...wait });
-    const store = publishingStore(source.store, publisher);
+    const store = reportingStore(source.store, publisher);
     const batches = inventedBatches(3);
     for (const batch of batches) store.insertSamples(batch);
     const n = batches.length * ZONES.length;
@@ -136,7 +136,7 @@ describe('publisher → broker → collector', () => {
     const { broker, publisher, collector, target } = rig;
     broker.down();
     await waitUntil(() => !publisher.stats().connected, { what: 'the publisher to notice', ...wait });
-    const store = publishingStore(source.store, publisher);
+    const store = reportingStore(source.store, publisher);
     const samples = inventedBatches(4).flat();
     store.insertSamples(samples);
     expect(publisher.stats()).toMatchObject({ queuedSamples: 20, samplesDropped: samples.length - 20, backfillPending: 0 });
@@ -220,7 +220,7 @@ describe('publisher → broker → collector', () => {
     let collector: ReturnType<typeof startCollector> | undefined;
     try {
       await waitUntil(() => publisher.stats().connected, { what: 'the publisher to connect', ...wait });
-      const writer = publishingStore(source.store, publisher);
+      const writer = reportingStore(source.store, publisher);
       const batches = inventedBatches(12);
       const half = Math.floor(batches.length / 2);
       // Published while no collector listens: nobody gets them.
@@ -266,7 +266,7 @@ describe('publisher → broker → collector', () => {
     const publisher = createMqttPublisher(validateMqttSettings({ url: broker.url, stateIntervalSeconds: 0 }), { site: SITE, store: source.store, backoff: FAST, replay: { graceMs: 200, afterMs: 500, maxMs: 1000 } });
     try {
       await waitUntil(() => collector.stats().subscribed && publisher.stats().connected, { what: 'both to connect', ...wait });
-      const writer = publishingStore(source.store, publisher);
+      const writer = reportingStore(source.store, publisher);
       const batches = inventedBatches(13).slice(0, 60);
       batches[20] = batches[20].map((x) => (x.zone === 'tables' ? { ...x, value: 7.77 } : x));
       for (const b of batches.slice(0, 30)) writer.insertSamples(b);

@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
 import { exportCommand } from '../../../src/commands/export.ts';
 import { hourlyRows, writeHourlyCsv } from '../../../src/outputs/hourlyCsv.ts';
-import { sqliteCollectorStore, type CollectorStore } from '../../../src/outputs/mqtt/collectorStore.ts';
+import { sqliteCollectorStore, type CollectorStore } from '../../../src/store/collectorStore.ts';
 import { openPostgresStore, type PostgresStore } from '../../../src/store/postgres/openPostgresStore.ts';
 import type { Sample } from '../../../src/store/index.ts';
 import { HALF, tempStore, type TempStore } from '../tempStore.ts';

@@ -1,5 +1,5 @@
-import { outputMask, type Mask } from '../frames/frame.ts';
-import type { NormalisedPoint } from '../counting/zone.ts';
+import { outputMask, type Mask } from './frame.ts';
+import type { NormalisedPoint } from './zone.ts';
 
 export interface RasterizeZoneOptions {
   /** Mask to write into instead of allocating. */

@@ -1,8 +1,8 @@
 import { afterEach, describe, expect, it } from 'vitest';
-import type { PublishedEvent } from '../../../src/outputs/mqtt/mqttPublisher.ts';
-import { publishingStore } from '../../../src/outputs/mqtt/publishingStore.ts';
-import type { Sample } from '../../../src/store/index.ts';
-import { addCameraWithZones, tempStore, type TempStore } from '../../store/tempStore.ts';
+import type { EventInput } from '../../src/domain/event.ts';
+import { reportingStore } from '../../src/store/reportingStore.ts';
+import type { Sample } from '../../src/store/index.ts';
+import { addCameraWithZones, tempStore, type TempStore } from './tempStore.ts';
 
 let t: TempStore | undefined;
 afterEach(() => {
@@ -13,19 +13,19 @@ afterEach(() => {
 /** Records what reaches the publisher (the real publisher is exercised in roundTrip.test.ts). */
 function recorder() {
   const samples: Sample[] = [];
-  const events: PublishedEvent[] = [];
-  return { samples, events, publishSample: (s: Sample) => void samples.push(s), publishEvent: (e: PublishedEvent) => void events.push(e) };
+  const events: EventInput[] = [];
+  return { samples, events, publishSample: (s: Sample) => void samples.push(s), publishEvent: (e: EventInput) => void events.push(e) };
 }
 
 const T = Date.UTC(2026, 2, 2, 9, 0);
 const room = (time: number, value: number): Sample => ({ time, camera: 'cam', zone: 'room', kind: 'count', value, intervalMs: 10_000 });
 
-describe('publishingStore', () => {
+describe('reportingStore', () => {
   it('publishes what the store committed, after committing it', () => {
     t = tempStore();
     addCameraWithZones(t.store);
     const r = recorder();
-    const store = publishingStore(t.store, {
+    const store = reportingStore(t.store, {
       publishSample: (s) => {
         // The database comes first: the sample is already stored when the publisher sees it.
         expect(t!.store.listSamples({ camera: s.camera, zone: s.zone, from: s.time, to: s.time + 1 })).toHaveLength(1);
@@ -44,7 +44,7 @@ describe('publishingStore', () => {
     t = tempStore();
     addCameraWithZones(t.store);
     const r = recorder();
-    const store = publishingStore(t.store, r);
+    const store = reportingStore(t.store, r);
     store.insertSample(room(T, 1));
     // The second sample of the batch overlaps the first: the whole batch is refused.
     expect(() => store.insertSamples([room(T + 10_000, 2), room(T + 5_000, 9)])).toThrow(/overlaps/);
@@ -60,7 +60,7 @@ describe('publishingStore', () => {
     t = tempStore();
     addCameraWithZones(t.store);
     const lines: string[] = [];
-    const store = publishingStore(
+    const store = reportingStore(
       t.store,
       {
         publishSample: () => {

@@ -1,4 +1,4 @@
-import { MAX_INTERVAL_MS, type Sample, type Store, type StoredSample } from '../../store/index.ts';
+import { MAX_INTERVAL_MS, type Sample, type Store, type StoredSample } from './index.ts';
 
 /**
  * What `residuum collect` writes to and reads from: the embedded SQLite store (this file's

@@ -1,5 +1,15 @@
-import type { Store } from '../../store/index.ts';
-import type { MqttPublisher } from './mqttPublisher.ts';
+import type { EventInput } from '../domain/event.ts';
+import type { Sample } from '../domain/sample.ts';
+import type { Store } from './openStore.ts';
+
+/**
+ * Who hears of what the store committed: an output such as MQTT publishing, or the camera
+ * worker's relay to the main thread. The store does not know which.
+ */
+export interface CommitListener {
+  publishSample(sample: Sample): void;
+  publishEvent(event: EventInput): void;
+}
 
 /**
  * The store as the camera pipeline should see it when MQTT is configured: every method is the
@@ -9,10 +19,10 @@ import type { MqttPublisher } from './mqttPublisher.ts';
  * is logged and does not fail the write, which has already been committed.
  *
  * ```ts
- * const pipeline = createCameraPipeline({ camera, store: publishingStore(store, publisher), … });
+ * const pipeline = createCameraPipeline({ camera, store: reportingStore(store, publisher), … });
  * ```
  */
-export function publishingStore(store: Store, publisher: Pick<MqttPublisher, 'publishSample' | 'publishEvent'>, log: (line: string) => void = () => {}): Store {
+export function reportingStore(store: Store, publisher: CommitListener, log: (line: string) => void = () => {}): Store {
   const quietly = (what: string, publish: () => void) => {
     try {
       publish();

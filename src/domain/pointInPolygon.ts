@@ -1,4 +1,4 @@
-import type { NormalisedPoint } from '../counting/zone.ts';
+import type { NormalisedPoint } from './zone.ts';
 
 /**
  * Whether the point (x, y) lies inside a simple polygon, by the even–odd crossing rule
