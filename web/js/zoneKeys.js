@@ -1,14 +1,20 @@
-// Keyboard editing of zones (WCAG 2.1.1 Keyboard and 2.5.7 Dragging Movements): in "Draw zone"
-// the arrow keys move a cross and Space places a corner; in "Select and move" Z and C choose a zone
-// and a corner, the arrow keys move them; and every corner can be typed as numbers.
-import { $, $$, h, replace } from './dom.js';
+// Editing zones with the keyboard on the Zones view's picture (WCAG 2.1.1 Keyboard and 2.5.7
+// Dragging Movements): in "Draw zone" the arrow keys move a cross and Space places a corner; in
+// "Select and move" Z and C choose a zone and a corner, the arrow keys move them; in "Reference
+// people" N adds a box, B chooses one, the arrow keys move it. What the keys did is said in a
+// polite live region. The pointer's way is zonePointer.js; the corners typed as numbers are in
+// the zone form (zoneForm.js).
+import { $ } from './dom.js';
 import { percent } from './format.js';
-import { clamp01, round, topLeft } from './zoneGeometry.js';
+import { DEFAULT_PERSON_AREA, MIN_BOX, expectedRect, refAspect, refFromRect, refRect, refsOf, refZone } from './referencePeople.js';
+import { clamp01, middleAtRow, round, topLeft } from './zoneGeometry.js';
 
 /**
- * `ed` is the zone editor's state and actions (zones.js): `draft`, `selected`, `corner` (chosen
- * corner or -1), `keyCursor`, `cursor`, `drawing`, `personBox`, and `changed()`, `draw()`,
- * `deleteSelected()`, `finishDrawing()`, `choose(i)`.
+ * `ed` is the zone editor (zones.js): its state (`camera`, `tool`, `draft`, `selected`, `corner`
+ * (chosen corner or -1), `keyCursor`, `cursor`, `drawing`, `personBox`, `refSelected`, `frame`)
+ * and the actions `changed()`, `draw()`, `deleteSelected()`, `finishDrawing()`, `choose(i)`,
+ * `renderCorners()`, `renderRefs()`, `setRefs()`, `removeRef()`, `moveRef()`. Listens to the
+ * canvas' keys and focus; returns `announce` and `where`.
  */
 export function createZoneKeys(ed) {
   /** Says what the keyboard just did, for screen readers (a polite live region). */
@@ -60,7 +66,7 @@ export function createZoneKeys(ed) {
       const n = z.polygon.length;
       ed.corner = ed.corner < 0 ? (event.shiftKey ? n - 1 : 0) : (ed.corner + (event.shiftKey ? n - 1 : 1)) % n;
       announce(cornerText(z, ed.corner));
-      renderCorners();
+      ed.renderCorners();
     } else if (event.key in arrows) {
       const [dx, dy] = arrows[event.key];
       if (ed.corner >= 0) {
@@ -95,7 +101,7 @@ export function createZoneKeys(ed) {
       ed.corner = -1;
       ed.drawing = [];
       ed.personBox = undefined;
-      renderCorners();
+      ed.renderCorners();
       announce(`Whole zone ${z.name || z.id} chosen: arrow keys move it`);
     } else return false;
     return true;
@@ -110,93 +116,93 @@ export function createZoneKeys(ed) {
     return poly.map((q) => round([q[0] + mx, q[1] + my]));
   }
 
-  // ---- corners typed as numbers -----------------------------------------------------------
-
-  /** The selected zone's corners as number fields, % of the picture from the left and top. */
-  function renderCorners() {
-    const z = ed.draft[ed.selected];
-    const list = $('#corner-list');
-    if (!z) {
-      replace(list);
-      return;
-    }
-    const many = z.polygon.length > 3;
-    replace(
-      list,
-      z.polygon.map((p, k) =>
-        h(
-          'li',
-          { dataset: { corner: k, chosen: String(k === ed.corner) } },
-          h('span', { class: 'corner-n', id: `corner-${k}-name` }, `Corner ${k + 1}`),
-          h('label', {}, 'left', cornerInput(k, 0, p[0])),
-          h('label', {}, 'top', cornerInput(k, 1, p[1])),
-          h('button', { type: 'button', class: 'quiet', disabled: !many, 'aria-label': `Remove corner ${k + 1}`, onclick: () => removeCorner(k) }, 'Remove'),
-        ),
-      ),
-    );
-  }
-
-  function cornerInput(k, axis, value) {
-    return h('input', {
-      type: 'number',
-      min: '0',
-      max: '100',
-      step: '0.1',
-      inputmode: 'decimal',
-      value: String(Math.round(value * 1000) / 10),
-      'aria-label': `Corner ${k + 1}, % from the ${axis === 0 ? 'left' : 'top'}`,
-      dataset: { corner: k, axis },
-      oninput: (event) => {
-        const z = ed.draft[ed.selected];
-        const v = Number(event.target.value);
-        if (!z || !z.polygon[k] || event.target.value.trim() === '' || !(v >= 0 && v <= 100)) return;
-        z.polygon[k][axis] = Math.round(v * 100) / 10000;
-        ed.corner = k;
+  /**
+   * Reference people: N adds a box in the zone's middle row (one person's size there), B chooses
+   * the next box (Shift+B the one before), arrows move it, + and − resize it about its foot point,
+   * Delete removes it, Esc lets go of it.
+   */
+  function refKey(event) {
+    const z = refZone(ed);
+    const refs = refsOf(z);
+    const key = event.key.length === 1 ? event.key.toLowerCase() : event.key;
+    const step = event.shiftKey ? 0.02 : 0.005;
+    const arrows = { ArrowLeft: [-step, 0], ArrowRight: [step, 0], ArrowUp: [0, -step], ArrowDown: [0, step] };
+    const say = (i) => {
+      const r = refsOf(z)[i];
+      announce(`Reference person ${i + 1} of ${refsOf(z).length}: feet ${percent(r.y, 1)} down, ${(r.area * 100).toFixed(2)} % of the picture`);
+    };
+    if (key === 'n' || event.key === 'Insert') {
+      const ys = z.polygon.map((p) => p[1]);
+      const y = (Math.min(...ys) + Math.max(...ys)) / 2;
+      const area = expectedRect(z, [0.5, y], ed.frame)?.area ?? z.personArea ?? DEFAULT_PERSON_AREA;
+      const height = Math.min(y, Math.sqrt(area * refAspect(z, ed.frame)));
+      const width = Math.min(1, area / height);
+      const x = Math.min(1 - width / 2, Math.max(width / 2, middleAtRow(z.polygon, y)));
+      ed.setRefs(z, [...refs, refFromRect({ x0: x - width / 2, y0: y - height, x1: x + width / 2, y1: y })]);
+      ed.refSelected = refsOf(z).length - 1;
+      ed.renderRefs();
+      say(ed.refSelected);
+    } else if (key === 'b') {
+      if (refs.length === 0) return true;
+      ed.refSelected = ed.refSelected < 0 ? 0 : (ed.refSelected + (event.shiftKey ? refs.length - 1 : 1)) % refs.length;
+      ed.renderRefs();
+      say(ed.refSelected);
+    } else if (ed.refSelected < 0 || ed.refSelected >= refs.length) {
+      if (!(event.key in arrows) && !['+', '=', '-', 'Delete', 'Backspace'].includes(event.key)) return false;
+      announce('No reference person chosen: press N to add one, B to choose one.');
+    } else if (event.key === 'Delete' || event.key === 'Backspace') {
+      ed.removeRef(ed.refSelected);
+      announce('Reference person removed');
+    } else if (event.key in arrows) {
+      ed.moveRef(ed.refSelected, ...arrows[event.key]);
+      ed.changed();
+      ed.renderRefs();
+      say(ed.refSelected);
+    } else if (event.key === '+' || event.key === '=' || event.key === '-') {
+      const r = refRect(z, refs[ed.refSelected], ed.frame);
+      const f = event.key === '-' ? 1 / 1.1 : 1.1;
+      const cx = (r.x0 + r.x1) / 2;
+      const w = Math.max(MIN_BOX, (r.x1 - r.x0) * f);
+      const hh = Math.max(MIN_BOX, (r.y1 - r.y0) * f);
+      if (r.y1 - hh >= 0 && cx - w / 2 >= 0 && cx + w / 2 <= 1) {
+        z.perspective[ed.refSelected] = refFromRect({ x0: cx - w / 2, y0: r.y1 - hh, x1: cx + w / 2, y1: r.y1 });
         ed.changed();
-        ed.draw();
-      },
-    });
+        ed.renderRefs();
+      }
+      say(ed.refSelected);
+    } else if (event.key === 'Escape') {
+      ed.refSelected = -1;
+      ed.renderRefs();
+    } else return false;
+    return true;
   }
 
-  /** Updates the corner fields after the picture moved a corner, without disturbing the one being typed in. */
-  function syncCorners() {
-    const z = ed.draft[ed.selected];
-    const inputs = $$('#corner-list input');
-    if (!z || inputs.length !== z.polygon.length * 2) {
-      renderCorners();
+  // Each tool's keys; a key the tool does not use keeps its ordinary meaning (Tab, the browser's shortcuts).
+  ed.canvas.addEventListener('keydown', (event) => {
+    if (!ed.camera || event.altKey || event.ctrlKey || event.metaKey) return;
+    if (ed.tool === 'refs' && refZone(ed)) {
+      if (!refKey(event)) return;
+      event.preventDefault();
+      ed.draw();
       return;
     }
-    for (const input of inputs) {
-      if (input === document.activeElement) continue;
-      input.value = String(Math.round(z.polygon[Number(input.dataset.corner)][Number(input.dataset.axis)] * 1000) / 10);
-    }
-    for (const li of $$('#corner-list li')) li.dataset.chosen = String(Number(li.dataset.corner) === ed.corner);
-  }
-
-  function removeCorner(k) {
-    const z = ed.draft[ed.selected];
-    if (!z || z.polygon.length <= 3) return;
-    z.polygon.splice(k, 1);
-    ed.corner = -1;
-    ed.changed();
-    renderCorners();
+    if (ed.tool === 'draw') {
+      if (!drawKey(event)) return;
+    } else if (ed.tool === 'select') {
+      if (!selectKey(event)) return;
+    } else if (event.key === 'Escape') {
+      ed.personBox = undefined;
+    } else return;
+    event.preventDefault();
     ed.draw();
-    $(`#corner-list li[data-corner="${Math.min(k, z.polygon.length - 1)}"] input`)?.focus();
-  }
-
-  $('#corner-add').addEventListener('click', () => {
-    const z = ed.draft[ed.selected];
-    if (!z) return;
-    const k = ed.corner < 0 ? z.polygon.length - 1 : ed.corner;
-    const a = z.polygon[k];
-    const b = z.polygon[(k + 1) % z.polygon.length];
-    z.polygon.splice(k + 1, 0, round([(a[0] + b[0]) / 2, (a[1] + b[1]) / 2]));
-    ed.corner = k + 1;
-    ed.changed();
-    renderCorners();
-    ed.draw();
-    $(`#corner-list li[data-corner="${k + 1}"] input`)?.focus();
   });
 
-  return { drawKey, selectKey, renderCorners, syncCorners, announce, where };
+  // The cross shows while the picture has the focus.
+  ed.canvas.addEventListener('focus', () => {
+    ed.draw();
+    if (ed.tool === 'draw') announce(`Drawing: the cross is at ${where(ed.keyCursor)}. Arrow keys move it, Space places a corner, Enter closes the zone.`);
+  });
+  ed.canvas.addEventListener('blur', () => ed.draw());
+
+  return { announce, where };
 }
