@@ -1,4 +1,4 @@
-import type { LearningActivity } from '../vision/fitSubspace.ts';
+import type { LearningActivity } from '../vision/fitSubspace/imputeOutliers.ts';
 import type { Subspace } from '../vision/subspace.ts';
 
 /** A plain judgement of a learned model, for people deciding whether to trust its counts. */

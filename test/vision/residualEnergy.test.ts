@@ -1,7 +1,9 @@
 import { describe, expect, it } from 'vitest';
 import { Matrix, solve } from 'ml-matrix';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
-import { residualEnergy, sampleCoefficientPixels, settled } from '../../src/vision/residualEnergy.ts';
+import { residualEnergy } from '../../src/vision/residualEnergy.ts';
+import { sampleCoefficientPixels } from '../../src/vision/residualEnergy/coefficientSample.ts';
+import { settled } from '../../src/vision/residualEnergy/robustProject.ts';
 import { mulberry } from '../helpers/random.ts';
 
 describe('residualEnergy', () => {
