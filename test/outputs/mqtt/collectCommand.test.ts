@@ -1,4 +1,4 @@
-import { chmodSync, existsSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { chmodSync, existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
@@ -44,7 +44,7 @@ describe('residuum collect', () => {
     let notice = '';
     let stop!: () => void;
     const until = new Promise<void>((done) => (stop = done));
-    const exit = collectCommand(['--config', config, '--data', join(dir, 'data')], { until, log: (l) => lines.push(l), out: { write: (t: string) => (notice += t) } });
+    const exit = collectCommand(['--config', config, '--data', join(dir, 'data')], { until, log: (l) => lines.push(l), out: { write: (t: string) => (notice += t), isTTY: true } });
     const url = await waitUntil(() => lines.map((l) => /dashboard at (http:\/\/\S+)/.exec(l)?.[1]).find(Boolean), { what: 'the dashboard line', timeoutMs: 30_000, intervalMs: 20 });
     await waitUntil(() => lines.some((l) => l.startsWith('mqtt: connected')), { what: 'the collector to connect', timeoutMs: 30_000, intervalMs: 20 });
     expect(notice).toMatch(/Admin key \(shown only now/);
@@ -95,9 +95,14 @@ describe('residuum collect', () => {
       const lines: string[] = [];
       let stop!: () => void;
       const until = new Promise<void>((done) => (stop = done));
-      const exit = collectCommand(['--config', config], { until, log: (l) => lines.push(l), out: { write: () => true } });
+      const exit = collectCommand(['--config', config, '--data', join(dir, 'keys')], { until, log: (l) => lines.push(l), out: { write: () => true } });
       const url = await waitUntil(() => lines.map((l) => /dashboard at (http:\/\/\S+)/.exec(l)?.[1]).find(Boolean), { what: 'the dashboard line', timeoutMs: 30_000, intervalMs: 20 });
       expect(lines.join('\n')).toContain(`into postgres://postgres@127.0.0.1:5432/${db.name}`);
+      // Not a terminal: the new keys go to a file of their own, and the log says where, not what.
+      await waitUntil(() => lines.some((l) => l.includes(`written to ${join(dir!, 'keys', 'new-keys.txt')}`)), { what: 'the new-keys line', timeoutMs: 10_000, intervalMs: 20 });
+      const key = /^ {2}([A-Za-z0-9_-]{43})$/m.exec(readFileSync(join(dir, 'keys', 'new-keys.txt'), 'utf8'))?.[1];
+      expect(key).toBeDefined();
+      expect(lines.join('\n')).not.toContain(key!);
       const publisher = createMqttPublisher(validateMqttSettings({ url: broker.url, stateIntervalSeconds: 0 }), { site: 'riverside', backoff: FAST, store: source.store });
       await waitUntil(() => publisher.stats().connected, { what: 'the publisher to connect', timeoutMs: 30_000, intervalMs: 20 });
       const writer = reportingStore(source.store, publisher);
