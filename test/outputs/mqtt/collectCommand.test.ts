@@ -7,6 +7,7 @@ import { createMqttPublisher } from '../../../src/outputs/mqtt/mqttPublisher.ts'
 import { validateMqttSettings } from '../../../src/outputs/mqtt/mqttSettings.ts';
 import { openStore } from '../../../src/store/index.ts';
 import { waitUntil } from '../../service/waitUntil.ts';
+import { logRecords } from '../../service/logRecords.ts';
 import { startBroker, type TestBroker } from './broker.ts';
 import { dayCsv, FAST, inventedBatches, sourceStore, TIME_ZONE, ZONES } from './fixtures.ts';
 import { reportingStore } from '../../../src/store/reportingStore.ts';
@@ -80,7 +81,10 @@ describe('residuum collect', () => {
     dir = mkdtempSync(join(tmpdir(), 'residuum-collect-'));
     const config = join(dir, 'collect.yaml');
     writeFileSync(config, 'mqtt: { url: "mqtt://127.0.0.1:1", topicPrefix: "a/#" }\n');
-    await expect(collectCommand(['--config', config, '--data', join(dir, 'data')], { until: Promise.resolve() })).rejects.toThrow(/collect\.yaml: mqtt\.topicPrefix must not contain/);
+    let out = '';
+    await expect(collectCommand(['--config', config, '--data', join(dir, 'data')], { until: Promise.resolve(), out: { write: (t: string) => (out += t) } })).rejects.toThrow(/collect\.yaml: mqtt\.topicPrefix must not contain/);
+    // The reason is in the JSON log too, at level fatal (the command line prints it on standard error).
+    expect(logRecords(out).map((r) => [r.level, r.msg])).toEqual([['fatal', expect.stringMatching(/^cannot start: .*collect\.yaml: mqtt\.topicPrefix must not contain/)]]);
     await expect(collectCommand(['--data', dir])).rejects.toThrow(/--config is required/);
   });
 
