@@ -77,6 +77,56 @@ describe('residuum collect', () => {
     expect(await exit).toBe(0);
   });
 
+  it('logs JSON lines without its admin key or MQTT password; --log-level warn drops the info lines', async () => {
+    broker = await startBroker();
+    dir = mkdtempSync(join(tmpdir(), 'residuum-collect-'));
+    const adminKey = 'k9J8h7G6f5D4s3A2p1O0i9U8y7T6r5E4w3Q2zxcvbnm';
+    const password = 'collector-Pa55word-never-logged';
+    const keyFile = join(dir, 'admin-key');
+    writeFileSync(keyFile, adminKey);
+    chmodSync(keyFile, 0o600);
+    const config = join(dir, 'collect.yaml');
+    writeFileSync(config, `site: { name: Head office, timeZone: Europe/Berlin }\nserver: { host: 127.0.0.1, port: 0 }\nmqtt: { url: "${broker.url}", clientId: collect-log-test, username: collector, password: "${password}" }\n`);
+    // The broker sees the collector log in with its password (aedes accepts any by default).
+    const logins: (string | undefined)[] = [];
+    broker.aedes.authenticate = (_client, _username, pass, done) => {
+      logins.push(pass?.toString('utf8'));
+      done(null, true);
+    };
+    const runOnce = async (extra: string[]) => {
+      let out = '';
+      let stop!: () => void;
+      const until = new Promise<void>((done) => (stop = done));
+      const before = logins.length;
+      const exit = collectCommand(['--config', config, '--data', join(dir!, 'data'), ...extra], { until, env: { RESIDUUM_ADMIN_KEY_FILE: keyFile }, out: { write: (t: string) => (out += t) } });
+      await waitUntil(() => logins.length > before, { what: 'the collector to log in to the broker', timeoutMs: 30_000, intervalMs: 20 });
+      expect(logins.at(-1)).toBe(password);
+      // A wrong key, so that the log has a warning of its own (the key given is not echoed either).
+      const url = await waitUntil(() => collectorUrl(out), { what: 'the collector to listen', timeoutMs: 30_000, intervalMs: 20 });
+      const wrongKey = () => fetch(`${url}api/settings`, { method: 'PUT', headers: { Authorization: `Bearer ${adminKey.slice(0, -1)}X`, 'Content-Type': 'application/json' }, body: '{}' });
+      // Retried only while nothing listens yet (at warn level the port is known before the server is up).
+      expect(await waitUntil(async () => (await wrongKey().catch(() => undefined))?.status, { what: 'an answer to a wrong key', timeoutMs: 30_000, intervalMs: 50 })).toBe(401);
+      stop();
+      expect(await exit).toBe(0);
+      expect(out).not.toContain(adminKey);
+      expect(out).not.toContain(password);
+      return logRecords(out); // throws naming a line that is not a JSON record
+    };
+    /** The dashboard's address: from its info line, or at warn level (no such line) the port given with --port. */
+    let port = 0;
+    const collectorUrl = (out: string) => /dashboard at (http:\/\/[^\s"]+)/.exec(out)?.[1] ?? (port > 0 ? `http://127.0.0.1:${port}/` : undefined);
+    const all = await runOnce([]);
+    expect(all.find((r) => r.msg.startsWith('collecting from'))).toMatchObject({ level: 'info' });
+    expect(all.find((r) => r.msg.startsWith('mqtt: connected'))).toMatchObject({ level: 'info', component: 'mqtt' });
+    expect(all.map((r) => r.msg).slice(-2)).toEqual(['stopping', 'stopped']);
+    expect(all.find((r) => r.msg.startsWith('auth: a wrong key'))).toMatchObject({ level: 'warn', component: 'auth' });
+    // At warn the dashboard line is not logged: the port comes from the first run's.
+    port = Number(new URL(all.find((r) => r.msg.startsWith('collecting from'))!.msg.replace(/^.*dashboard at /, '')).port);
+    const warnings = await runOnce(['--log-level', 'warn', '--port', String(port)]);
+    expect(warnings.filter((r) => r.level === 'info' || r.level === 'debug')).toEqual([]);
+    expect(warnings.map((r) => r.msg)).toEqual([expect.stringMatching(/^auth: a wrong key from .* on PUT \/api\/settings/)]);
+  });
+
   it('refuses a bad configuration before opening the database', async () => {
     dir = mkdtempSync(join(tmpdir(), 'residuum-collect-'));
     const config = join(dir, 'collect.yaml');
