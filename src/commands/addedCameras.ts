@@ -7,6 +7,7 @@ import type { CameraSourceDescription } from '../frames/live/createCameraSource.
 import { workingSize, type Size } from '../frames/workingSize.ts';
 import { CameraSetupError, type AddedCamera, type ServiceControl } from '../server/serviceControl.ts';
 import type { Store } from '../store/index.ts';
+import type { Log } from '../domain/log.ts';
 
 /**
  * Cameras added from the dashboard (`POST /api/cameras`): checked (the source must give a picture
@@ -29,20 +30,20 @@ const ADDED_KINDS = ['snapshot', 'mjpeg'];
  * The stored added cameras, validated as the configuration's; one whose id the configuration file
  * uses, or that no longer validates, is left out with a log line (and kept in the database).
  */
-export function storedCameras(store: Pick<Store, 'getSetting'>, config: Pick<ResiduumConfig, 'cameras' | 'file'>, log: (line: string) => void): CameraConfig[] {
+export function storedCameras(store: Pick<Store, 'getSetting'>, config: Pick<ResiduumConfig, 'cameras' | 'file'>, log: Log): CameraConfig[] {
   const taken = new Set(config.cameras.map((c) => c.id));
   const out: CameraConfig[] = [];
   for (const [i, raw] of storedList(store).entries()) {
     try {
       const camera = validateCameraConfig(raw, { file: 'database', at: `${ADDED_CAMERAS}[${i}]`, base: dirname(resolve(config.file)) });
       if (taken.has(camera.id)) {
-        log(`camera ${camera.id}: added from the dashboard, but the configuration file has a camera of that id too; the file's is used`);
+        log(`camera ${camera.id}: added from the dashboard, but the configuration file has a camera of that id too; the file's is used`, 'warn');
         continue;
       }
       taken.add(camera.id);
       out.push(camera);
     } catch (error) {
-      log(`a camera added from the dashboard is left out: ${(error as Error).message}`);
+      log(`a camera added from the dashboard is left out: ${(error as Error).message}`, 'error');
     }
   }
   return out;
@@ -64,7 +65,7 @@ export interface CameraAdminOptions {
   start(camera: CameraConfig): Promise<CameraHost>;
   /** Checks a source; default probeSource with a 15 s limit. */
   readonly probe?: (source: CameraSourceDescription) => Promise<ProbeResult>;
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
 }
 
 /** addCamera and removeCamera of the ServiceControl. */

@@ -5,60 +5,70 @@ import { sqliteCollectorStore } from '../store/collectorStore.ts';
 import { startCollector, type Collector } from '../outputs/mqtt/mqttCollector.ts';
 import { readMqttTls } from '../outputs/mqtt/mqttSettings.ts';
 import { createApp } from '../server/createApp.ts';
-import { adminKeyFromEnvironment, prepareTokens, tokenNotice } from '../server/tokens.ts';
+import { adminKeyFromEnvironment, prepareTokens } from '../server/tokens.ts';
 import { openStore, type Store } from '../store/index.ts';
 import { openPostgresStore, redactUrl } from '../store/postgres/openPostgresStore.ts';
 import type { CollectorStore } from '../store/collectorStore.ts';
 import { createCollectorMetrics } from '../outputs/metrics.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
+import { announceNewTokens, logFatal } from './run.ts';
+import { configSecrets, createServiceLog, LOG_OPTIONS, LOG_USAGE, logSettings } from './serviceLog.ts';
 
 export { startCollector, type Collector, type CollectorOptions, type CollectorStats } from '../outputs/mqtt/mqttCollector.ts';
 export { loadCollectorConfig, type CollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
 import type { CollectorConfig } from '../outputs/mqtt/collectorConfig.ts';
+import type { Log } from '../domain/log.ts';
 
-export const collectUsage = `residuum collect --config <file> [--data <folder>] [--port N] [--reset-token]
+export const collectUsage = `residuum collect --config <file> [--data <folder>] [--port N] [--reset-token] [--log-level L] [--log-format F]
 
 Collects the samples, states and events that counting services publish over MQTT, from every
 site under the topic prefix, into one database (<data>/residuum.db, or PostgreSQL when the
 configuration has storage.url), confirms to each site what it stored, and serves the read-only
 dashboard, JSON API and /metrics over it. Camera door of site riverside is stored as riverside--door.
   --config  the collector configuration (YAML: site, storage, server, mqtt; no cameras)
-  --data    folder of the SQLite database (default ./data; not used with storage.url)
+  --data    folder of the SQLite database, and of new-keys.txt (default ./data)
   --port    HTTP port (default: server.port of the configuration, else 8080; 0 = any free port)
-  --reset-token  make a new admin key (and view key) and print it once`;
+  --reset-token  make a new admin key (and view key) and print it once
+${LOG_USAGE}`;
 
 export interface CollectCommandOptions {
   /** Resolves when the collector should stop; default SIGINT or SIGTERM. */
   readonly until?: Promise<void>;
-  readonly log?: (line: string) => void;
-  /** Where RESIDUUM_ADMIN_KEY_FILE is read; default process.env. */
+  /** The log; default the service log (serviceLog.ts) on `out`, as --log-level and --log-format say. */
+  readonly log?: Log;
+  /** Where RESIDUUM_ADMIN_KEY_FILE and RESIDUUM_LOG_LEVEL/FORMAT are read; default process.env. */
   readonly env?: Readonly<Record<string, string | undefined>>;
-  /** Where the one-time key notice goes; default standard output. */
-  readonly out?: { write(text: string): unknown };
-}
-
-function logLine(line: string): void {
-  process.stdout.write(`${new Date().toISOString()} ${line}\n`);
+  /**
+   * Where the log and the one-time key notice go; default standard output. New keys are printed
+   * here only when it is a terminal, else written to <data>/new-keys.txt (see showNewTokens).
+   */
+  readonly out?: { write(text: string): unknown; isTTY?: boolean };
 }
 
 /** `residuum collect`: runs the collector until SIGINT or SIGTERM (or `options.until`). */
 export async function collectCommand(argv: string[], options: CollectCommandOptions = {}): Promise<number> {
-  const { log = logLine, out = process.stdout } = options;
-  const v = parseOptions(argv, { config: { type: 'string' }, data: { type: 'string' }, port: { type: 'string' }, 'reset-token': { type: 'boolean' } });
+  const { out = process.stdout } = options;
+  const v = parseOptions(argv, { config: { type: 'string' }, data: { type: 'string' }, port: { type: 'string' }, 'reset-token': { type: 'boolean' }, ...LOG_OPTIONS });
   const configFile = requireOption(v.config, 'config', 'the collector configuration file');
   const portOption = numberOption(v.port, 'port', { min: 0, max: 65535, integer: true });
-  // Validated before the database is opened: a bad file changes nothing.
-  const config = loadCollectorConfig(configFile);
-  readMqttTls(config.mqtt); // unreadable TLS files fail here, before the database is touched
-  const adminKey = adminKeyFromEnvironment(options.env); // RESIDUUM_ADMIN_KEY_FILE, likewise
-  const { store, where } = openCollectorStore(config, v.data);
-  let collector: Collector;
-  try {
-    collector = startCollector(config.mqtt, { store, log });
-  } catch (error) {
-    store.close();
-    throw error;
-  }
+  const serviceLog = createServiceLog({ ...logSettings(v, options.env, out), out });
+  // A log handed in by the caller (tests) is used as it is.
+  const log: Log = options.log ?? serviceLog.log;
+  const { config, adminKey, store, where, collector } = await logFatal(log, async () => {
+    // Validated before the database is opened: a bad file changes nothing.
+    const config = loadCollectorConfig(configFile);
+    for (const secret of configSecrets(config)) serviceLog.hide(secret);
+    readMqttTls(config.mqtt); // unreadable TLS files fail here, before the database is touched
+    const adminKey = adminKeyFromEnvironment(options.env); // RESIDUUM_ADMIN_KEY_FILE, likewise
+    serviceLog.hide(adminKey);
+    const { store, where } = openCollectorStore(config, v.data);
+    try {
+      return { config, adminKey, store, where, collector: startCollector(config.mqtt, { store, log }) };
+    } catch (error) {
+      store.close();
+      throw error;
+    }
+  });
   const prune = () => {
     const { deleted } = store.applyRetention({
       sampleDays: config.storage.sampleRetentionDays,
@@ -93,13 +103,17 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
     const address = server.address();
     const bound = typeof address === 'object' && address ? address.port : port;
     log(`collecting from ${new URL(config.mqtt.url).host} under ${config.mqtt.topicPrefix}/ into ${where}; dashboard at http://${config.server.host}:${bound}/`);
-    out.write(tokenNotice(prepareTokens(store as unknown as Store, { viewToken: config.server.viewToken, reset: v['reset-token'] === true, ...(adminKey !== undefined && { adminKey }) })));
+    const tokens = prepareTokens(store as unknown as Store, { viewToken: config.server.viewToken, reset: v['reset-token'] === true, ...(adminKey !== undefined && { adminKey }) });
+    announceNewTokens(tokens, { dataDir: v.data ?? 'data', out, serviceLog: { hide: serviceLog.hide, log } });
     await (options.until ??
       new Promise<void>((done) => {
         process.once('SIGINT', () => done());
         process.once('SIGTERM', () => done());
       }));
     log('stopping');
+  } catch (error) {
+    log(`stopped by a failure: ${(error as Error)?.message ?? String(error)}`, 'fatal');
+    throw error;
   } finally {
     if (retention) clearInterval(retention);
     await collector.stop();
@@ -109,6 +123,7 @@ export async function collectCommand(argv: string[], options: CollectCommandOpti
     }
     store.close();
   }
+  log('stopped');
   return 0;
 }
 

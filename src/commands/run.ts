@@ -2,7 +2,7 @@ import { createHash } from 'node:crypto';
 import { EventEmitter } from 'node:events';
 import { readFile } from 'node:fs/promises';
 import type { Server } from 'node:http';
-import { chmodSync, writeFileSync } from 'node:fs';
+import { chmodSync, mkdirSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraHost, type CameraHost } from '../counting/cameraHost.ts';
@@ -34,15 +34,18 @@ import { describeZoneChange, reconcileZones } from '../config/reconcileZones.ts'
 import { openStore, type ModelInfo, type Store } from '../store/index.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { numberOption, parseOptions, requireOption } from './args.ts';
+import { configSecrets, createServiceLog, LOG_OPTIONS, LOG_USAGE, logSettings, type ServiceLog } from './serviceLog.ts';
+import type { Log } from '../domain/log.ts';
 
-export const runUsage = `residuum run --config <file> [--data <folder>] [--port N] [--reset-token]
+export const runUsage = `residuum run --config <file> [--data <folder>] [--port N] [--reset-token] [--log-level L] [--log-format F]
 
 Runs the counting service: reads every configured camera, counts per zone, stores samples and
 hourly rollups in <data>/residuum.db, and serves the JSON API on the configured host and port.
   --config  the configuration file (YAML; see config/demo.yaml and README)
   --data    folder of the database (default ./data)
   --port    HTTP port (default: server.port of the configuration, else 8080; 0 = any free port)
-  --reset-token  make a new admin key (and view key) and print it once; the old one stops working`;
+  --reset-token  make a new admin key (and view key) and print it once; the old one stops working
+${LOG_USAGE}`;
 
 /** A running service: its parts and how to stop it. */
 export interface RunningService {
@@ -63,28 +66,64 @@ export interface RunningService {
 
 /** `residuum run`: starts the service and runs until SIGINT or SIGTERM. */
 export async function runCommand(argv: string[]): Promise<number> {
-  const v = parseOptions(argv, { config: { type: 'string' }, data: { type: 'string' }, port: { type: 'string' }, 'reset-token': { type: 'boolean' } });
+  const v = parseOptions(argv, { config: { type: 'string' }, data: { type: 'string' }, port: { type: 'string' }, 'reset-token': { type: 'boolean' }, ...LOG_OPTIONS });
   const configFile = requireOption(v.config, 'config', 'the configuration file');
   const port = numberOption(v.port, 'port', { min: 0, max: 65535, integer: true });
-  const config = loadConfig(configFile);
-  const service = await startService(config, { dataDir: v.data ?? 'data', port, log: logLine, resetToken: v['reset-token'] === true });
-  // Once, to the terminal or a file only this user can read; never through the log function.
-  process.stdout.write(showNewTokens(service.newTokens, { dataDir: v.data ?? 'data', out: process.stdout }));
-  logLine(`serving the API at http://${config.server.host}:${service.port}/api/live`);
-  logLine(`dashboard at http://${config.server.host}:${service.port}/`);
-  await runUntilSignal(service);
+  const serviceLog = createServiceLog(logSettings(v));
+  const { log } = serviceLog;
+  const dataDir = v.data ?? 'data';
+  const service = await logFatal(log, async () => {
+    const config = loadConfig(configFile);
+    for (const secret of configSecrets(config)) serviceLog.hide(secret);
+    serviceLog.hide(adminKeyFromEnvironment());
+    return { config, running: await startService(config, { dataDir, port, log, resetToken: v['reset-token'] === true }) };
+  });
+  const { config, running } = service;
+  announceNewTokens(running.newTokens, { dataDir, out: process.stdout, serviceLog });
+  log(`serving the API at http://${config.server.host}:${running.port}/api/live`);
+  log(`dashboard at http://${config.server.host}:${running.port}/`);
+  await runUntilSignal(running, log);
   return 0;
 }
 
+/**
+ * Runs the start of a long-running command; a failure is logged at level fatal (so that the log
+ * collector sees why the service is gone) and thrown on, for the command line to print and exit 1.
+ */
+export async function logFatal<T>(log: Log, start: () => Promise<T>): Promise<T> {
+  try {
+    return await start();
+  } catch (error) {
+    log(`cannot start: ${(error as Error)?.message ?? String(error)}`, 'fatal');
+    throw error;
+  }
+}
+
 /** Keeps a started service running until SIGINT or SIGTERM, then stops it cleanly. */
-export async function runUntilSignal(service: RunningService): Promise<void> {
+export async function runUntilSignal(service: RunningService, log: Log): Promise<void> {
   await new Promise<void>((done) => {
     const stop = () => done();
     process.once('SIGINT', stop);
     process.once('SIGTERM', stop);
   });
-  logLine('stopping');
+  log('stopping');
   await service.stop();
+  log('stopped');
+}
+
+/**
+ * Shows keys made at this start with {@link showNewTokens}, after telling the log never to write
+ * them: on a terminal the keys are printed as they are (not a log line); otherwise the line saying
+ * which file holds them is logged (level warn: someone must fetch and delete the file).
+ */
+export function announceNewTokens(tokens: NewTokens, options: { dataDir: string; out: { write(text: string): unknown; isTTY?: boolean }; serviceLog: Pick<ServiceLog, 'hide' | 'log'> }): void {
+  const { dataDir, out, serviceLog } = options;
+  serviceLog.hide(tokens.admin);
+  serviceLog.hide(tokens.view);
+  const notice = showNewTokens(tokens, { dataDir, out });
+  if (notice === '') return;
+  if (out.isTTY === true) out.write(notice);
+  else serviceLog.log(notice.trim(), 'warn', { component: 'keys' });
 }
 
 /** The file new keys are written to when standard output is not a terminal. */
@@ -99,15 +138,13 @@ export const NEW_KEYS_FILE = 'new-keys.txt';
 export function showNewTokens(tokens: NewTokens, options: { dataDir: string; out: { isTTY?: boolean } }): string {
   const notice = tokenNotice(tokens);
   if (notice === '' || options.out.isTTY === true) return notice;
+  // The collector on PostgreSQL has no database in this folder: make it as openStore would.
+  mkdirSync(resolve(options.dataDir), { recursive: true, mode: 0o700 });
   const file = join(resolve(options.dataDir), NEW_KEYS_FILE);
   writeFileSync(file, `${new Date().toISOString()}\n${notice}`, { mode: 0o600 });
   // An older file keeps its mode on rewrite: make sure.
   chmodSync(file, 0o600);
   return `New ${tokens.view ? 'keys were' : 'admin key was'} written to ${file} (readable by this user only, as standard output is not a terminal); read it, then delete the file.\n`;
-}
-
-export function logLine(line: string): void {
-  process.stdout.write(`${new Date().toISOString()} ${line}\n`);
 }
 
 export interface StartServiceOptions {
@@ -117,7 +154,7 @@ export interface StartServiceOptions {
   readonly dataDir: string;
   /** Overrides config.server.port. */
   readonly port?: number;
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
   /** Replace the admin (and view) key with new ones; default false. */
   readonly resetToken?: boolean;
   /** Delays before a failed camera worker is started again; default 1 s doubling to 60 s, full jitter. */
@@ -174,7 +211,7 @@ export async function startService(config: ResiduumConfig, options: StartService
     try {
       publish();
     } catch (error) {
-      log(`mqtt: could not queue ${what} (${(error as Error).message})`);
+      log(`mqtt: could not queue ${what} (${(error as Error).message})`, 'error');
     }
   };
   const stopCameras = () => Promise.all([...hosts.values()].map((h) => h.stop()));
@@ -212,7 +249,7 @@ export async function startService(config: ResiduumConfig, options: StartService
         try {
           metrics.observeStage(stage, seconds);
         } catch (error) {
-          log(`camera ${camera.id}: a stage timing was not recorded (${(error as Error).message})`);
+          log(`camera ${camera.id}: a stage timing was not recorded (${(error as Error).message})`, 'warn');
         }
       });
       host.on('live', (live) => {
@@ -344,7 +381,7 @@ export function configZonesSetting(camera: string): string {
  * what changed in the file since the last start is applied, with a `settings-changed` event and a
  * log line naming each change. One transaction: the zones, the record of the file and the event.
  */
-function applyConfigZones(store: Store, camera: CameraConfig, file: string, log: (line: string) => void): Zone[] {
+function applyConfigZones(store: Store, camera: CameraConfig, file: string, log: Log): Zone[] {
   const key = configZonesSetting(camera.id);
   const tx = store.db.transaction(() => {
     const recorded = store.getSetting(key);
@@ -357,7 +394,7 @@ function applyConfigZones(store: Store, camera: CameraConfig, file: string, log:
     } catch (error) {
       // A file change that does not fit the dashboard's zones (e.g. a person size next to reference
       // people): the file's zones are taken as they are, and the event says so.
-      log(`camera ${camera.id}: the configuration's changes do not fit the zones saved in the dashboard (${(error as Error).message}); using the configuration's zones`);
+      log(`camera ${camera.id}: the configuration's changes do not fit the zones saved in the dashboard (${(error as Error).message}); using the configuration's zones`, 'warn');
       valid = camera.zones.map((z) => ({ ...z }));
     }
     const keep = new Set(valid.map((z) => z.id));
@@ -392,7 +429,7 @@ function withColour({ model, colour }: { model: Subspace; colour?: ChromaticityM
  * else — for a synthetic scene — one learned from its empty frames. Undefined means: learn from
  * the live source at start. Storing keeps at most `keep` models per camera.
  */
-async function cameraModel(camera: CameraConfig, store: Store, keep: number, log: (line: string) => void): Promise<CameraModel | undefined> {
+async function cameraModel(camera: CameraConfig, store: Store, keep: number, log: Log): Promise<CameraModel | undefined> {
   const { width, height } = camera.source.size;
   const check = (model: Subspace, from: string) => {
     if (model.width !== width || model.height !== height) {

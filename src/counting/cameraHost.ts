@@ -12,6 +12,7 @@ import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
 import type { Zone } from '../domain/zone.ts';
 import { CalibrationError, type ZoneCalibrationStatus } from './zoneCalibration.ts';
+import type { Log } from '../domain/log.ts';
 
 export interface CameraHostOptions {
   /** The camera as configured (its zones are the ones counted at start). */
@@ -31,7 +32,7 @@ export interface CameraHostOptions {
   /** Have the worker post each sample and event it committed (`sample`, `event` events, for MQTT); default false. */
   readonly relayCommits?: boolean;
   /** Log lines (the worker's too; never pixels); default none. */
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
   /** Delays before restarting a crashed worker; default 1 s doubling to 60 s, full jitter (see backoff.ts). */
   readonly restartBackoff?: BackoffOptions;
   /** A worker that sent nothing, not even its heartbeat, for this long is taken as hung and restarted, ms; 0 = never; default 30 000 (at least 60 000 while it starts). */
@@ -179,7 +180,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     try {
       events.insertEvent({ camera: id, type, detail });
     } catch (error) {
-      log(`camera ${id}: could not store event ${type} (${(error as Error).message})`);
+      log(`camera ${id}: could not store event ${type} (${(error as Error).message})`, 'error');
     }
   }
 
@@ -221,7 +222,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     w.on('error', (error: unknown) => {
       failure ??= `crashed (${error instanceof Error ? error.message : String(error)})`;
     });
-    w.on('messageerror', (error) => log(`camera ${id}: a message from its worker could not be read (${error.message})`));
+    w.on('messageerror', (error) => log(`camera ${id}: a message from its worker could not be read (${error.message})`, 'error'));
     w.on('exit', (code) => onExit(w, code));
     if (stallMs > 0) {
       watchdog = setInterval(() => {
@@ -293,14 +294,14 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
         host.emit('sourceError');
         break;
       case 'log':
-        log(message.line);
+        log(message.line, message.level, message.fields);
         break;
       case 'stopped':
         stopped?.();
         break;
       default: {
         const unknown: never = message;
-        log(`camera ${id}: unknown message ${JSON.stringify((unknown as { type: unknown }).type)} from its worker`);
+        log(`camera ${id}: unknown message ${JSON.stringify((unknown as { type: unknown }).type)} from its worker`, 'warn');
       }
     }
   }
@@ -338,7 +339,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
       restarts++;
       launch();
     });
-    log(`camera ${id}: its worker ${reason}; restarting it in ${(retryInMs / 1000).toFixed(1)} s (attempt ${attempt}); the other cameras keep counting`);
+    log(`camera ${id}: its worker ${reason}; restarting it in ${(retryInMs / 1000).toFixed(1)} s (attempt ${attempt}); the other cameras keep counting`, 'error');
     const why = `worker ${reason}`;
     if (live.state !== 'offline') {
       event('offline', { reason: why });

@@ -20,6 +20,7 @@ import type { CountRegression } from './fitCountRegression.ts';
 import { CalibrationError, fitStoredCalibration, storedRegressions, zoneShapeKey, type ZoneCalibrationStatus } from './zoneCalibration.ts';
 import type { FrameTally } from '../vision/tallyZones.ts';
 import type { Zone } from '../domain/zone.ts';
+import type { Log } from '../domain/log.ts';
 
 /** What the dashboard and outputs see of one zone right now. */
 export interface ZoneLive {
@@ -80,7 +81,7 @@ export interface CameraPipelineOptions {
   /** Frame noise scale (median (r/σ)² over its expected value) above which a frame counts as a changed view; default 6. */
   readonly viewChangeScale?: number;
   /** Log lines (never pixels). Default: none. */
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
 }
 
 /** Where learning the empty scene from the live source stands. */
@@ -190,7 +191,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   let countingAt = 0;
   const makeCounter = (m: Subspace, continueFrom?: Counter): Counter => {
     if (colourMode && m.colour === undefined && continueFrom === undefined) {
-      log(`camera ${camera.id}: the model has no colour statistics; counting in grey (shadows count) until the empty scene is learned again`);
+      log(`camera ${camera.id}: the model has no colour statistics; counting in grey (shadows count) until the empty scene is learned again`, 'warn');
     }
     return createDriftingCounter(m, zones, {
       threshold: camera.threshold,
@@ -236,7 +237,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     try {
       return storedRegressions(store, camera.id, zones, camera.threshold);
     } catch (error) {
-      log(`camera ${camera.id}: could not read calibration (${(error as Error).message}); counting by blob sizes`);
+      log(`camera ${camera.id}: could not read calibration (${(error as Error).message}); counting by blob sizes`, 'warn');
       return new Map();
     }
   }
@@ -309,12 +310,12 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
           for (const sample of samples) storeSamples([sample]);
           return;
         }
-        log(`camera ${camera.id}: could not store samples (${(error as Error).message})`);
+        log(`camera ${camera.id}: could not store samples (${(error as Error).message})`, 'error');
         // A backlog that was waiting for space is kept; only the new samples were at fault.
         if (backlog.length > 0) storeSamples([]);
         return;
       }
-      if (backlog.length === 0) log(`camera ${camera.id}: cannot write the database (${(error as Error).message}); keeping samples in memory`);
+      if (backlog.length === 0) log(`camera ${camera.id}: cannot write the database (${(error as Error).message}); keeping samples in memory`, 'error');
       backlog.splice(0, backlog.length, ...all.slice(-maxBacklog));
       droppedFromBacklog += Math.max(0, all.length - maxBacklog);
     }
@@ -324,7 +325,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     try {
       store.insertEvent({ camera: camera.id, zone: zone ?? null, type, detail, ...(time !== undefined && { time }) });
     } catch (error) {
-      log(`camera ${camera.id}: could not store event ${type} (${(error as Error).message})`);
+      log(`camera ${camera.id}: could not store event ${type} (${(error as Error).message})`, 'error');
     }
   }
 
@@ -366,7 +367,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
     if (changed !== viewChanged) {
       viewChanged = changed;
       event(changed ? 'view-changed' : 'view-restored', { noiseScale: Math.round(result.noiseScale * 100) / 100 }, undefined, at);
-      log(`camera ${camera.id}: view ${changed ? 'changed (counts marked unreliable)' : 'restored'}`);
+      log(`camera ${camera.id}: view ${changed ? 'changed (counts marked unreliable)' : 'restored'}`, changed ? 'warn' : 'info');
     }
     if (changed) quality |= QualityFlag.viewChanged;
     else personSizes.observe(ruled, counter.zones);
@@ -431,7 +432,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       try {
         id = storeModel(store, camera.id, learned, 'live source', { verdict, activate: use, rejected: !use, keep: keepModels });
       } catch (error) {
-        log(`camera ${camera.id}: could not store the learned model (${(error as Error).message})${use ? '; it is used until the service stops' : ''}`);
+        log(`camera ${camera.id}: could not store the learned model (${(error as Error).message})${use ? '; it is used until the service stops' : ''}`, 'error');
       }
       if (use) {
         model = learned;
@@ -459,13 +460,14 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
         use
           ? `camera ${camera.id}: learned the empty scene from ${learned.frameCount} frames (${learned.components} components, ${level}${level === 'poor' ? `: ${reason}` : ''})`
           : `camera ${camera.id}: learned a poor model from ${learned.frameCount} frames and kept the one in use (${reason})`,
+        use ? 'info' : 'warn',
       );
       emitter.emit('learn', learnState);
       publish();
     };
     const fail = (error: unknown) => {
       learnState = { ...learnState, state: 'failed', finishedAt: Date.now(), error: (error as Error).message };
-      log(`camera ${camera.id}: learning failed (${(error as Error).message})`);
+      log(`camera ${camera.id}: learning failed (${(error as Error).message})`, 'error');
       emitter.emit('learn', learnState);
     };
     try {
@@ -485,7 +487,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       dropInterval();
       if (was !== 'offline' && !outage) {
         event('offline', { reason: detail.reason ?? null }, undefined, detail.at);
-        log(`camera ${camera.id}: offline${detail.reason ? ` (${detail.reason})` : ''}`);
+        log(`camera ${camera.id}: offline${detail.reason ? ` (${detail.reason})` : ''}`, 'warn');
       }
       outage = true;
     } else if (next === 'online' && (was === 'offline' || outage)) {
@@ -498,7 +500,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       // The camera's resolution changed, same aspect ratio (see cameraSource.ts): the frames are
       // now resized from another size, so the model may fit less well. Once per change; counting goes on.
       event('view-changed', { reason: 'source size changed', from: { width: from.width, height: from.height }, to: { width: to.width, height: to.height } }, undefined, detail.at);
-      log(`camera ${camera.id}: view changed (${detail.reason ?? 'source size changed'}; counts marked unreliable)`);
+      log(`camera ${camera.id}: view changed (${detail.reason ?? 'source size changed'}; counts marked unreliable)`, 'warn');
       quality |= QualityFlag.viewChanged;
     }
     if (counter || next !== 'online') state = next;
@@ -506,7 +508,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
   }
 
   function onBadFrame(error: FrameError): void {
-    log(`camera ${camera.id}: skipped a frame (${error.message})`);
+    log(`camera ${camera.id}: skipped a frame (${error.message})`, 'warn');
   }
 
   Object.assign(emitter, {
@@ -588,7 +590,7 @@ export function createCameraPipeline(options: CameraPipelineOptions): CameraPipe
       if (regression !== undefined) regressions.set(zoneId, regression);
       else regressions.delete(zoneId);
       event('calibration-added', { count, counted: features[0], by, points: status.points.length, inUse: status.inUse, text: status.text }, zoneId);
-      log(`camera ${camera.id}: ${count} people in zone ${zoneId} given by the ${by} (counted ${features[0]}); ${status.text}`);
+      log(`camera ${camera.id}: ${count} people in zone ${zoneId} given by the ${by} (counted ${features[0]}); ${status.text}`, 'info', { zone: zoneId });
       return status;
     },
     reloadCalibration() {

@@ -25,12 +25,14 @@ import { learnInWorker, liveLearning } from './learnInWorker.ts';
 import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
 import { CalibrationError } from './zoneCalibration.ts';
+import type { Log } from '../domain/log.ts';
 
 const data = workerData as CameraWorkerData;
 const port = parentPort!;
 const { camera, fault } = data;
 const post = (message: FromWorker) => port.postMessage(message);
-const log = (line: string) => post({ type: 'log', line });
+// Lines go to the main thread, which writes them to the one service log (no logger in this thread).
+const log: Log = (line, level, fields) => post({ type: 'log', line, ...(level !== undefined && { level }), ...(fields !== undefined && { fields }) });
 
 /** Stage timings not yet posted: [label, seconds]. Posted with the next live state or heartbeat. */
 let stages: [string, number][] = [];
@@ -132,7 +134,7 @@ function afterFrame(): void {
     });
   }
   if (handed === fault.blockAfterFrames) {
-    log(`camera ${camera.id}: simulated fault: blocking the thread${fault.blockMs ? ` for ${fault.blockMs} ms` : ''}`);
+    log(`camera ${camera.id}: simulated fault: blocking the thread${fault.blockMs ? ` for ${fault.blockMs} ms` : ''}`, 'warn');
     sleep(fault.blockMs ?? Infinity);
   }
 }
@@ -170,11 +172,11 @@ port.on('message', (message: ToWorker) => {
         break;
       default: {
         const unknown: never = message;
-        log(`camera ${camera.id}: unknown message ${JSON.stringify((unknown as { type: unknown }).type)} from the main thread`);
+        log(`camera ${camera.id}: unknown message ${JSON.stringify((unknown as { type: unknown }).type)} from the main thread`, 'warn');
       }
     }
   } catch (error) {
-    log(`camera ${camera.id}: ${message.type} failed (${(error as Error).message})`);
+    log(`camera ${camera.id}: ${message.type} failed (${(error as Error).message})`, 'error');
   }
 });
 
@@ -215,7 +217,7 @@ async function stop(): Promise<void> {
   try {
     await source.stop();
   } catch (error) {
-    log(`camera ${camera.id}: stopping the source failed (${(error as Error).message})`);
+    log(`camera ${camera.id}: stopping the source failed (${(error as Error).message})`, 'warn');
   }
   pipeline.stop();
   ownStore.close();

@@ -11,6 +11,7 @@ import type { Subspace } from '../vision/subspace.ts';
 import type { CameraLive, LearnStatus } from './cameraPipeline.ts';
 import type { Zone } from '../domain/zone.ts';
 import type { ZoneCalibrationStatus } from './zoneCalibration.ts';
+import type { LogFields, LogLevel } from '../domain/log.ts';
 
 /**
  * A fault the worker simulates, for tests of the service and for the soak benchmark (never set
@@ -123,6 +124,7 @@ export type FromWorker =
   | { readonly type: 'calibrated'; readonly request: number; readonly status?: ZoneCalibrationStatus; readonly error?: string; readonly refused?: boolean }
   /** A bad frame or a failed connection of the source. */
   | { readonly type: 'sourceError' }
-  | { readonly type: 'log'; readonly line: string }
+  /** A log line with its level and fields (src/domain/log.ts); the main thread writes it to the service log. */
+  | { readonly type: 'log'; readonly line: string; readonly level?: LogLevel; readonly fields?: LogFields }
   /** The worker has stopped its source and closed its store (answer to `stop`). */
   | { readonly type: 'stopped' };

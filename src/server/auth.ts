@@ -3,6 +3,7 @@ import type { SettingStore } from '../store/index.ts';
 import { failureLimiter, type FailureLimiter } from './failureLimiter.ts';
 import { HttpError } from './HttpError.ts';
 import { tokenMatches } from './tokens.ts';
+import type { Log } from '../domain/log.ts';
 
 /**
  * Authentication of API requests by a token in the `Authorization: Bearer <token>` header (no
@@ -21,7 +22,7 @@ export interface AuthOptions {
   /** Limiter of failed attempts; default 10 failures per minute per address. */
   readonly limiter?: FailureLimiter;
   /** Service log: each wrong key is logged with the address and route, never the key itself. */
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
 }
 
 export interface Auth {
@@ -58,12 +59,12 @@ export function createAuth(store: SettingStore, options: AuthOptions = {}): Auth
     }
     const address = key(req);
     const count = limiter.fail(address);
-    log(`auth: a wrong key from ${address} on ${req.method} ${(req.baseUrl + req.path).slice(0, 200)} (${count} in the last minute)`);
+    log(`auth: a wrong key from ${address} on ${req.method} ${(req.baseUrl + req.path).slice(0, 200)} (${count} in the last minute)`, 'warn');
     const blocked = limiter.retryAfterMs(address);
     if (blocked > 0 && (blockLogged.get(address) ?? 0) < Date.now()) {
       blockLogged.set(address, Date.now() + blocked);
       if (blockLogged.size > 10_000) blockLogged.clear();
-      log(`auth: ${address} blocked for ${Math.ceil(blocked / 1000)} s after ${count} wrong keys`);
+      log(`auth: ${address} blocked for ${Math.ceil(blocked / 1000)} s after ${count} wrong keys`, 'warn');
     }
     throw new HttpError(401, 'the key was not accepted (header Authorization: Bearer <key>)', { 'WWW-Authenticate': 'Bearer realm="residuum", error="invalid_token"' });
   }

@@ -5,6 +5,7 @@ import type { DisplaySettings } from './displaySettings.ts';
 import type { HeavyReadGate } from './heavyReads.ts';
 import type { LiveViewResult } from './liveView.ts';
 import type { ServiceControl } from './serviceControl.ts';
+import type { Log } from '../domain/log.ts';
 
 /** What the route modules share (built once by createApp). */
 export interface ServerContext {
@@ -21,7 +22,7 @@ export interface ServerContext {
   /** Limits on long history and export reads without a key. */
   readonly heavyReads: HeavyReadGate;
   /** Service log lines; never given a token or pixels. */
-  readonly log: (line: string) => void;
+  readonly log: Log;
   display(): DisplaySettings;
   /** The live state with statuses and levels. */
   liveView(): LiveViewResult;

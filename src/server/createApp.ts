@@ -31,6 +31,7 @@ import type { ServiceControl } from './serviceControl.ts';
 import type { Metrics } from '../outputs/metrics.ts';
 import { metricsRoutes } from './routes/metrics.ts';
 import { openApiDocument } from './openapi.ts';
+import type { Log } from '../domain/log.ts';
 
 export { HttpError } from './HttpError.ts';
 
@@ -62,7 +63,7 @@ export interface AppDeps {
   /** Limits on long history and export reads without a key (see heavyReadGate); default its defaults. */
   readonly heavyReads?: HeavyReadOptions;
   /** Service log lines (never a token). Default: none. */
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
   /** Metrics registry served at GET /metrics (Prometheus text format); default: no such route. */
   readonly metrics?: Metrics;
 }
@@ -176,7 +177,7 @@ export function createApp(deps: AppDeps): express.Express {
     if (e.type === 'entity.too.large') message = 'request body is larger than 256 kB';
     else if (e.type === 'entity.parse.failed') message = 'request body is not valid JSON';
     if (error instanceof HttpError) res.set(error.headers);
-    if (status >= 500 && !(error instanceof HttpError)) log(`internal error on ${req.method} ${req.path}: ${(error as Error)?.message ?? String(error)}`);
+    if (status >= 500 && !(error instanceof HttpError)) log(`internal error on ${req.method} ${req.path}: ${(error as Error)?.message ?? String(error)}`, 'error', { component: 'server' });
     if (res.headersSent) {
       res.end();
       return;

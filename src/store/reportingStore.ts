@@ -1,6 +1,7 @@
 import type { EventInput } from '../domain/event.ts';
 import type { Sample } from '../domain/sample.ts';
 import type { Store } from './openStore.ts';
+import type { Log } from '../domain/log.ts';
 
 /**
  * Who hears of what the store committed: an output such as MQTT publishing, or the camera
@@ -22,12 +23,12 @@ export interface CommitListener {
  * const pipeline = createCameraPipeline({ camera, store: reportingStore(store, publisher), … });
  * ```
  */
-export function reportingStore(store: Store, publisher: CommitListener, log: (line: string) => void = () => {}): Store {
+export function reportingStore(store: Store, publisher: CommitListener, log: Log = () => {}): Store {
   const quietly = (what: string, publish: () => void) => {
     try {
       publish();
     } catch (error) {
-      log(`mqtt: could not queue ${what} (${(error as Error).message})`);
+      log(`mqtt: could not queue ${what} (${(error as Error).message})`, 'error');
     }
   };
   const wrapped: Partial<Store> = {

@@ -9,6 +9,7 @@ import { createScene, type SceneId } from '../../src/frames/synthetic/index.ts';
 import type { StoredEvent } from '../../src/store/events.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
 import { waitUntil } from '../service/waitUntil.ts';
+import type { Log, LogLevel } from '../../src/domain/log.ts';
 
 // The service with two cameras, each in its own worker thread: synthetic scenes (ours, nobody
 // real) at 80×60, played 20 times as fast, one sample a second. One camera's worker is made to
@@ -33,6 +34,8 @@ afterAll(() => rmSync(root, { recursive: true, force: true }));
 interface Run {
   readonly service: RunningService;
   readonly lines: string[];
+  /** The level each line was logged at (same order as lines). */
+  readonly levels: (LogLevel | undefined)[];
   samples(camera: string, zone?: string): { time: number; intervalMs: number; value: number }[];
   events(camera: string): StoredEvent[];
 }
@@ -52,10 +55,16 @@ async function start(options: Partial<StartServiceOptions>): Promise<Run> {
     join(dir, 'residuum.yaml'),
   );
   const lines: string[] = [];
-  const service = await startService(config, { dataDir: dir, port: 0, log: (l) => lines.push(l), ...options });
+  const levels: (LogLevel | undefined)[] = [];
+  const log: Log = (line, level) => {
+    lines.push(line);
+    levels.push(level);
+  };
+  const service = await startService(config, { dataDir: dir, port: 0, log, ...options });
   return {
     service,
     lines,
+    levels,
     samples: (camera, zone = ZONE.id) => service.store.listSamples({ camera, zone }),
     events: (camera) => service.store.listEvents({ camera }),
   };
@@ -84,6 +93,8 @@ describe('the service runs each camera in its own worker thread', () => {
     const run = await start({ workerFaults: { b: { blockAfterFrames: 5 } }, workerStallMs: 0 });
     try {
       await waitUntil(() => run.lines.some((l) => l.startsWith('camera b: simulated fault: blocking the thread')), { what: 'camera b to block its thread' });
+      // Logged in B's worker thread at warn: the level crosses to the main thread with the line.
+      expect(run.levels[run.lines.findIndex((l) => l.startsWith('camera b: simulated fault'))]).toBe('warn');
       expect(threads()).toBeGreaterThanOrEqual(threadsBefore + 2);
       const bLast = run.service.cameras.get('b')!.live().lastFrameAt;
       const aBefore = run.samples('a').length;
@@ -118,7 +129,9 @@ describe('the service runs each camera in its own worker thread', () => {
     try {
       const offline = await waitUntil(() => run.events('b').find((e) => e.type === 'offline'), { what: 'the offline event of camera b' });
       expect(offline.detail).toEqual({ reason: 'worker crashed (simulated crash after 30 frames)' });
-      expect(run.lines.some((l) => /^camera b: its worker crashed \(simulated crash after 30 frames\); restarting it in/.test(l))).toBe(true);
+      const crashed = run.lines.findIndex((l) => /^camera b: its worker crashed \(simulated crash after 30 frames\); restarting it in/.test(l));
+      expect(crashed).toBeGreaterThanOrEqual(0);
+      expect(run.levels[crashed]).toBe('error');
       const online = await waitUntil(() => run.events('b').find((e) => e.type === 'online' && e.time >= offline.time), { what: 'camera b online again' });
       await waitUntil(() => run.samples('b').some((s) => s.time > online.time), { what: 'a sample of camera b after the restart' });
       await waitUntil(() => run.samples('a').some((s) => s.time > online.time), { what: 'a sample of camera a after the restart' });

@@ -15,6 +15,7 @@ import { openStore } from '../../src/store/index.ts';
 import { spawnResiduum, type RunningChild } from './spawnResiduum.ts';
 import { demoRoomZoneIds, demoTimeZone, testConfig } from './testConfig.ts';
 import { waitUntil } from './waitUntil.ts';
+import { logRecords } from './logRecords.ts';
 
 const HOUR = 3_600_000;
 const dirs: string[] = [];
@@ -243,7 +244,7 @@ describe('residuum run as a process', () => {
     first.child.kill('SIGTERM');
     const exit = await first.exit(120_000);
     expect(exit, first.stderr().toString('utf8')).toEqual({ code: 0, signal: null });
-    expect(first.stdout().toString('utf8')).toMatch(/ stopping\n/);
+    expect(logRecords(first.stdout()).map((r) => r.msg).slice(-2)).toEqual(['stopping', 'stopped']);
     const afterFirst = sampleCount(file);
     expect(afterFirst).toBeGreaterThan(0);
 
@@ -278,5 +279,7 @@ describe('residuum run as a process', () => {
     expect(run.stdout().toString('utf8')).not.toMatch(/serving the API/);
     expect(run.stderr().toString('utf8')).toContain(`cannot listen on 127.0.0.1:${port}`);
     expect(run.stderr().toString('utf8')).toContain('EADDRINUSE');
+    // The same reason in the JSON log, at level fatal, for whoever reads only the log.
+    expect(logRecords(run.stdout()).filter((r) => r.level === 'fatal').map((r) => r.msg)).toEqual([expect.stringContaining(`cannot listen on 127.0.0.1:${port}`)]);
   }, 400_000);
 });

@@ -8,6 +8,7 @@ import { DeliveryError } from './deliveryError.ts';
 import { emptyAlertState, evaluateAlerts, type Alert, type AlertRule, type AlertState, type ObservedCamera } from './evaluateAlerts.ts';
 import { createMailSender, type MailSender } from './mailSender.ts';
 import { sendWebhook } from './sendWebhook.ts';
+import type { Log } from '../../domain/log.ts';
 
 export interface StartAlertsOptions {
   readonly settings: AlertSettings;
@@ -18,7 +19,7 @@ export interface StartAlertsOptions {
   /** Where `alert-sent` and `alert-failed` events are written (the main thread's store). */
   readonly events: { insertEvent(event: EventInput): number };
   /** Log lines (never a secret); default none. */
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
   /** Milliseconds between two looks at the live view, ≥ 10; default 1000. */
   readonly checkMs?: number;
   /** Clock, epoch ms; default Date.now. */
@@ -88,7 +89,7 @@ export function startAlerts(options: StartAlertsOptions): AlertService {
     try {
       events.insertEvent({ camera: alert.camera, ...(alert.zone !== undefined && { zone: alert.zone }), type, detail });
     } catch (error) {
-      log(`alerts: could not store event ${type} (${(error as Error).message})`);
+      log(`alerts: could not store event ${type} (${(error as Error).message})`, 'error');
     }
   }
 
@@ -108,11 +109,11 @@ export function startAlerts(options: StartAlertsOptions): AlertService {
         if (!e.retry || attempt > channel.retries || stoppingNow) {
           const why = stoppingNow ? `${e.message}; given up: the service is stopping` : e.message;
           record('alert-failed', alert, { ...about, attempts: attempt, error: why });
-          log(`alerts: ${channel.kind} to ${channel.to} failed after ${attempt} attempt${attempt === 1 ? '' : 's'} (${why}): ${message.text}`);
+          log(`alerts: ${channel.kind} to ${channel.to} failed after ${attempt} attempt${attempt === 1 ? '' : 's'} (${why}): ${message.text}`, 'error');
           return;
         }
         const wait = backoffDelay(attempt, retryBackoff);
-        log(`alerts: ${channel.kind} to ${channel.to} failed (${e.message}); trying again in ${(wait / 1000).toFixed(1)} s`);
+        log(`alerts: ${channel.kind} to ${channel.to} failed (${e.message}); trying again in ${(wait / 1000).toFixed(1)} s`, 'warn');
         await sleep(wait, stopping.signal);
       }
     }
@@ -137,7 +138,7 @@ export function startAlerts(options: StartAlertsOptions): AlertService {
     try {
       cameras = observe();
     } catch (error) {
-      log(`alerts: could not read the live view (${(error as Error).message})`);
+      log(`alerts: could not read the live view (${(error as Error).message})`, 'error');
       return;
     }
     const result = evaluateAlerts(state, { time: clock(), cameras }, { quietMs: settings.quietMs, rules: settings.rules });

@@ -1,6 +1,7 @@
 import { connect, Store, type IClientOptions, type IConnackPacket, type MqttClient } from 'mqtt';
 import { createRetryScheduler, type BackoffOptions } from '../../frames/live/backoff.ts';
 import { readMqttTls, type MqttQos, type MqttSettings } from './mqttSettings.ts';
+import type { Log } from '../../domain/log.ts';
 
 /** A message the broker publishes for us when the connection drops without a DISCONNECT. */
 export interface MqttWill {
@@ -32,7 +33,7 @@ export interface ConnectMqttOptions {
   /** Called when a connection ends or an attempt fails. */
   readonly onClose?: () => void;
   /** Log lines (never credentials). Default: none. */
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
 }
 
 /** A client that keeps itself connected. */
@@ -90,18 +91,18 @@ export function connectMqtt(settings: MqttSettings, options: ConnectMqttOptions)
   });
   client.on('error', (error) => {
     // One line per distinct error, not one per attempt.
-    if (error.message !== lastError) log(`mqtt: ${host}: ${error.message}`);
+    if (error.message !== lastError) log(`mqtt: ${host}: ${error.message}`, 'warn');
     lastError = error.message;
   });
   client.on('close', () => {
     if (stopping) return;
-    if (wasConnected && retry.attempt === 0) log(`mqtt: connection to ${host} lost; reconnecting`);
+    if (wasConnected && retry.attempt === 0) log(`mqtt: connection to ${host} lost; reconnecting`, 'warn');
     onClose?.();
     if (retry.pending) return;
     const { attempt, retryInMs } = retry.schedule(() => {
       if (!stopping) client.reconnect({ incomingStore, outgoingStore });
     });
-    if ((attempt & (attempt - 1)) === 0) log(`mqtt: ${host}: retry ${attempt} in ${(retryInMs / 1000).toFixed(1)} s`);
+    if ((attempt & (attempt - 1)) === 0) log(`mqtt: ${host}: retry ${attempt} in ${(retryInMs / 1000).toFixed(1)} s`, 'debug');
   });
 
   return {

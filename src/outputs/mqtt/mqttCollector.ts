@@ -11,6 +11,7 @@ import type { CollectorStore, SampleOutcome } from '../../store/collectorStore.t
 import { parseSampleMessage, type SampleMessage } from './sampleMessage.ts';
 import { ackTopic, collectorCameraId, collectorFilters, parseTopic, SITE_ID_PATTERN, stateTopic, topicSegment } from './topics.ts';
 import { ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
+import type { Log } from '../../domain/log.ts';
 
 /**
  * The collector: subscribes to the samples, states and events of every site under the topic
@@ -59,7 +60,7 @@ export interface CollectorOptions {
   /** A site announced offline (its will) whose status is not back `online` within this time gets its zone states set `offline`, ms; default 5000. */
   readonly offlineGraceMs?: number;
   /** Log lines. Default: none. */
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
   /** Reconnection delays; default 1 s doubling to 60 s with full jitter. */
   readonly backoff?: BackoffOptions;
 }
@@ -159,7 +160,7 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
   function complain(kind: string, line: string): void {
     const n = (complaints.get(kind) ?? 0) + 1;
     complaints.set(kind, n);
-    if (n <= 5 || Number.isInteger(Math.log10(n))) log(`collect: ${line}${n > 5 ? ` (${n} so far)` : ''}`);
+    if (n <= 5 || Number.isInteger(Math.log10(n))) log(`collect: ${line}${n > 5 ? ` (${n} so far)` : ''}`, 'warn');
   }
 
   const connection: MqttConnection = connectMqtt(settings, {
@@ -178,8 +179,8 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
       client.subscribe(
         { [filters.samples]: { qos: sampleQos }, [filters.state]: { qos: settings.qos }, [filters.events]: { qos: settings.qos }, [filters.status]: { qos: settings.qos } },
         (error, granted) => {
-          if (error) log(`collect: could not subscribe (${error.message})`);
-          for (const g of granted ?? []) if (g.qos === 128) log(`collect: the broker refused the subscription to ${g.topic}`);
+          if (error) log(`collect: could not subscribe (${error.message})`, 'error');
+          for (const g of granted ?? []) if (g.qos === 128) log(`collect: the broker refused the subscription to ${g.topic}`, 'error');
           subscribed = !error && (granted ?? []).every((g) => g.qos !== 128);
         },
       );
@@ -254,7 +255,7 @@ export function startCollector(settings: MqttSettings, options: CollectorOptions
       c = { stream: m.stream!, seq, saved: seq, above: new Set(), received: seq, site: m.site, camera: m.camera, unacked: true, unsaved: false };
       cursors.set(cameraId, c);
     } else if (c.stream !== m.stream) {
-      log(`collect: ${m.site}/${m.camera} numbers its samples in a new stream ${m.stream} (was ${c.stream}): its database was replaced; confirming from 0`);
+      log(`collect: ${m.site}/${m.camera} numbers its samples in a new stream ${m.stream} (was ${c.stream}): its database was replaced; confirming from 0`, 'warn');
       c.stream = m.stream!;
       c.seq = 0;
       c.saved = 0;

@@ -12,6 +12,7 @@ import { sampleMessage } from './sampleMessage.ts';
 import { createSampleOutbox, type OutboxStore, type ReplayTiming, type SampleOutbox } from './sampleOutbox.ts';
 import { ackTopic, eventsTopic, parseTopic, samplesTopic, siteStatusTopic, SITE_ID_PATTERN, stateTopic } from './topics.ts';
 import { zoneState, ZoneStateName, type ZoneStateMessage } from './zoneState.ts';
+import type { Log } from '../../domain/log.ts';
 
 /**
  * Publishes the counting service's live states, events and stored samples to an MQTT broker
@@ -53,7 +54,7 @@ export interface MqttPublisherOptions {
   /** When unconfirmed samples are sent again (sequenced stores only); see sampleOutbox.ts. */
   readonly replay?: ReplayTiming;
   /** Log lines (never credentials, never pixels). Default: none. */
-  readonly log?: (line: string) => void;
+  readonly log?: Log;
   /** Clock for state and event times and state rate limits, epoch ms; default Date.now. */
   readonly clock?: () => number;
   /** Reconnection delays; default 1 s doubling to 60 s with full jitter. */
@@ -175,7 +176,7 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
       if (outbox) {
         outbox.reconnected(now);
         client.subscribe(ackFilter, { qos: 1 }, (error) => {
-          if (error) log(`mqtt: could not subscribe to the collector's acks (${error.message})`);
+          if (error) log(`mqtt: could not subscribe to the collector's acks (${error.message})`, 'error');
         });
       }
       pump();
@@ -189,7 +190,7 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
       try {
         if (outbox.acknowledge(parsed.camera, parseAckMessage(payload), clock())) schedulePump();
       } catch (error) {
-        log(`mqtt: ignored an ack on ${topic} (${(error as Error).message})`);
+        log(`mqtt: ignored an ack on ${topic} (${(error as Error).message})`, 'warn');
       }
     });
   }
@@ -224,7 +225,7 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
       return;
     }
     count.samplesDropped++;
-    if (!warnedFull) log(`mqtt: ${samples.limit} samples wait for the broker; dropping the oldest (they stay in the database${store ? ' and are sent later' : ''})`);
+    if (!warnedFull) log(`mqtt: ${samples.limit} samples wait for the broker; dropping the oldest (they stay in the database${store ? ' and are sent later' : ''})`, 'warn');
     warnedFull = true;
     if (!store) return;
     const { camera, zone, time } = m.sample;
@@ -246,7 +247,7 @@ export function createMqttPublisher(settings: MqttSettings, options: MqttPublish
       try {
         page = store.listSamples({ camera: span.camera, zone: span.zone, from: span.from, to: end });
       } catch (error) {
-        log(`mqtt: cannot re-read samples of ${key} (${(error as Error).message}); they stay in the database only`);
+        log(`mqtt: cannot re-read samples of ${key} (${(error as Error).message}); they stay in the database only`, 'error');
         backfill.delete(key);
         continue;
       }

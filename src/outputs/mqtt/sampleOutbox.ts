@@ -1,6 +1,7 @@
 import { randomBytes } from 'node:crypto';
 import type { SequencedSample, Store } from '../../store/index.ts';
 import { STREAM_PATTERN } from './sampleMessage.ts';
+import type { Log } from '../../domain/log.ts';
 
 /**
  * The site's database as the queue of samples to publish (an outbox): nothing is held in memory
@@ -88,7 +89,7 @@ export const SettingKeys = { stream: 'mqtt.stream', confirmed: 'mqtt.confirmed' 
 
 const PAGE = 500;
 
-export function createSampleOutbox(store: OutboxStore, options: { replay?: ReplayTiming; clock?: () => number; log?: (line: string) => void } = {}): SampleOutbox {
+export function createSampleOutbox(store: OutboxStore, options: { replay?: ReplayTiming; clock?: () => number; log?: Log } = {}): SampleOutbox {
   const { replay = {}, clock = Date.now, log = () => {} } = options;
   const { graceMs = 5000, afterMs = 30_000, maxMs = 300_000 } = replay;
   const known = store.getSetting(SettingKeys.stream);
@@ -148,7 +149,7 @@ export function createSampleOutbox(store: OutboxStore, options: { replay?: Repla
     try {
       store.setSetting(SettingKeys.confirmed, { stream, cameras });
     } catch (error) {
-      log(`mqtt: cannot remember the collector's acks (${(error as Error).message}); they are asked for again after a restart`);
+      log(`mqtt: cannot remember the collector's acks (${(error as Error).message}); they are asked for again after a restart`, 'warn');
     }
   }
 
@@ -182,7 +183,7 @@ export function createSampleOutbox(store: OutboxStore, options: { replay?: Repla
       const c = cursor(camera);
       if (ack.seq > c.last) {
         // More than this database ever numbered: not an ack of ours (a restored backup?). Ignored.
-        log(`mqtt: the collector confirms ${ack.seq} samples of ${camera}, more than the ${c.last} numbered here; ignored`);
+        log(`mqtt: the collector confirms ${ack.seq} samples of ${camera}, more than the ${c.last} numbered here; ignored`, 'warn');
         return false;
       }
       c.acked = true;
@@ -201,7 +202,7 @@ export function createSampleOutbox(store: OutboxStore, options: { replay?: Repla
       }
       if (ack.seq < c.confirmed) {
         // The collector holds less than it confirmed before (its database was restored from a backup?): send again from there.
-        log(`mqtt: the collector now confirms ${ack.seq} samples of ${camera}, fewer than the ${c.confirmed} before; sending the rest again`);
+        log(`mqtt: the collector now confirms ${ack.seq} samples of ${camera}, fewer than the ${c.confirmed} before; sending the rest again`, 'warn');
         c.confirmed = ack.seq;
         scheduleSave();
         startReplay(camera, c, now, 'the collector lost samples');
