@@ -4,11 +4,14 @@ import { outputBitMask, wordsPerRow, type BitMask } from './bitMask.ts';
 import { chiSquare1Median } from './frameNoiseScale.ts';
 import { kernelsEnabled } from './learningKernels.ts';
 import { quickselect } from './quickselect.ts';
-import { scaleStride, settled, symmetricTimes, type CoefficientSample } from './residualEnergy.ts';
+import type { CoefficientSample } from './residualEnergy/coefficientSample.ts';
+import { settled } from './residualEnergy/robustProject.ts';
+import { scaleStride } from './residualEnergy/samplePass.ts';
+import { symmetricTimes } from './symmetricTimes.ts';
 import { solveSymmetric } from './solveSymmetric.ts';
 import type { Subspace } from './subspace.ts';
 
-/** Histogram bins of the `select` kernel: the top 12 bits of a Float32 (scripts/countingKernelText.ts builds it with this). */
+/** Histogram bins of the `select` kernel: the top 12 bits of a Float32 (kernels/wat/counting/select.wat clears and scans this many). */
 export const SELECT_BINS = 4096;
 
 /**
@@ -87,7 +90,7 @@ type ProjectKernel = (n: number, z: number, mean: number, basis: number, plane: 
 
 let compiled: WebAssembly.Module | null | undefined;
 
-/** The counting module (scripts/countingKernelText.ts), compiled once per thread; null where WebAssembly SIMD is missing. */
+/** The counting module (kernels/counting.wasm, built from kernels/wat/counting/*.wat), compiled once per thread; null where WebAssembly SIMD is missing. */
 export function countingModule(): WebAssembly.Module | null {
   if (compiled !== undefined) return compiled;
   try {
@@ -112,7 +115,7 @@ const up4 = (n: number) => Math.ceil(n / 4) * 4;
 
 /**
  * The per-frame work of createCounter — residualEnergy with a pixel sample, frameNoiseScale and
- * thresholdResidual (radius 1) — as WebAssembly SIMD kernels (scripts/countingKernelText.ts) on
+ * thresholdResidual (radius 1) — as WebAssembly SIMD kernels (kernels/wat/counting/*.wat) on
  * one counter's own memory, writing the foreground as a packed mask ({@link BitMask}) for the
  * bitmapped morphology and the run labelling that follow.
  *

@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 
-/** Block side of the kernels: frames per Gram block side, components per group (scripts/buildKernels.ts). */
+/** Block side of the kernels: frames per Gram block side, components per group (kernels/wat/learning/*.wat). */
 const BLOCK = 4;
 /** Pixels per tile whose products `gram` and `project` sum in f32 lanes before adding them in f64. */
 const PIXEL_TILE = 256;
@@ -95,7 +95,7 @@ const up = (x: number, to: number) => Math.ceil(x / to) * to;
 
 /**
  * Loads n learning frames of d pixels once into the memory of the WebAssembly SIMD kernels built
- * by scripts/buildKernels.ts, centres them there, and returns the learning operations on them
+ * from kernels/wat/learning/*.wat, centres them there, and returns the learning operations on them
  * (`CentredFrames`), four pixels per instruction. The frames given are not changed.
  *
  * Precision (f32 lanes, long sums split into tiles added in f64):

@@ -27,7 +27,7 @@ export const MAX_KERNEL_RADIUS = 31;
 
 /**
  * morphologyBitMask for the square element, four words per instruction: the `morph` kernel of
- * scripts/countingKernelText.ts, the same row-then-column method and border (van den Boomgaard
+ * kernels/wat/counting/morph.wat, the same row-then-column method and border (van den Boomgaard
  * & van Balen 1992; opencv's default border), so the same result bit for bit. The mask is copied
  * into the kernels' own memory once per call, every step runs there, and the result is copied out.
  *

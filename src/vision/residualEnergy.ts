@@ -7,12 +7,6 @@ import { residualPass } from './residualEnergy/residualPass.ts';
 import { robustProject } from './residualEnergy/robustProject.ts';
 import { scaleStride } from './residualEnergy/samplePass.ts';
 
-// countingKernels.ts still takes these from here; import them from their own files in new code.
-export { type CoefficientSample } from './residualEnergy/coefficientSample.ts';
-export { settled } from './residualEnergy/robustProject.ts';
-export { scaleStride } from './residualEnergy/samplePass.ts';
-export { symmetricTimes } from './symmetricTimes.ts';
-
 /** Per-pixel residual energy of a frame and the per-frame distances of probabilistic PCA. */
 export interface ResidualEnergy {
   /** e_i = r_i², grey levels², row-major like the frame. */

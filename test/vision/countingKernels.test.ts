@@ -1,12 +1,13 @@
 import { readFileSync } from 'node:fs';
 import { Matrix, solve } from 'ml-matrix';
 import { afterEach, describe, expect, it } from 'vitest';
-import { buildCountingKernelsWasm } from '../../scripts/buildKernels.ts';
+import { buildKernelModule } from '../../scripts/buildKernels.ts';
 import type { GreyFrame } from '../../src/domain/frame.ts';
 import { packMask, type BitMask } from '../../src/vision/bitMask.ts';
-import { countingKernels } from '../../src/vision/countingKernels.ts';
+import { countingKernels, countingModule, SELECT_BINS } from '../../src/vision/countingKernels.ts';
 import { fitSubspace } from '../../src/vision/fitSubspace.ts';
 import { frameNoiseScale } from '../../src/vision/frameNoiseScale.ts';
+import { quickselect } from '../../src/vision/quickselect.ts';
 import { setKernelsEnabled } from '../../src/vision/learningKernels.ts';
 import { residualEnergy } from '../../src/vision/residualEnergy.ts';
 import { refreshCoefficientSample, sampleCoefficientPixels } from '../../src/vision/residualEnergy/coefficientSample.ts';
@@ -61,13 +62,14 @@ function differingPixels(a: BitMask, b: BitMask): number {
 }
 
 describe('countingKernels', () => {
-  it('is the committed module, rebuilt from scripts/countingKernelText.ts', async () => {
+  it('is the committed module, rebuilt from src/vision/kernels/wat/counting/*.wat (scripts/buildKernels.ts)', async () => {
     const committed = readFileSync(new URL('../../src/vision/kernels/counting.wasm', import.meta.url));
-    expect(Buffer.from(await buildCountingKernelsWasm()).equals(committed)).toBe(true);
+    expect(Buffer.from(await buildKernelModule('counting')).equals(committed)).toBe(true);
   });
 
   it('gives the JS stages’ coordinates, energies, noise scale and foreground, for 1 to 6 groups of components and any width', () => {
-    for (const [width, height, k] of [[40, 30, 3], [33, 17, 8], [64, 20, 12], [1, 9, 2], [70, 45, 5], [48, 36, 16], [41, 30, 21], [64, 48, 24]] as const) {
+    // Groups of four components: k 2, 3 → 1; 5, 8 → 2; 12 → 3; 16 → 4; 18 → 5; 21, 24 → 6.
+    for (const [width, height, k] of [[40, 30, 3], [33, 17, 8], [64, 20, 12], [1, 9, 2], [70, 45, 5], [48, 36, 16], [56, 40, 18], [41, 30, 21], [64, 48, 24]] as const) {
       const { model, frame } = scene(width, height, k, width * 7 + k);
       const { kernels, thresholds, coefficientSample, weight } = setup(model, (i) => 2.5 + (i % 5) * 0.25);
       for (const [t, boxes] of [[0.3, 0], [0.7, 2], [0.1, 4]] as const) {
@@ -202,5 +204,71 @@ describe('countingKernels', () => {
     expect(() => countingKernels(some, { coefficientSample: sampleCoefficientPixels(some, 3), thresholds: new Float32Array(10) })).toThrow(/thresholds has length 10, expected 200/);
     expect(() => countingKernels(some, { coefficientSample: sampleCoefficientPixels(many, 3), thresholds: new Float32Array(200) })).toThrow(/another model/);
     expect(() => setup(some).kernels.residual({ width: 10, height: 20, data: new Float32Array(200) })).toThrow(/frame is 10×20, the model is 20×10/);
+  });
+});
+
+// The data-moving kernels one by one, on the module itself, against the plain TS they stand for.
+describe('the counting module’s pad, gather and select', () => {
+  interface Moves {
+    pad(src: number, width: number, rows: number, stride: number, dst: number): void;
+    gather(src: number, index: number, n: number, dst: number): void;
+    select(values: number, n: number, kth: number, hist: number, out: number, result: number): void;
+  }
+  function instance() {
+    const memory = new WebAssembly.Memory({ initial: 4 });
+    const run = new WebAssembly.Instance(countingModule()!, { env: { memory } }).exports as unknown as Moves;
+    return { run, f32: new Float32Array(memory.buffer), i32: new Int32Array(memory.buffer) };
+  }
+
+  it('pad copies rows to a longer stride and leaves the padding alone, exactly', () => {
+    const rand = mulberry(31);
+    const { run, f32 } = instance();
+    for (const [width, rows, stride] of [[1, 1, 4], [5, 3, 8], [33, 7, 36], [64, 2, 64]] as const) {
+      const src = Float32Array.from({ length: width * rows }, () => rand() * 255);
+      f32.set(src, 16);
+      const dst = 4096;
+      f32.fill(-1, dst, dst + rows * stride);
+      run.pad(16 * 4, width, rows, stride, dst * 4);
+      // check: the row-by-row copy written out in TS
+      for (let y = 0; y < rows; y++) {
+        for (let x = 0; x < stride; x++) expect(f32[dst + y * stride + x], `${width}×${rows} (${x}, ${y})`).toBe(x < width ? src[y * width + x] : -1);
+      }
+    }
+  });
+
+  it('gather takes the values at the indices, exactly', () => {
+    const rand = mulberry(32);
+    const { run, f32, i32 } = instance();
+    const src = Float32Array.from({ length: 1000 }, () => rand() * 100);
+    f32.set(src, 16);
+    for (const n of [0, 1, 7, 300]) {
+      const index = Int32Array.from({ length: n }, () => Math.floor(rand() * 1000));
+      i32.set(index, 2048);
+      f32.fill(-1, 4096, 4096 + n + 1);
+      run.gather(16 * 4, 2048 * 4, n, 4096 * 4);
+      // check: src[index[s]] in TS; the value past n is not written
+      for (let s = 0; s < n; s++) expect(f32[4096 + s]).toBe(src[index[s]]);
+      expect(f32[4096 + n]).toBe(-1);
+    }
+  });
+
+  it('select narrows to the bin whose rank-th value is quickselect’s, exactly, with ties and zeros', () => {
+    const rand = mulberry(33);
+    const { run, f32, i32 } = instance();
+    const values = 16;
+    const hist = 8192;
+    const out = hist + SELECT_BINS;
+    const result = out + 8192;
+    for (const [n, spread] of [[1, 1], [2, 0], [9, 3], [777, 50], [5000, 1e6]] as const) {
+      // Squares of normals (χ²-like, as the energies are), some exact ties and zeros.
+      const v = Float32Array.from({ length: n }, (_, i) => (i % 11 === 0 ? 0 : i % 13 === 0 ? 1 : (spread * (rand() + rand() + rand() - 1.5)) ** 2));
+      f32.set(v, values);
+      for (const kth of new Set([0, n >> 1, n - 1, Math.floor(rand() * n)])) {
+        run.select(values * 4, n, kth, hist * 4, out * 4, result * 4);
+        const inBin = f32.slice(out, out + i32[result]);
+        // check: quickselect over all n values (the TS stage, as frameNoiseScale selects)
+        expect(quickselect(inBin, i32[result + 1]), `n ${n}, kth ${kth}`).toBe(quickselect(v, kth));
+      }
+    }
   });
 });

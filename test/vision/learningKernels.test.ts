@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { Matrix, SVD } from 'ml-matrix';
 import { afterEach, describe, expect, it } from 'vitest';
-import { buildKernelsWasm } from '../../scripts/buildKernels.ts';
+import { buildKernelModule } from '../../scripts/buildKernels.ts';
 import { learningKernels, setKernelsEnabled } from '../../src/vision/learningKernels.ts';
 import { mulberry } from '../helpers/random.ts';
 
@@ -25,9 +25,9 @@ function centredReference(frames: Float32Array[]): Matrix {
 describe('learningKernels', () => {
   afterEach(() => setKernelsEnabled(true));
 
-  it('is the committed build of scripts/buildKernels.ts', async () => {
+  it('is the committed build of src/vision/kernels/wat/learning/*.wat (scripts/buildKernels.ts)', async () => {
     const committed = new Uint8Array(readFileSync(new URL('../../src/vision/kernels/learning.wasm', import.meta.url)));
-    expect(Buffer.from(await buildKernelsWasm()).equals(Buffer.from(committed))).toBe(true);
+    expect(Buffer.from(await buildKernelModule('learning')).equals(Buffer.from(committed))).toBe(true);
   });
 
   it('centres the frames and forms XᵀX as double precision does', () => {
@@ -76,6 +76,34 @@ describe('learningKernels', () => {
           expect(sums[j]).toHaveLength(d);
           for (let i = 0; i < d; i++) {
             expect(Math.abs(sums[j][i] - reference.get(j, i)), `n ${n}, d ${d}, (${j}, ${i})`).toBeLessThanOrEqual(2e-6 * bound.get(j, i) + 1e-9);
+          }
+        }
+      }
+    }
+  });
+
+  it('projects a subset of the centred frames onto given columns as double precision does (the project kernel)', () => {
+    const rand = mulberry(13);
+    for (const [n, d] of sizes) {
+      const frames = randomFrames(rand, n, d);
+      const kernels = learningKernels(frames, d, { maxRows: 6 })!;
+      // Repeated and unordered frames, 1..6 columns (not multiples of the kernel's block of 4).
+      const subset = Array.from({ length: n + 2 }, (_, t) => (t * 5) % n);
+      for (const kk of [1, 3, 6]) {
+        const columns = Array.from({ length: kk }, () => Float64Array.from({ length: d }, () => rand() * 2 - 1));
+        const y = kernels.project(subset, columns);
+        // check: ml-matrix mmul X_subset · U in double precision, the product fitSubspace's JS
+        // path (centredFrames.project) forms; errors bounded by |X_subset| · |U| (f32 products
+        // summed in f32 lanes over tiles of 256 pixels, tiles added in f64)
+        const xs = centredReference(frames).selection(subset, Array.from({ length: d }, (_, i) => i));
+        const u = new Matrix(d, kk);
+        for (let j = 0; j < kk; j++) for (let i = 0; i < d; i++) u.set(i, j, columns[j][i]);
+        const reference = xs.mmul(u);
+        const bound = Matrix.abs(xs).mmul(Matrix.abs(u));
+        expect(y).toHaveLength(subset.length * kk);
+        for (let t = 0; t < subset.length; t++) {
+          for (let j = 0; j < kk; j++) {
+            expect(Math.abs(y[t * kk + j] - reference.get(t, j)), `n ${n}, d ${d}, k ${kk}, (${t}, ${j})`).toBeLessThanOrEqual(2e-6 * bound.get(t, j) + 1e-9);
           }
         }
       }
