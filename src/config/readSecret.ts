@@ -1,5 +1,7 @@
 import { readFileSync, statSync } from 'node:fs';
 import { resolve } from 'node:path';
+import { z } from 'zod';
+import { runChecks } from './schemaFields.ts';
 
 /** Throws the configuration's error for a field (never returns). */
 export type SecretFail = (path: string, message: string) => never;
@@ -42,6 +44,17 @@ export function readSecret(v: unknown, at: string, fail: SecretFail, options: Re
   }
   if (typeof m.file !== 'string' || m.file.length === 0 || m.file.length > 2000) return fail(`${at}.file`, `must be a file's path, got ${show(m.file)}`);
   return readSecretFile(resolve(base, m.file), `${at}.file`, fail, privateFile);
+}
+
+/**
+ * A secret field as a zod schema: its shape (text, `{ env: NAME }` or `{ file: path }`, as the
+ * JSON Schema shows it), validated and read by readSecret; the parsed value is the secret's text.
+ */
+export function secretSchema(options: ReadSecretOptions = {}) {
+  const shape = z.union([z.string().min(1).max(4096), z.strictObject({ env: z.string().regex(/^[A-Za-z_][A-Za-z0-9_]{0,127}$/) }), z.strictObject({ file: z.string().min(1).max(2000) })]);
+  // readSecret checks and reads first (its messages name the field and never echo the value);
+  // what it hands on is the secret's text, which the shape then accepts.
+  return z.preprocess((v, ctx) => runChecks(ctx, (fail) => readSecret(v, '', fail, options)), shape).transform((v) => v as string);
 }
 
 /**

@@ -1,6 +1,6 @@
-import { ConfigError } from '../../config/ConfigError.ts';
-import { readSecret } from '../../config/readSecret.ts';
-import { int, mapping, num, show, text, type Fail } from '../../config/settingFields.ts';
+import { z } from 'zod';
+import { secretSchema } from '../../config/readSecret.ts';
+import { finiteNumber, flag, mapping, oneOf, orDefault, parseOrThrow, runChecks, show, text, wholeNumber, type Fail } from '../../config/schemaFields.ts';
 import { ALERT_RULES, type AlertRule } from './evaluateAlerts.ts';
 
 /**
@@ -89,86 +89,116 @@ export interface ValidateAlertSettingsOptions {
   readonly env?: Readonly<Record<string, string | undefined>>;
 }
 
+const RULES_SAID = (allowed: readonly string[]) => `a list of one or more of ${allowed.join(', ')}`;
+
+/** A list of alert rules, each once (a repeated one is dropped). */
+const ruleList = z
+  .array(oneOf(ALERT_RULES as readonly AlertRule[] as [AlertRule, ...AlertRule[]]), { error: (issue) => (issue.code === 'invalid_type' || issue.code === 'too_small' ? `must be ${RULES_SAID(ALERT_RULES)}` : undefined) })
+  .min(1)
+  .transform((rules) => [...new Set(rules)]);
+
+/**
+ * The `alerts` section as a zod schema (the one home of its shape, ranges and defaults): the parsed
+ * value is {@link AlertSettings}, defaults filled in, seconds turned into milliseconds, secrets read
+ * (`{ env }` from `env`, `{ file }` against `base`).
+ */
+export function alertSettingsSchema(options: Omit<ValidateAlertSettingsOptions, 'file'> = {}) {
+  const { base = '.', env = process.env } = options;
+  const secret = secretSchema({ base, env }).optional();
+  const webhook = mapping({
+    url: z
+      .string({ error: (issue) => `must be an http: or https: URL, got ${show(issue.input)}` })
+      .min(1)
+      .superRefine((v, ctx) => void runChecks(ctx, (fail) => httpUrl(v, '', fail))),
+    secret,
+    rules: ruleList.optional(),
+    timeoutSeconds: orDefault(finiteNumber(1, 120), 10),
+    retries: orDefault(wholeNumber(0, 20), 5),
+  });
+  const smtp = mapping({
+    host: text(),
+    port: z.preprocess((v) => (v === null ? undefined : v), wholeNumber(1, 65535).optional()),
+    security: orDefault(oneOf(['starttls', 'tls', 'none'], 'starttls, tls or none'), SmtpSecurity.starttls),
+    username: text().optional(),
+    password: secret,
+    rejectUnauthorized: orDefault(flag(), true),
+    timeoutSeconds: orDefault(finiteNumber(1, 300), 30),
+  }).transform((s, ctx): SmtpSettings => {
+    const checked = runChecks(ctx, (fail) => {
+      if (s.password !== undefined && s.username === undefined) fail('.password', 'needs alerts.email.smtp.username as well');
+      if (s.password !== undefined && s.security === SmtpSecurity.none) fail('.password', 'is never sent over an unencrypted connection: use security starttls or tls');
+      return true;
+    });
+    if (!checked) return z.NEVER;
+    return {
+      host: s.host,
+      // RFC 8314 §7.3 (recalled from memory): 465 for submission over implicit TLS; 587 for submission (RFC 6409).
+      port: s.port ?? (s.security === SmtpSecurity.tls ? 465 : 587),
+      security: s.security,
+      ...(s.username !== undefined && { username: s.username }),
+      ...(s.password !== undefined && { password: s.password }),
+      rejectUnauthorized: s.rejectUnauthorized,
+      timeoutMs: s.timeoutSeconds * 1000,
+    };
+  });
+  const addressText = z.string().max(320);
+  const toSaid = 'must be one address or a list of 1 to 50 addresses';
+  const email = mapping({
+    smtp,
+    from: z
+      .string({ error: (issue) => `must be an e-mail address, got ${show(issue.input)}` })
+      .max(320)
+      .transform((v, ctx) => runChecks(ctx, (fail) => address(v, '', fail)) ?? z.NEVER),
+    to: z
+      .union([addressText, z.array(addressText, { error: () => toSaid }).min(1).max(50)], { error: () => toSaid })
+      .transform((v, ctx) => runChecks(ctx, (fail) => (typeof v === 'string' ? [v] : v).map((a, i) => address(a, `[${i}]`, fail))) ?? z.NEVER),
+    rules: ruleList.optional(),
+    retries: orDefault(wholeNumber(0, 20), 5),
+  });
+  return mapping({
+    quietSeconds: orDefault(finiteNumber(0, 86_400), 300),
+    rules: orDefault(ruleList, [...ALERT_RULES]),
+    webhooks: orDefault(z.array(webhook, { error: (issue) => ((issue.code as string) === 'too_big' ? 'must have at most 20 webhooks' : 'must be a list of webhooks ({ url, secret, … })') }).max(20), []),
+    email: email.optional(),
+  }).transform((a, ctx): AlertSettings => {
+    const rules = a.rules as AlertRule[];
+    // A webhook's or the e-mail's rules are a subset of the section's.
+    const subset = (list: AlertRule[] | undefined, at: string, fail: Fail): AlertRule[] => {
+      if (list === undefined) return rules;
+      list.forEach((r, i) => {
+        if (!rules.includes(r)) fail(`${at}.rules[${i}]`, `must be one of ${rules.join(', ')}, got ${show(r)}`);
+      });
+      return list;
+    };
+    return (
+      runChecks(ctx, (fail) => {
+        const webhooks = a.webhooks.map(
+          (w, i): WebhookSettings => ({
+            url: w.url,
+            ...(w.secret !== undefined && { secret: w.secret }),
+            rules: subset(w.rules, `.webhooks[${i}]`, fail),
+            timeoutMs: w.timeoutSeconds * 1000,
+            retries: w.retries,
+          }),
+        );
+        const e = a.email;
+        const email: EmailSettings | undefined = e && { smtp: e.smtp, from: e.from, to: e.to, rules: subset(e.rules, '.email', fail), retries: e.retries };
+        if (webhooks.length === 0 && email === undefined) fail('', 'needs at least one webhook (alerts.webhooks) or alerts.email');
+        return { quietMs: a.quietSeconds * 1000, rules, webhooks, ...(email && { email }) };
+      }) ?? z.NEVER
+    );
+  });
+}
+
 /**
  * Validates a parsed `alerts` section (defaults filled in, secrets read); throws ConfigError naming
- * the file and field, e.g. `site.yaml: alerts.webhooks[0].url must be an http: or https: URL, got "ftp://x"`.
+ * the file and field, e.g. `site.yaml: alerts.webhooks[0].url must be an http: or https: URL, got "ftp:"`.
  */
 export function validateAlertSettings(raw: unknown, options: ValidateAlertSettingsOptions = {}): AlertSettings {
-  const { file = 'config', base = '.', env = process.env } = options;
-  const fail: Fail = (path, message) => {
-    throw new ConfigError(`${file}: ${path} ${message}`);
-  };
-  const a = mapping(raw, 'alerts', ['quietSeconds', 'rules', 'webhooks', 'email'], fail);
-  const quietSeconds = num(a.quietSeconds ?? 300, 'alerts.quietSeconds', 0, 86_400, fail);
-  const rules = ruleList(a.rules ?? ALERT_RULES, 'alerts.rules', ALERT_RULES, fail);
-  const secret = (v: unknown, at: string) => readSecret(v, at, fail, { base, env });
-
-  const hooksRaw = a.webhooks ?? [];
-  if (!Array.isArray(hooksRaw)) fail('alerts.webhooks', 'must be a list of webhooks ({ url, secret, … })');
-  if ((hooksRaw as unknown[]).length > 20) fail('alerts.webhooks', 'must have at most 20 webhooks');
-  const webhooks = (hooksRaw as unknown[]).map((h, i): WebhookSettings => {
-    const at = `alerts.webhooks[${i}]`;
-    const w = mapping(h, at, ['url', 'secret', 'rules', 'timeoutSeconds', 'retries'], fail);
-    const url = httpUrl(w.url, `${at}.url`, fail);
-    const s = w.secret === undefined ? undefined : secret(w.secret, `${at}.secret`);
-    return {
-      url,
-      ...(s !== undefined && { secret: s }),
-      rules: w.rules === undefined ? rules : ruleList(w.rules, `${at}.rules`, rules, fail),
-      timeoutMs: num(w.timeoutSeconds ?? 10, `${at}.timeoutSeconds`, 1, 120, fail) * 1000,
-      retries: int(w.retries ?? 5, `${at}.retries`, 0, 20, fail),
-    };
-  });
-
-  let email: EmailSettings | undefined;
-  if (a.email !== undefined) {
-    const e = mapping(a.email, 'alerts.email', ['smtp', 'from', 'to', 'rules', 'retries'], fail);
-    const s = mapping(e.smtp, 'alerts.email.smtp', ['host', 'port', 'security', 'username', 'password', 'rejectUnauthorized', 'timeoutSeconds'], fail);
-    const host = text(s.host, 'alerts.email.smtp.host', fail);
-    const security = s.security ?? SmtpSecurity.starttls;
-    if (!Object.values(SmtpSecurity).includes(security as SmtpSecurity)) fail('alerts.email.smtp.security', `must be starttls, tls or none, got ${show(security)}`);
-    const port = int(s.port ?? (security === SmtpSecurity.tls ? 465 : 587), 'alerts.email.smtp.port', 1, 65535, fail);
-    const username = s.username === undefined ? undefined : text(s.username, 'alerts.email.smtp.username', fail);
-    const password = s.password === undefined ? undefined : secret(s.password, 'alerts.email.smtp.password');
-    if (password !== undefined && username === undefined) fail('alerts.email.smtp.password', 'needs alerts.email.smtp.username as well');
-    if (password !== undefined && security === SmtpSecurity.none) fail('alerts.email.smtp.password', 'is never sent over an unencrypted connection: use security starttls or tls');
-    const rejectUnauthorized = s.rejectUnauthorized ?? true;
-    if (typeof rejectUnauthorized !== 'boolean') fail('alerts.email.smtp.rejectUnauthorized', `must be true or false, got ${show(rejectUnauthorized)}`);
-    const toRaw = typeof e.to === 'string' ? [e.to] : e.to;
-    if (!Array.isArray(toRaw) || toRaw.length === 0 || toRaw.length > 50) fail('alerts.email.to', 'must be one address or a list of 1 to 50 addresses');
-    const to = (toRaw as unknown[]).map((v, i) => address(v, `alerts.email.to[${i}]`, fail));
-    email = {
-      smtp: {
-        host,
-        port,
-        security: security as SmtpSecurity,
-        ...(username !== undefined && { username }),
-        ...(password !== undefined && { password }),
-        rejectUnauthorized: rejectUnauthorized as boolean,
-        timeoutMs: num(s.timeoutSeconds ?? 30, 'alerts.email.smtp.timeoutSeconds', 1, 300, fail) * 1000,
-      },
-      from: address(e.from, 'alerts.email.from', fail),
-      to,
-      rules: e.rules === undefined ? rules : ruleList(e.rules, 'alerts.email.rules', rules, fail),
-      retries: int(e.retries ?? 5, 'alerts.email.retries', 0, 20, fail),
-    };
-  }
-  if (webhooks.length === 0 && email === undefined) fail('alerts', 'needs at least one webhook (alerts.webhooks) or alerts.email');
-  return { quietMs: quietSeconds * 1000, rules, webhooks, ...(email && { email }) };
+  return parseOrThrow(alertSettingsSchema(options), raw, options.file ?? 'config', 'alerts');
 }
 
-function ruleList(v: unknown, at: string, allowed: readonly AlertRule[], fail: Fail): AlertRule[] {
-  if (!Array.isArray(v) || v.length === 0) return fail(at, `must be a list of one or more of ${allowed.join(', ')}`);
-  const out: AlertRule[] = [];
-  v.forEach((r, i) => {
-    if (typeof r !== 'string' || !(allowed as readonly string[]).includes(r)) fail(`${at}[${i}]`, `must be one of ${allowed.join(', ')}, got ${show(r)}`);
-    if (!out.includes(r as AlertRule)) out.push(r as AlertRule);
-  });
-  return out;
-}
-
-function httpUrl(v: unknown, at: string, fail: Fail): string {
-  if (typeof v !== 'string' || v === '') return fail(at, `must be an http: or https: URL, got ${show(v)}`);
+function httpUrl(v: string, at: string, fail: Fail): string {
   let parsed: URL;
   try {
     parsed = new URL(v);
@@ -182,8 +212,7 @@ function httpUrl(v: unknown, at: string, fail: Fail): string {
 }
 
 /** An e-mail address, optionally with a display name: `a@b.example` or `Name <a@b.example>`. */
-function address(v: unknown, at: string, fail: Fail): string {
-  if (typeof v !== 'string' || v.length > 320) return fail(at, `must be an e-mail address, got ${show(v)}`);
+function address(v: string, at: string, fail: Fail): string {
   const m = /^(?:[^<>\r\n]*<([^<>\s]+)>|([^<>\s]+))$/.exec(v.trim());
   const bare = m?.[1] ?? m?.[2];
   // Not RFC 5322 in full (common practice: one @, no spaces, a dot in the domain).

@@ -1,6 +1,8 @@
 import { dirname, resolve } from 'node:path';
-import { configFail, readConfigDocument, record, validateCommonSections, type CommonSections } from '../../config/loadConfig.ts';
-import { MqttRole, validateMqttSettings, type MqttSettings } from './mqttSettings.ts';
+import { collectorConfigSchema } from '../../config/configSchema.ts';
+import { readConfigDocument, type ResiduumConfig } from '../../config/loadConfig.ts';
+import { parseOrThrow } from '../../config/schemaFields.ts';
+import type { MqttSettings } from './mqttSettings.ts';
 
 /**
  * The configuration of `residuum collect`: like the counting service's (same `site`, `storage`
@@ -13,7 +15,7 @@ import { MqttRole, validateMqttSettings, type MqttSettings } from './mqttSetting
  * mqtt: { url: "mqtts://broker.example.net:8883", username: collector, password: secret }
  * ```
  */
-export interface CollectorConfig extends CommonSections {
+export interface CollectorConfig extends Pick<ResiduumConfig, 'site' | 'storage' | 'server'> {
   /** The file it was read from (for messages). */
   readonly file: string;
   /** `storage.url`: the PostgreSQL central store (`postgres://user@host:5432/db`); absent: SQLite in the data folder. */
@@ -27,42 +29,11 @@ export function loadCollectorConfig(file: string): CollectorConfig {
 }
 
 /**
- * Validates a parsed collector configuration; unknown keys are errors and every message names the
- * file and field, e.g. `collect.yaml: mqtt.url must start with mqtt:, mqtts:, ws:, wss:, got "http:"`.
- * The `site`, `storage` and `server` sections are the counting service's (validateCommonSections).
+ * Validates a parsed collector configuration with collectorConfigSchema (src/config/configSchema.ts);
+ * unknown keys are errors and every message names the file and field, e.g.
+ * `collect.yaml: mqtt.url must start with mqtt:, mqtts:, ws:, wss:, got "http:"`.
+ * The `site`, `storage` and `server` sections are the counting service's.
  */
 export function validateCollectorConfig(doc: unknown, file = 'config'): CollectorConfig {
-  const fail = configFail(file);
-  const root = record(doc, 'configuration', fail, ['site', 'storage', 'server', 'mqtt']);
-  if (root.mqtt === undefined) fail('mqtt', 'is required: the broker to collect from (mqtt: { url: mqtt://… })');
-  // storage.url is the collector's own key; the rest of storage is the counting service's.
-  let storageUrl: string | undefined;
-  let rest = root;
-  if (typeof root.storage === 'object' && root.storage !== null && !Array.isArray(root.storage) && 'url' in root.storage) {
-    const { url, ...storage } = root.storage as Record<string, unknown>;
-    storageUrl = postgresUrl(url, fail);
-    rest = { ...root, storage };
-  }
-  return {
-    file,
-    ...validateCommonSections(rest, fail, 'Residuum collector'),
-    ...(storageUrl !== undefined && { storageUrl }),
-    mqtt: validateMqttSettings(root.mqtt, { file, base: dirname(resolve(file)), role: MqttRole.collector }),
-  };
-}
-
-/** A `postgres:` or `postgresql:` URL naming a host and a database. */
-function postgresUrl(v: unknown, fail: (path: string, message: string) => never): string {
-  if (typeof v !== 'string' || v === '') return fail('storage.url', `must be a PostgreSQL URL such as postgres://residuum@127.0.0.1:5432/residuum, got ${JSON.stringify(v)}`);
-  let u: URL;
-  try {
-    u = new URL(v);
-  } catch {
-    return fail('storage.url', 'must be a PostgreSQL URL such as postgres://residuum@127.0.0.1:5432/residuum');
-  }
-  // Never echo the URL itself: it may hold a password.
-  if (u.protocol !== 'postgres:' && u.protocol !== 'postgresql:') fail('storage.url', `must start with postgres: or postgresql:, got ${JSON.stringify(u.protocol)}`);
-  if (u.hostname === '') fail('storage.url', 'must name a host (postgres://user@host:5432/db)');
-  if (u.pathname.length <= 1) fail('storage.url', 'must name a database (postgres://user@host:5432/db)');
-  return v;
+  return { file, ...parseOrThrow(collectorConfigSchema({ base: dirname(resolve(file)) }), doc, file) };
 }

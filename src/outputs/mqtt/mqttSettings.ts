@@ -1,8 +1,9 @@
 import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
+import { z } from 'zod';
 import { ConfigError } from '../../config/ConfigError.ts';
-import { readSecret } from '../../config/readSecret.ts';
-import { bool, int, mapping, num, show, text, type Fail } from '../../config/settingFields.ts';
+import { secretSchema } from '../../config/readSecret.ts';
+import { finiteNumber, flag, mapping, orDefault, parseOrThrow, runChecks, show, text, wholeNumber, type Fail } from '../../config/schemaFields.ts';
 import { SITE_ID_PATTERN } from './topics.ts';
 
 /**
@@ -95,14 +96,87 @@ export interface ValidateMqttSettingsOptions {
   readonly role?: MqttRole;
 }
 
-const COMMON_KEYS = ['url', 'topicPrefix', 'qos', 'username', 'password', 'clientId', 'tls'];
-const COLLECTOR_KEYS = ['sessionExpirySeconds'];
-const PUBLISHER_KEYS = ['site', 'queueLimit', 'stateIntervalSeconds', 'stateRefreshSeconds', 'lowFill', 'discovery', 'discoveryPrefix'];
-const TLS_KEYS = ['ca', 'cert', 'key', 'rejectUnauthorized'];
 const PROTOCOLS = ['mqtt:', 'mqtts:', 'ws:', 'wss:'];
 
 /** MQTT client identifiers we accept: 1..128 of letters, digits, `.`, `_`, `:`, `-`. */
 const CLIENT_ID_PATTERN = /^[A-Za-z0-9._:-]{1,128}$/;
+
+/**
+ * The `mqtt` section as a zod schema (the one home of its shape, ranges and defaults): the parsed
+ * value is {@link MqttSettings} with defaults filled in, TLS paths resolved against `base` and the
+ * password read. The keys are the role's: a collector's section refuses the publisher-only keys
+ * and the other way round.
+ */
+export function mqttSettingsSchema(options: Omit<ValidateMqttSettingsOptions, 'file'> = {}) {
+  const { base = '.', env = process.env, at = 'mqtt', role = MqttRole.publisher } = options;
+  const common = {
+    url: z
+      .string({ error: (issue) => `must be the broker's URL, e.g. mqtt://127.0.0.1:1883, got ${show(issue.input)}` })
+      .min(1)
+      .superRefine((v, ctx) => void runChecks(ctx, (fail) => brokerUrl(v, '', fail))),
+    topicPrefix: orDefault(topicPrefix(), 'residuum'),
+    qos: orDefault(z.literal([0, 1, 2], { error: (issue) => `must be 0, 1 or 2, got ${show(issue.input)}` }), 1),
+    username: text().optional(),
+    // Text, { env: NAME } or { file: path }; a password file others may read is refused.
+    password: secretSchema({ base, env, privateFile: true }).optional(),
+    clientId: z.string({ error: (issue) => `must be 1–128 letters, digits, ".", "_", ":" or "-", got ${show(issue.input)}` }).regex(CLIENT_ID_PATTERN).optional(),
+    tls: mapping({ ca: text().optional(), cert: text().optional(), key: text().optional(), rejectUnauthorized: orDefault(flag(), true) })
+      .transform((t, ctx): MqttTlsSettings => {
+        const path = (key: 'ca' | 'cert' | 'key') => (t[key] === undefined ? undefined : resolve(base, t[key]));
+        const [ca, cert, key] = [path('ca'), path('cert'), path('key')];
+        if ((cert === undefined) !== (key === undefined)) {
+          runChecks(ctx, (fail) => fail(`.${cert === undefined ? 'cert' : 'key'}`, 'is needed too: a client certificate goes with its key'));
+          return z.NEVER;
+        }
+        return { ...(ca !== undefined && { ca }), ...(cert !== undefined && { cert, key }), rejectUnauthorized: t.rejectUnauthorized };
+      })
+      .optional(),
+  };
+  const publisher = {
+    site: z.string({ error: (issue) => `must be 1–32 letters and digits, with single "-" or "_" between them, got ${show(issue.input)}` }).regex(SITE_ID_PATTERN).optional(),
+    queueLimit: orDefault(wholeNumber(1, 1_000_000), 10_000),
+    stateIntervalSeconds: orDefault(finiteNumber(0, 3600), 1),
+    stateRefreshSeconds: orDefault(finiteNumber(1, 86_400), 60),
+    lowFill: orDefault(finiteNumber(0, 1), 0.2),
+    discovery: orDefault(flag(), false),
+    discoveryPrefix: orDefault(topicPrefix(), 'homeassistant'),
+  };
+  const collector = {
+    // MQTT 5.0 §3.1.2.11.2 (recalled from memory): a four-byte integer.
+    sessionExpirySeconds: wholeNumber(1, 4_294_967_295).optional(),
+  };
+  // The publisher-only settings a collector leaves out still have their defaults (as before).
+  const defaults = { queueLimit: 10_000, stateIntervalSeconds: 1, stateRefreshSeconds: 60, lowFill: 0.2, discovery: false, discoveryPrefix: 'homeassistant' };
+  const section = role === MqttRole.publisher ? mapping({ ...common, ...publisher }) : mapping({ ...common, ...collector });
+  return section.transform((m: Record<string, unknown>, ctx): MqttSettings => {
+    const s = { ...defaults, ...m } as Omit<MqttSettings, 'qos'> & { qos: MqttQos };
+    const checked = runChecks(ctx, (fail) => {
+      // MQTT 3.1.1 §3.1.2.9 (recalled from memory): the password flag must be 0 when the user name flag is 0.
+      if (s.password !== undefined && s.username === undefined) fail('.password', `needs ${at}.username as well (MQTT sends a password only with a user name)`);
+      const protocol = new URL(s.url).protocol;
+      if (s.tls !== undefined && protocol !== 'mqtts:' && protocol !== 'wss:') fail('.tls', `needs a mqtts: or wss: url, but ${at}.url is ${protocol}`);
+      return true;
+    });
+    if (!checked) return z.NEVER;
+    return {
+      url: s.url,
+      topicPrefix: s.topicPrefix,
+      qos: s.qos,
+      ...(s.username !== undefined && { username: s.username }),
+      ...(s.password !== undefined && { password: s.password }),
+      ...(s.clientId !== undefined && { clientId: s.clientId }),
+      ...(s.tls !== undefined && { tls: s.tls }),
+      ...(s.site !== undefined && { site: s.site }),
+      ...(s.sessionExpirySeconds !== undefined && { sessionExpirySeconds: s.sessionExpirySeconds }),
+      queueLimit: s.queueLimit,
+      stateIntervalSeconds: s.stateIntervalSeconds,
+      stateRefreshSeconds: s.stateRefreshSeconds,
+      lowFill: s.lowFill,
+      discovery: s.discovery,
+      discoveryPrefix: s.discoveryPrefix,
+    };
+  });
+}
 
 /**
  * Validates a parsed `mqtt` section; returns it with defaults filled in and TLS paths resolved.
@@ -113,67 +187,8 @@ const CLIENT_ID_PATTERN = /^[A-Za-z0-9._:-]{1,128}$/;
  * `{ url: 'mqtt://127.0.0.1:1883', topicPrefix: 'residuum', qos: 1, queueLimit: 10000, … }`.
  */
 export function validateMqttSettings(raw: unknown, options: ValidateMqttSettingsOptions = {}): MqttSettings {
-  const { file = 'config', base = '.', env = process.env, at = 'mqtt', role = MqttRole.publisher } = options;
-  const fail = (path: string, message: string): never => {
-    throw new ConfigError(`${file}: ${path} ${message}`);
-  };
-  const keys = role === MqttRole.publisher ? [...COMMON_KEYS, ...PUBLISHER_KEYS] : [...COMMON_KEYS, ...COLLECTOR_KEYS];
-  const m = mapping(raw, at, keys, fail);
-
-  const url = brokerUrl(m.url, `${at}.url`, fail);
-  const topicPrefix = prefix(m.topicPrefix ?? 'residuum', `${at}.topicPrefix`, fail);
-  const qos = m.qos ?? 1;
-  if (qos !== 0 && qos !== 1 && qos !== 2) fail(`${at}.qos`, `must be 0, 1 or 2, got ${show(qos)}`);
-  const username = m.username === undefined ? undefined : text(m.username, `${at}.username`, fail);
-  // Text, { env: NAME } or { file: path }; a password file others may read is refused.
-  const password = m.password === undefined ? undefined : readSecret(m.password, `${at}.password`, fail, { base, env, privateFile: true });
-  // MQTT 3.1.1 §3.1.2.9 (recalled from memory): the password flag must be 0 when the user name flag is 0.
-  if (password !== undefined && username === undefined) fail(`${at}.password`, `needs ${at}.username as well (MQTT sends a password only with a user name)`);
-  let clientId: string | undefined;
-  if (m.clientId !== undefined) {
-    if (typeof m.clientId !== 'string' || !CLIENT_ID_PATTERN.test(m.clientId)) {
-      fail(`${at}.clientId`, `must be 1–128 letters, digits, ".", "_", ":" or "-", got ${show(m.clientId)}`);
-    }
-    clientId = m.clientId as string;
-  }
-  let tls: MqttTlsSettings | undefined;
-  if (m.tls !== undefined) {
-    const protocol = new URL(url).protocol;
-    if (protocol !== 'mqtts:' && protocol !== 'wss:') fail(`${at}.tls`, `needs a mqtts: or wss: url, but ${at}.url is ${protocol}`);
-    const t = mapping(m.tls, `${at}.tls`, TLS_KEYS, fail);
-    const path = (key: string) => (t[key] === undefined ? undefined : resolve(base, text(t[key], `${at}.tls.${key}`, fail)));
-    const rejectUnauthorized = t.rejectUnauthorized ?? true;
-    if (typeof rejectUnauthorized !== 'boolean') fail(`${at}.tls.rejectUnauthorized`, `must be true or false, got ${show(rejectUnauthorized)}`);
-    const cert = path('cert');
-    const key = path('key');
-    if ((cert === undefined) !== (key === undefined)) fail(`${at}.tls.${cert === undefined ? 'cert' : 'key'}`, `is needed too: a client certificate goes with its key`);
-    const ca = path('ca');
-    tls = { ...(ca !== undefined && { ca }), ...(cert !== undefined && { cert, key }), rejectUnauthorized: rejectUnauthorized as boolean };
-  }
-  let site: string | undefined;
-  if (m.site !== undefined) {
-    if (typeof m.site !== 'string' || !SITE_ID_PATTERN.test(m.site)) {
-      fail(`${at}.site`, `must be 1–32 letters and digits, with single "-" or "_" between them, got ${show(m.site)}`);
-    }
-    site = m.site as string;
-  }
-  return {
-    url,
-    topicPrefix,
-    qos: qos as MqttQos,
-    ...(username !== undefined && { username }),
-    ...(password !== undefined && { password }),
-    ...(clientId !== undefined && { clientId }),
-    ...(tls !== undefined && { tls }),
-    ...(site !== undefined && { site }),
-    ...(m.sessionExpirySeconds !== undefined && { sessionExpirySeconds: int(m.sessionExpirySeconds, `${at}.sessionExpirySeconds`, 1, 4_294_967_295, fail) }),
-    queueLimit: int(m.queueLimit ?? 10_000, `${at}.queueLimit`, 1, 1_000_000, fail),
-    stateIntervalSeconds: num(m.stateIntervalSeconds ?? 1, `${at}.stateIntervalSeconds`, 0, 3600, fail),
-    stateRefreshSeconds: num(m.stateRefreshSeconds ?? 60, `${at}.stateRefreshSeconds`, 1, 86_400, fail),
-    lowFill: num(m.lowFill ?? 0.2, `${at}.lowFill`, 0, 1, fail),
-    discovery: bool(m.discovery ?? false, `${at}.discovery`, fail),
-    discoveryPrefix: prefix(m.discoveryPrefix ?? 'homeassistant', `${at}.discoveryPrefix`, fail),
-  };
+  const { file = 'config', at = 'mqtt' } = options;
+  return parseOrThrow(mqttSettingsSchema(options), raw, file, at);
 }
 
 /** TLS material read from the configured files, for the MQTT client. */
@@ -207,8 +222,7 @@ export function readMqttTls(settings: MqttSettings, at = 'mqtt'): MqttTlsMateria
   return { ...(ca && { ca }), ...(cert && { cert }), ...(key && { key }), rejectUnauthorized: tls.rejectUnauthorized };
 }
 
-function brokerUrl(v: unknown, at: string, fail: Fail): string {
-  if (typeof v !== 'string' || v === '') return fail(at, `must be the broker's URL, e.g. mqtt://127.0.0.1:1883, got ${show(v)}`);
+function brokerUrl(v: string, at: string, fail: Fail): string {
   let parsed: URL;
   try {
     parsed = new URL(v);
@@ -222,8 +236,16 @@ function brokerUrl(v: unknown, at: string, fail: Fail): string {
   return v;
 }
 
-function prefix(v: unknown, at: string, fail: Fail): string {
-  if (typeof v !== 'string' || v.length === 0 || v.length > 200) return fail(at, `must be 1–200 characters, got ${show(v)}`);
+/** A topic prefix: 1..200 characters, no wildcard, not a broker's own topic, no empty level. */
+function topicPrefix() {
+  return z
+    .string({ error: (issue) => `must be 1–200 characters, got ${show(issue.input)}` })
+    .min(1)
+    .max(200)
+    .superRefine((v, ctx) => void runChecks(ctx, (fail) => prefixRules(v, '', fail)));
+}
+
+function prefixRules(v: string, at: string, fail: Fail): string {
   // MQTT 3.1.1 §4.7 (recalled from memory): + and # are wildcards, never part of a topic name;
   // topics starting with $ are the broker's own ($SYS); a NUL is not allowed in any topic.
   if (/[+#\u0000]/.test(v)) fail(at, `must not contain "+", "#" or NUL (MQTT wildcards), got ${show(v)}`);
