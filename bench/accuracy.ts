@@ -5,6 +5,7 @@
  * blob stages). Prints MAE, exact share and bias per scene and method; `--json` one JSON object.
  *
  *   npm run accuracy [-- --scene plaza] [-- --frames 1200] [-- --calibrate 10] [-- --json]
+ *   npm run accuracy -- --scene plaza --options '{"groupShare":0,"standSeconds":0,"shadows":false}'
  *
  * --calibrate N gives evaluate the true counts of N frames spread over the sequence as calibration
  * (a user saying "there are N people here now" N times); those frames are not scored.
@@ -23,6 +24,8 @@ const { values } = parseArgs({
     frames: { type: 'string', default: '3000' },
     learn: { type: 'string', default: '500' },
     calibrate: { type: 'string', default: '0' },
+    // Scene options as JSON (e.g. the plaza's groupShare, standSeconds, shadows), to switch difficulties off one by one.
+    options: { type: 'string', default: '{}' },
 
     json: { type: 'boolean', default: false },
     each: { type: 'boolean', default: false },
@@ -32,11 +35,13 @@ const { values } = parseArgs({
 const frames = Number(values.frames);
 const learnFrames = Number(values.learn);
 
+const sceneOptions = JSON.parse(values.options!) as Record<string, unknown>;
+if (typeof sceneOptions !== 'object' || sceneOptions === null || Array.isArray(sceneOptions)) throw new RangeError(`--options must be a JSON object, got ${values.options}`);
 const scenes = (values.scene ?? sceneIds.filter((id) => id !== 'stock-room')) as SceneId[];
 const results: Record<string, unknown> = {};
 
 for (const id of scenes) {
-  const scene = createScene(id);
+  const scene = createScene(id, sceneOptions);
   // No person size given: the counter must find it.
   const zones: Zone[] = scene.zones.map(({ personArea, minBlobArea, ...zone }) => (zone.kind === 'room' ? zone : { ...zone, personArea, minBlobArea }));
   // Spread over the frames counted, as residuum learn samples a recording.

@@ -121,7 +121,7 @@ export function createBlobFollower(zones: readonly PreparedZone[], size: { width
       if (!pointInPolygon((ax + 0.5) / width, (ay + 0.5) / height, zone.polygon)) continue;
       if (claimed.length === 0) {
         const person = zone.personPixelsAt ? zone.personPixelsAt(blob.footY) : zone.personPixels;
-        people = peopleInBlob(blob.area, person);
+        people = peopleInBlob(blob.area, person, zone.visibleShare);
         fraction = person > 0 ? blob.area / person : 1;
       }
       claimed.push(zone);
