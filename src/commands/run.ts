@@ -6,6 +6,7 @@ import { chmodSync, mkdirSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { loadConfig, type CameraConfig, type ResiduumConfig } from '../config/loadConfig.ts';
 import { createCameraHost, type CameraHost } from '../counting/cameraHost.ts';
+import { prepareWorkers } from '../counting/startWorker.ts';
 import { createShadowRoom } from '../frames/synthetic/shadowRoom.ts';
 import type { ChromaticityModel } from '../vision/chromaticityModel.ts';
 import { fitChromaticity } from '../vision/fitChromaticity.ts';
@@ -216,6 +217,9 @@ export async function startService(config: ResiduumConfig, options: StartService
   };
   const stopCameras = () => Promise.all([...hosts.values()].map((h) => h.stop()));
   try {
+    // Each worker loads one prebuilt file (built now if a source changed), or, when that cannot be built, its sources through tsx.
+    const workers = await prepareWorkers();
+    if ('loader' in workers) log(`camera workers load their TypeScript sources through tsx (some 40 MB more per camera): ${workers.loader}`);
     // The zones counted are the database's (see applyConfigZones), not necessarily the file's.
     const cameras = config.cameras.map((camera) => {
       store.upsertCamera({ id: camera.id, name: camera.name });

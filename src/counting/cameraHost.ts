@@ -1,5 +1,5 @@
 import { EventEmitter } from 'node:events';
-import { Worker } from 'node:worker_threads';
+import type { Worker } from 'node:worker_threads';
 import type { EventLoopUtilization } from 'node:perf_hooks';
 import type { CameraConfig } from './cameraConfig.ts';
 import type { Mask } from '../domain/frame.ts';
@@ -10,6 +10,7 @@ import type { CameraLive, LearnStatus, ZoneLive } from './cameraPipeline.ts';
 import type { CameraWorkerData, FromWorker, ToWorker, WorkerFault, WorkerHeap } from './cameraWorkerProtocol.ts';
 import { shareModel } from './shareModel.ts';
 import { sharedMask } from './sharedMask.ts';
+import { startWorker } from './startWorker.ts';
 import type { Zone } from '../domain/zone.ts';
 import { CalibrationError, type ZoneCalibrationStatus } from './zoneCalibration.ts';
 import type { Log } from '../domain/log.ts';
@@ -207,8 +208,8 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     startedAt = lastMessageAt = Date.now();
     let w: Worker;
     try {
-      w = new Worker(new URL('./workerBootstrap.mjs', import.meta.url), {
-        workerData: { module: new URL('./cameraWorker.ts', import.meta.url).href, ...data },
+      w = startWorker('cameraWorker', {
+        workerData: data,
         ...(youngGenerationMb !== undefined && { resourceLimits: { maxYoungGenerationSizeMb: youngGenerationMb } }),
       });
     } catch (error) {
@@ -227,7 +228,7 @@ export function createCameraHost(options: CameraHostOptions): CameraHost {
     if (stallMs > 0) {
       watchdog = setInterval(() => {
         const silent = Date.now() - lastMessageAt;
-        // Starting (loading the modules through tsx) may take a while on a busy machine.
+        // Starting (loading the modules, through tsx without a bundle) may take a while on a busy machine.
         const limit = workerReady ? stallMs : Math.max(stallMs, STARTUP_MS);
         if (worker !== w || silent <= limit || failure !== undefined) return;
         failure = `unresponsive for ${Math.round(silent / 1000)} s`;

@@ -1,5 +1,5 @@
-import { Worker } from 'node:worker_threads';
 import type { FitSubspaceOptions, SubspaceFit } from '../vision/fitSubspace.ts';
+import { startWorker } from './startWorker.ts';
 
 /**
  * How the service learns from a live camera (the dashboard's "Learn again", and a camera's first
@@ -20,8 +20,8 @@ export function learnInWorker(
   options: FitSubspaceOptions = {},
 ): Promise<SubspaceFit> {
   return new Promise((resolve, reject) => {
-    const worker = new Worker(new URL('./workerBootstrap.mjs', import.meta.url), {
-      workerData: { module: new URL('./learnWorker.ts', import.meta.url).href, frames, size: { width: size.width, height: size.height }, options },
+    const worker = startWorker('learnWorker', {
+      workerData: { frames, size: { width: size.width, height: size.height }, options },
       transferList: frames.map((f) => f.buffer as ArrayBuffer),
     });
     let settled = false;
