@@ -1,6 +1,8 @@
 import { createMask, type GreyFrame, type Mask } from '../domain/frame.ts';
 import { adaptBackground, adaptBackgroundScratch } from '../vision/adaptBackground.ts';
 import { dilate } from '../vision/dilate.ts';
+import { findGhosts, type FindGhostsOptions } from '../vision/findGhosts.ts';
+import type { Blob } from '../vision/labelComponents.ts';
 import { rescaleBasis } from '../vision/rescaleBasis.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { createCounter, wholeFrameZone, type Counter, type CounterOptions } from './createCounter.ts';
@@ -31,6 +33,14 @@ export interface DriftingCounterOptions extends CounterOptions {
   maxNoiseScale?: number;
   /** No update while more than this share of the frame is foreground, 0..1; default 0.5. */
   maxForegroundShare?: number;
+  /**
+   * Clear ghosts (see findGhosts): foreground whose outline is in the background and not in the
+   * frame — someone who stood still while the empty scene was learned and has walked off — is
+   * taken into the mean once it has been a ghost at two updates in a row. Only while following
+   * drift; default false (not yet safe for people sitting still: some are taken for ghosts).
+   * An object: the options of findGhosts.
+   */
+  clearGhosts?: boolean | FindGhostsOptions;
   /** The clock, epoch ms, read once per counted frame; default Date.now (frames are counted as they arrive). */
   clock?: () => number;
   /**
@@ -51,6 +61,8 @@ export interface DriftState {
   readonly absorbedPixels: number;
   /** Times the eigen-images were rescaled to the adapted mean's light. */
   readonly rescales: number;
+  /** Pixels cleared as ghosts so far (counted once per clearing). */
+  readonly ghostPixels: number;
 }
 
 export interface DriftingCounter extends Counter {
@@ -58,6 +70,12 @@ export interface DriftingCounter extends Counter {
   model(): Subspace;
   /** How far the model has drifted from the learned one. */
   driftState(): DriftState;
+  /**
+   * What clearing ghosts changed in the mean, per pixel (0 where no ghost was cleared): added to
+   * the learned mean, it gives the empty scene without what had gone (see repairedModel in
+   * findPersonSize). A view of the counter's own array.
+   */
+  ghostRepair(): Float32Array;
 }
 
 /** The adapted mean of each drifting counter, for `continueFrom`. */
@@ -116,6 +134,7 @@ export function createDriftingCounter(
     maxForegroundShare = 0.5,
     clock = Date.now,
     continueFrom,
+    clearGhosts = false,
   } = options;
   if (!(driftSeconds > 0)) throw new RangeError(`driftSeconds must be > 0, got ${driftSeconds}`);
   if (!(rescaleAfter > 0)) throw new RangeError(`rescaleAfter must be > 0, got ${rescaleAfter}`);
@@ -132,7 +151,8 @@ export function createDriftingCounter(
       count: (frame, colour) => plain.count(frame, colour),
       lastMask: () => plain.lastMask(),
       model: () => model,
-      driftState: () => ({ updates: 0, meanShift: 0, absorbedPixels: 0, rescales: 0 }),
+      driftState: () => ({ updates: 0, meanShift: 0, absorbedPixels: 0, rescales: 0, ghostPixels: 0 }),
+      ghostRepair: () => noRepair,
     };
   }
 
@@ -175,7 +195,15 @@ export function createDriftingCounter(
     for (let i = 0; i < d; i++) if (members[i] > 0 && allow[i] === members[i]) absorbAfter[i] = longest[i];
   }
   const foregroundSince = new Float64Array(absorbing ? d : 0).fill(NaN);
-  const absorb = new Uint8Array(absorbing ? d : 0);
+  const ghosts = adaptToDrift && clearGhosts !== false;
+  const ghostOptions = typeof clearGhosts === 'object' ? clearGhosts : {};
+  const absorb = new Uint8Array(absorbing || ghosts ? d : 0);
+  // Updates in a row at which the pixel was part of a ghost, and what clearing changed the mean by.
+  const ghostRuns = new Uint8Array(ghosts ? d : 0);
+  const ghostSeen = new Uint8Array(ghosts ? d : 0);
+  const repair = new Float32Array(ghosts ? d : 0);
+  const beforeClearing = new Float32Array(ghosts ? d : 0);
+  let ghostPixels = 0;
 
   const near = createMask(width, height);
   const background = createMask(width, height);
@@ -188,15 +216,15 @@ export function createDriftingCounter(
   let lastRescale: number | undefined;
   let rescales = 0;
 
-  function update(frame: GreyFrame, mask: Mask, noiseScale: number, now: number): void {
+  function update(frame: GreyFrame, mask: Mask, blobs: readonly Blob[], noiseScale: number, now: number): void {
     const dt = lastUpdate === undefined ? 0 : Math.min((now - lastUpdate) / 1000, driftSeconds / 2);
     lastUpdate = now;
     const rate = adaptToDrift && dt > 0 ? 1 - Math.exp(-dt / driftSeconds) : 0;
     let absorbNow = 0;
+    if (absorb.length > 0) absorb.fill(0);
     if (absorbing) {
       const fg = mask.data;
       for (let i = 0; i < d; i++) {
-        absorb[i] = 0;
         if (fg[i] === 0) {
           foregroundSince[i] = NaN;
         } else if (Number.isNaN(foregroundSince[i])) {
@@ -207,6 +235,11 @@ export function createDriftingCounter(
           absorbNow++;
         }
       }
+    }
+    let ghostNow = 0;
+    if (ghosts) {
+      ghostNow = markGhosts(frame, mask, blobs);
+      absorbNow += ghostNow;
     }
     if (rate === 0 && absorbNow === 0) return;
     dilate(mask, { radius: margin, out: near, scratch: morphScratch });
@@ -226,6 +259,15 @@ export function createDriftingCounter(
     inner.refreshMean();
     updates++;
     absorbedPixels += step.absorbed;
+    if (ghostNow > 0) {
+      for (let i = 0; i < d; i++) {
+        if (ghostRuns[i] >= GHOST_UPDATES) {
+          repair[i] += own.mean[i] - beforeClearing[i];
+          ghostRuns[i] = 0;
+        }
+      }
+      ghostPixels += ghostNow;
+    }
     let shift = 0;
     let change = 0;
     const learned = model.mean;
@@ -244,6 +286,32 @@ export function createDriftingCounter(
         lastRescale = now;
       }
     }
+  }
+
+  /**
+   * Marks for absorption the pixels that have been part of a ghost blob at GHOST_UPDATES updates
+   * in a row (a person passing over the place breaks the run); returns how many.
+   */
+  function markGhosts(frame: GreyFrame, mask: Mask, blobs: readonly Blob[]): number {
+    ghostSeen.fill(0);
+    const fg = mask.data;
+    for (const ghost of findGhosts(frame, own.mean, mask, blobs, ghostOptions)) {
+      for (let y = ghost.y0; y <= ghost.y1; y++) {
+        for (let p = y * width + ghost.x0, end = y * width + ghost.x1; p <= end; p++) ghostSeen[p] = fg[p];
+      }
+    }
+    let marked = 0;
+    for (let i = 0; i < d; i++) {
+      if (ghostSeen[i] === 0) {
+        ghostRuns[i] = 0;
+      } else if (++ghostRuns[i] >= GHOST_UPDATES) {
+        ghostRuns[i] = GHOST_UPDATES;
+        absorb[i] = 1;
+        beforeClearing[i] = own.mean[i];
+        marked++;
+      }
+    }
+    return marked;
   }
 
   /**
@@ -277,7 +345,7 @@ export function createDriftingCounter(
       if (due) {
         const still = result.noiseScale <= maxNoiseScale && result.foregroundShare <= maxForegroundShare;
         if (still) {
-          update(frame, inner.lastMask(), Math.max(1, result.noiseScale), now);
+          update(frame, inner.lastMask(), result.blobs, Math.max(1, result.noiseScale), now);
         } else {
           // The view changed as a whole: no learning now, and the next update does not make up for the time.
           lastUpdate = now;
@@ -291,11 +359,16 @@ export function createDriftingCounter(
     },
     stageTimes,
     model: () => own,
-    driftState: () => ({ updates, meanShift, absorbedPixels, rescales }),
+    driftState: () => ({ updates, meanShift, absorbedPixels, rescales, ghostPixels }),
+    ghostRepair: () => repair,
   };
   adaptedMeans.set(counter, { model: own });
   return counter;
 }
+
+/** Updates in a row a pixel must be part of a ghost before it is cleared (two: one look could be a passer-by's moment). */
+const GHOST_UPDATES = 2;
+const noRepair = new Float32Array(0);
 
 function sameArray(a: Float32Array, b: Float32Array): boolean {
   for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;

@@ -4,6 +4,7 @@ import type { Blob } from '../vision/labelComponents.ts';
 import type { PreparedZone } from '../vision/prepareZones.ts';
 import type { Subspace } from '../vision/subspace.ts';
 import { createCounter, type CounterOptions } from './createCounter.ts';
+import { createDriftingCounter } from './createDriftingCounter.ts';
 import { createPersonSizeReservoir, PersonSizeState, type PersonSizeSuggestion } from './createPersonSizeReservoir.ts';
 import type { PerspectiveReference, Zone } from '../domain/zone.ts';
 
@@ -18,6 +19,13 @@ export interface FoundPersonSize {
   readonly medianArea?: number;
   /** The zones, room zones without `personArea` or `perspective` of their own given the size found. */
   readonly zones: Zone[];
+  /**
+   * The model to count with: the learned one, or — when ghosts were cleared in this pass (someone
+   * stood still through learning and later walked off) — a copy whose mean no longer shows them.
+   */
+  readonly model: Subspace;
+  /** Pixels of the learned empty scene repaired because they showed something that went away. */
+  readonly repairedPixels: number;
   /** Ids of the zones that were given the size found. */
   readonly applied: readonly string[];
   /** Room zones whose own `personArea` is far from what the frames show, in words (one line each). */
@@ -40,6 +48,13 @@ export interface FindPersonSizeOptions {
   mismatchFactor?: number;
   /** People seen alone needed for a single median size when no line can be fitted (≥ 1, default 15). */
   minForMedian?: number;
+  /**
+   * Frames per second of the frames, when they are a sequence in time (a video): the pass then
+   * follows drift on that clock and clears ghosts (createDriftingCounter), and `model` comes back
+   * repaired (not yet used by count or evaluate: clearing ghosts can take a person sitting still
+   * for one). Absent: the frames are looked at as they are, with the learned model.
+   */
+  framesPerSecond?: number;
 }
 
 /**
@@ -62,10 +77,17 @@ export async function findPersonSize(
   items: AsyncIterable<FrameItem>,
   options: FindPersonSizeOptions = {},
 ): Promise<FoundPersonSize> {
-  const { maxFrames = 3000, counter: counterOptions = {}, mismatchFactor = 2, minForMedian = 15 } = options;
+  const { maxFrames = 3000, counter: counterOptions = {}, mismatchFactor = 2, minForMedian = 15, framesPerSecond } = options;
+  if (framesPerSecond !== undefined && !(framesPerSecond > 0 && Number.isFinite(framesPerSecond))) throw new RangeError(`framesPerSecond must be a number > 0, got ${framesPerSecond}`);
   if (!(Number.isInteger(maxFrames) && maxFrames >= 1)) throw new RangeError(`maxFrames must be a whole number ≥ 1, got ${maxFrames}`);
   if (!(mismatchFactor > 1)) throw new RangeError(`mismatchFactor must be > 1, got ${mismatchFactor}`);
-  const counter = createCounter(model, zones, counterOptions);
+  let frames = 0;
+  // In time order the pass follows the scene as the sequence counter will, and clears ghosts.
+  const counter =
+    framesPerSecond === undefined
+      ? createCounter(model, zones, counterOptions)
+      : createDriftingCounter(model, zones, { ...counterOptions, clearGhosts: true, clock: () => (frames * 1000) / framesPerSecond });
+  const repair = 'ghostRepair' in counter ? counter.ghostRepair() : new Float32Array(0);
   // Seeded, so that the reservoirs keep the same blobs run to run.
   const draws = random(1);
   const uniform = () => draws.uniform();
@@ -74,7 +96,6 @@ export async function findPersonSize(
   const whole = createPersonSizeReservoir(model, { every: 2, random: uniform });
   const rooms = counter.zones.filter((z) => z.kind === 'room');
   const perZone = new Map(rooms.map((z) => [z.id, createPersonSizeReservoir(model, { every: 2, random: uniform })]));
-  let frames = 0;
   let previous: readonly Blob[] = [];
   let followed = 0;
   let blobsAfterFirst = 0;
@@ -149,7 +170,8 @@ export async function findPersonSize(
   });
   const continuity = blobsAfterFirst === 0 ? Number.NaN : followed / blobsAfterFirst;
   const medianArea = overall.references === undefined ? overall.medianArea : undefined;
-  return { suggestion, ...(medianArea !== undefined && { medianArea }), zones: out, applied, mismatches, frames, continuity };
+  const { model: repaired, pixels: repairedPixels } = repairedModel(model, repair);
+  return { suggestion, ...(medianArea !== undefined && { medianArea }), model: repaired, repairedPixels, zones: out, applied, mismatches, frames, continuity };
 }
 
 /** The smallest blob any zone keeps (blobs below it are specks, not worth following). */
@@ -162,4 +184,19 @@ function minimumBlob(zones: readonly PreparedZone[]): number {
 /** A share of the frame in words: 0.0123 → "1.23 %". */
 export function formatShare(share: number): string {
   return `${(share * 100).toFixed(share < 0.001 ? 3 : 2)} %`;
+}
+
+/**
+ * The learned model with the ghosts cleared in a pass added to its mean (`repair`: per pixel, what
+ * clearing changed, as createDriftingCounter's ghostRepair); the same model when nothing was
+ * cleared. Only the cleared pixels change: the drift followed in the pass belongs to its moment
+ * and is left out.
+ */
+export function repairedModel(model: Subspace, repair: Float32Array): { model: Subspace; pixels: number } {
+  let pixels = 0;
+  for (let i = 0; i < repair.length; i++) if (repair[i] !== 0) pixels++;
+  if (pixels === 0) return { model, pixels };
+  const mean = Float32Array.from(model.mean);
+  for (let i = 0; i < repair.length; i++) mean[i] += repair[i];
+  return { model: { ...model, mean }, pixels };
 }
